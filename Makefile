@@ -1,0 +1,36 @@
+# Slopewise build and test entry points. `make test` is what CI runs
+# (.ci/run calls it); it installs what it needs on a fresh Debian machine.
+
+GO ?= go
+APT_PACKAGES := r-base-core r-cran-sandwich
+
+.PHONY: test deps go-test crosscheck-r bench vet
+
+test: deps vet go-test
+
+# System packages: R and sandwich are the independent check of the engine
+# (testdata/r/). Installed only when missing; needs root or sudo.
+deps:
+	@missing=""; for p in $(APT_PACKAGES); do \
+	  dpkg -s $$p >/dev/null 2>&1 || missing="$$missing $$p"; done; \
+	if [ -n "$$missing" ]; then \
+	  echo "installing:$$missing"; \
+	  SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
+	  $$SUDO apt-get update -qq && \
+	  DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
+	fi
+	$(GO) mod download
+
+vet:
+	$(GO) vet ./...
+	@test -z "$$(gofmt -l .)" || { echo "gofmt would change:"; gofmt -l .; exit 1; }
+
+go-test:
+	$(GO) test ./...
+
+# Rerun R on the reference cases and compare with the engine live.
+crosscheck-r:
+	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR' -v
+
+bench:
+	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x
