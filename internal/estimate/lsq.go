@@ -1,0 +1,211 @@
+package estimate
+
+import (
+	"math"
+
+	"gonum.org/v1/gonum/blas"
+	"gonum.org/v1/gonum/blas/blas64"
+)
+
+// condRefine is the condition number (of the column-scaled design) above
+// which the inverse cross-product is also refined column by column. Below
+// it, the plain factorization already gives more than ten correct digits.
+const condRefine = 1e5
+
+// refineSteps bounds the refinement iterations; each costs O(N·K).
+const refineSteps = 6
+
+// lsFit is a least-squares fit of y on X, where X and y already carry the
+// square roots of any weights (METHODS §2).
+type lsFit struct {
+	n, k  int
+	x     []float64 // X, n×k row-major
+	y     []float64
+	coef  []float64
+	resid []float64
+	rss   float64
+	bread []float64 // (XᵀX)⁻¹, k×k row-major
+	qr    *qrFactor
+}
+
+// alias describes a column of X that is a linear combination of others.
+type alias struct {
+	col      int   // the aliased column
+	partners []int // the columns it is a combination of
+}
+
+// fitLS fits y on X (n×k row-major). When X does not have full column rank,
+// it returns no fit and the aliased columns instead.
+func fitLS(x, y []float64, n, k int) (*lsFit, []alias) {
+	q := factorQR(x, n, k)
+	if q.rank < k {
+		return nil, q.aliases()
+	}
+	f := &lsFit{n: n, k: k, x: x, y: y, qr: q}
+	f.coef = q.solveLS(y)
+	q.refine(x, y, make([]float64, k), f.coef, refineSteps)
+	f.resid = residuals(x, y, f.coef, k)
+	var a acc
+	for _, e := range f.resid {
+		a.addProd(e, e)
+	}
+	f.rss = a.value()
+	f.bread = f.inverseCrossProduct()
+	return f, nil
+}
+
+// aliases lists the columns past the numerical rank and, for each, the kept
+// columns it is a combination of: R11⁻¹·R12 in the pivoted QR.
+func (q *qrFactor) aliases() []alias {
+	k, r := q.k, q.rank
+	var out []alias
+	for j := r; j < k; j++ {
+		col := q.perm[j]
+		if q.d[col] == 0 {
+			out = append(out, alias{col: col})
+			continue
+		}
+		t := make([]float64, k)
+		for i := 0; i < r; i++ {
+			t[i] = q.a2[i*k+j]
+		}
+		q.solveR(t)
+		big := 0.0
+		for i := 0; i < r; i++ {
+			big = math.Max(big, math.Abs(t[i]))
+		}
+		a := alias{col: col}
+		for i := 0; i < r; i++ {
+			if math.Abs(t[i]) > 1e-6*big {
+				a.partners = append(a.partners, q.perm[i])
+			}
+		}
+		out = append(out, a)
+	}
+	return out
+}
+
+// inverseCrossProduct returns (XᵀX)⁻¹ = S⁻¹·R2⁻¹·R2⁻ᵀ·S⁻ᵀ, refined column by
+// column when the design is ill-conditioned.
+func (f *lsFit) inverseCrossProduct() []float64 {
+	q, k := f.qr, f.k
+	ba := make([]float64, k*k) // in scaled, pivoted coordinates
+	e := make([]float64, k)
+	for j := 0; j < k; j++ {
+		clear(e)
+		e[j] = 1
+		q.solveRT(e)
+		q.solveR(e)
+		for i := 0; i < k; i++ {
+			ba[i*k+j] = e[i]
+		}
+	}
+	b := make([]float64, k*k)
+	for i, pi := range q.perm {
+		for j, pj := range q.perm {
+			b[pi*k+pj] = ba[i*k+j] / (q.d[pi] * q.d[pj])
+		}
+	}
+	if q.cond() > condRefine {
+		zero := make([]float64, f.n)
+		c := make([]float64, k)
+		col := make([]float64, k)
+		for j := 0; j < k; j++ {
+			clear(c)
+			c[j] = -1
+			for i := 0; i < k; i++ {
+				col[i] = b[i*k+j]
+			}
+			q.refine(f.x, zero, c, col, refineSteps)
+			for i := 0; i < k; i++ {
+				b[i*k+j] = col[i]
+			}
+		}
+	}
+	for i := 0; i < k; i++ {
+		for j := i + 1; j < k; j++ {
+			m := (b[i*k+j] + b[j*k+i]) / 2
+			b[i*k+j], b[j*k+i] = m, m
+		}
+	}
+	return b
+}
+
+// leverage returns hᵢ = xᵢᵀ(XᵀX)⁻¹xᵢ for every row.
+func (f *lsFit) leverage() []float64 {
+	n, k := f.n, f.k
+	h := make([]float64, n)
+	bread := blas64.General{Rows: k, Cols: k, Stride: k, Data: f.bread}
+	buf := make([]float64, chunkRows*k)
+	for start := 0; start < n; start += chunkRows {
+		rows := min(chunkRows, n-start)
+		xc := blas64.General{Rows: rows, Cols: k, Stride: k, Data: f.x[start*k : (start+rows)*k]}
+		t := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
+		blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, xc, bread, 0, t)
+		for i := 0; i < rows; i++ {
+			var s float64
+			for j := 0; j < k; j++ {
+				s += t.Data[i*k+j] * xc.Data[i*k+j]
+			}
+			h[start+i] = s
+		}
+	}
+	return h
+}
+
+// sandwich returns B·(Σ ωᵢ xᵢxᵢᵀ)·B with B = (XᵀX)⁻¹ (White 1980).
+func (f *lsFit) sandwich(omega []float64) []float64 {
+	n, k := f.n, f.k
+	meat := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
+	buf := make([]float64, chunkRows*k)
+	for start := 0; start < n; start += chunkRows {
+		rows := min(chunkRows, n-start)
+		xc := blas64.General{Rows: rows, Cols: k, Stride: k, Data: f.x[start*k : (start+rows)*k]}
+		w := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
+		for i := 0; i < rows; i++ {
+			o := omega[start+i]
+			for j := 0; j < k; j++ {
+				w.Data[i*k+j] = o * xc.Data[i*k+j]
+			}
+		}
+		blas64.Gemm(blas.Trans, blas.NoTrans, 1, xc, w, 1, meat)
+	}
+	return f.wrap(meat.Data)
+}
+
+// clusterSandwich returns B·(Σ_g s_g s_gᵀ)·B with the cluster score
+// s_g = Σ_{i∈g} xᵢeᵢ (Liang & Zeger 1986). cluster[i] is in [0, g).
+func (f *lsFit) clusterSandwich(cluster []int, g int) []float64 {
+	k := f.k
+	scores := make([]float64, g*k)
+	for i, c := range cluster {
+		e := f.resid[i]
+		row := f.x[i*k : (i+1)*k]
+		s := scores[c*k : (c+1)*k]
+		for j, v := range row {
+			s[j] += v * e
+		}
+	}
+	sg := blas64.General{Rows: g, Cols: k, Stride: k, Data: scores}
+	meat := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
+	blas64.Gemm(blas.Trans, blas.NoTrans, 1, sg, sg, 0, meat)
+	return f.wrap(meat.Data)
+}
+
+// wrap returns B·M·B, symmetrised.
+func (f *lsFit) wrap(m []float64) []float64 {
+	k := f.k
+	b := blas64.General{Rows: k, Cols: k, Stride: k, Data: f.bread}
+	mm := blas64.General{Rows: k, Cols: k, Stride: k, Data: m}
+	t := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
+	v := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, b, mm, 0, t)
+	blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, t, b, 0, v)
+	for i := 0; i < k; i++ {
+		for j := i + 1; j < k; j++ {
+			s := (v.Data[i*k+j] + v.Data[j*k+i]) / 2
+			v.Data[i*k+j], v.Data[j*k+i] = s, s
+		}
+	}
+	return v.Data
+}
