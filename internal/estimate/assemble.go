@@ -1,0 +1,205 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+)
+
+// nearShare is the half-width, as a share of the observed range, of the
+// window in which rows count as "near" a probe value.
+const nearShare = 0.10
+
+// result reads the fit back in the terms of the question: effects by
+// group, differences, the heterogeneity test and, for a continuous
+// moderator, the Johnson–Neyman analysis.
+func (ds *design) result(s Spec, f *lsFit, v []float64, df int, notes []string) *Result {
+	n, k := ds.n, ds.k
+	in := newInferencer(f.coef, v, df, s.Alpha, s.Power)
+	res := &Result{Spec: s, Notes: notes}
+	res.Rows = RowSummary{Read: ds.rowsRead, Used: n, Dropped: len(ds.dropped), Reasons: ds.counts, List: ds.dropped}
+
+	vt := s.Variance
+	if len(notes) > 0 && s.LeverageFallback != "" && (vt == HC2 || vt == HC3) {
+		vt = s.LeverageFallback
+	}
+	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
+		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
+	res.Model.R2, res.Model.AdjR2 = ds.rSquared(f)
+
+	res.Covariance = make([][]float64, k)
+	for i := 0; i < k; i++ {
+		res.Covariance[i] = append([]float64(nil), v[i*k:(i+1)*k]...)
+		a := make([]float64, k)
+		a[i] = 1
+		res.Coefficients = append(res.Coefficients, Coefficient{Term: ds.names[i], Role: ds.roles[i], Inference: in.combo(a)})
+	}
+
+	if ds.modValue != nil {
+		ds.continuousEffects(s, in, res)
+	} else {
+		ds.groupEffects(s, in, res)
+	}
+	if w, ok := in.wald(ds.iCols); ok {
+		res.Heterogeneity = &w
+	} else {
+		res.Notes = append(res.Notes, fmt.Sprintf("The test that all group effects are equal cannot be computed: the estimated covariance of the %d interaction terms is singular (with clusters, this happens when there are too few of them).", len(ds.iCols)))
+	}
+	return res
+}
+
+// rSquared returns R² and adjusted R², weighted when there are weights
+// (the model always has an intercept, so both are centred).
+func (ds *design) rSquared(f *lsFit) (float64, float64) {
+	var sw, swy float64
+	for i, y := range ds.y {
+		w := 1.0
+		if ds.w != nil {
+			w = ds.w[i]
+		}
+		sw += w
+		swy += w * y
+	}
+	mean := swy / sw
+	var tss float64
+	for i, y := range ds.y {
+		w := 1.0
+		if ds.w != nil {
+			w = ds.w[i]
+		}
+		tss += w * (y - mean) * (y - mean)
+	}
+	r2 := 1 - f.rss/tss
+	adj := 1 - (1-r2)*float64(ds.n-1)/float64(ds.n-ds.k)
+	return r2, adj
+}
+
+// groupEffects fills the effects and differences of a binary or
+// categorical moderator: θ(level) = b1 + b3[level] (METHODS §4).
+func (ds *design) groupEffects(s Spec, in *inferencer, res *Result) {
+	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Levels: ds.levels, Reference: ds.levels[ds.ref]}
+	binaryT := s.Treatment.Kind != TreatmentContinuous
+	// icol[level] is the interaction column of the level, −1 for the reference.
+	icol := make([]int, len(ds.levels))
+	next := 0
+	for j := range ds.levels {
+		if j == ds.ref {
+			icol[j] = -1
+			continue
+		}
+		icol[j] = ds.iCols[next]
+		next++
+	}
+	rows := make([]int, len(ds.levels))
+	treated := make([]int, len(ds.levels))
+	for r, l := range ds.modLevel {
+		rows[l]++
+		if ds.treat[r] == 1 {
+			treated[l]++
+		}
+	}
+	// Report order: the reference first, then the other levels in order.
+	order := []int{ds.ref}
+	for j := range ds.levels {
+		if j != ds.ref {
+			order = append(order, j)
+		}
+	}
+	for _, j := range order {
+		a := make([]float64, ds.k)
+		a[ds.tCol] = 1
+		if icol[j] >= 0 {
+			a[icol[j]] = 1
+		}
+		e := GroupEffect{Group: ds.levels[j], Reference: j == ds.ref, Rows: rows[j], Inference: in.combo(a)}
+		if binaryT {
+			e.Treated, e.Untreated = treated[j], rows[j]-treated[j]
+		}
+		res.Effects = append(res.Effects, e)
+	}
+	for p, ja := range order {
+		for _, jb := range order[p+1:] {
+			a := make([]float64, ds.k)
+			if icol[jb] >= 0 {
+				a[icol[jb]] += 1
+			}
+			if icol[ja] >= 0 {
+				a[icol[ja]] -= 1
+			}
+			inf := in.combo(a)
+			res.Differences = append(res.Differences, Difference{From: ds.levels[ja], To: ds.levels[jb],
+				VsReference: ja == ds.ref, Inference: inf, MDD: in.mdd(inf.SE)})
+		}
+	}
+}
+
+// continuousEffects fills the effects at probe values of a continuous
+// moderator, θ(m) = b1 + b3·(m − c), the differences and the
+// Johnson–Neyman analysis (METHODS §5).
+func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
+	sorted := sortedCopy(ds.modValue)
+	lo, hi := sorted[0], sorted[len(sorted)-1]
+	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Min: lo, Max: hi, Centre: ds.centre}
+	type probe struct {
+		label string
+		value float64
+	}
+	var probes []probe
+	if s.Moderator.Probes == nil {
+		for _, p := range []int{10, 25, 50, 75, 90} {
+			probes = append(probes, probe{fmt.Sprintf("p%d", p), quantile7(sorted, float64(p)/100)})
+		}
+	} else {
+		for _, v := range s.Moderator.Probes {
+			probes = append(probes, probe{formatNumber(v), v})
+		}
+	}
+	seen := map[float64]bool{}
+	var kept []probe
+	for _, p := range probes {
+		if !seen[p.value] {
+			seen[p.value] = true
+			kept = append(kept, p)
+		}
+	}
+	binaryT := s.Treatment.Kind != TreatmentContinuous
+	b3 := ds.iCols[0]
+	half := nearShare * (hi - lo)
+	var outside []string
+	for _, p := range kept {
+		a := make([]float64, ds.k)
+		a[ds.tCol] = 1
+		a[b3] = p.value - ds.centre
+		e := GroupEffect{Group: p.label, Value: p.value, Inference: in.combo(a), Extrapolated: p.value < lo || p.value > hi}
+		for r, m := range ds.modValue {
+			if math.Abs(m-p.value) <= half {
+				e.Rows++
+				if binaryT && ds.treat[r] == 1 {
+					e.Treated++
+				}
+			}
+		}
+		if binaryT {
+			e.Untreated = e.Rows - e.Treated
+		}
+		if e.Extrapolated {
+			outside = append(outside, formatNumber(p.value))
+		}
+		res.Effects = append(res.Effects, e)
+	}
+	if outside != nil {
+		res.Notes = append(res.Notes, fmt.Sprintf("The moderator value(s) %s lie outside the observed range %s to %s; effects there are extrapolated from the straight-line model.", quoteList(outside), formatNumber(lo), formatNumber(hi)))
+	}
+
+	unit := make([]float64, ds.k)
+	unit[b3] = 1
+	inf := in.combo(unit)
+	res.Differences = append(res.Differences, Difference{PerUnit: true, Inference: inf, MDD: in.mdd(inf.SE)})
+	if len(kept) > 1 {
+		first, last := kept[0], kept[len(kept)-1]
+		a := make([]float64, ds.k)
+		a[b3] = last.value - first.value
+		inf := in.combo(a)
+		res.Differences = append(res.Differences, Difference{From: first.label, To: last.label, Inference: inf, MDD: in.mdd(inf.SE)})
+	}
+	res.JohnsonNeyman = johnsonNeyman(in, ds.tCol, b3, ds.centre, lo, hi)
+}

@@ -1,0 +1,476 @@
+package estimate
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// DroppedRow is a row left out of the fit and why.
+type DroppedRow struct {
+	Row    int    `json:"row"`
+	Column string `json:"column"`
+	Reason string `json:"reason"`
+}
+
+// DropCount counts the dropped rows that share a reason.
+type DropCount struct {
+	Column string `json:"column"`
+	Reason string `json:"reason"`
+	Rows   int    `json:"rows"`
+}
+
+// Term roles in the design matrix.
+const (
+	roleIntercept   = "intercept"
+	roleTreatment   = "treatment"
+	roleModerator   = "moderator"
+	roleInteraction = "interaction"
+	roleControl     = "control"
+)
+
+// design is the model matrix and everything needed to read the fit back.
+type design struct {
+	n, k  int
+	names []string
+	roles []string
+	x     []float64 // unweighted, n×k row-major
+	y     []float64
+	w     []float64 // nil without weights
+
+	rowsRead int
+	used     []int // data row index of each used row
+	dropped  []DroppedRow
+	counts   []DropCount
+
+	treat []float64 // T of each used row
+
+	// Binary or categorical moderator.
+	levels   []string
+	ref      int
+	modLevel []int // level of each used row
+	// Continuous moderator.
+	modValue []float64
+	centre   float64
+
+	tCol  int
+	mCols []int // by level (−1 for the reference) or the single column
+	iCols []int
+
+	cluster       []int
+	clusterLabels []string
+}
+
+// roleColumn pairs a column with the words used for its role in messages.
+type roleColumn struct {
+	col     *Column
+	role    string
+	numeric bool
+}
+
+// problem says why row i cannot be used for this role, or "" if it can.
+func (rc roleColumn) problem(i int) (reason, kind string) {
+	c := rc.col
+	if !c.IsNumeric() {
+		if c.Text[i] == "" {
+			return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
+		}
+		return "", ""
+	}
+	v := c.Num[i]
+	switch {
+	case math.IsNaN(v) && c.cellText(i) != "":
+		return fmt.Sprintf("text %q where the %s (%q) needs a number", c.cellText(i), rc.role, c.Name), "text"
+	case math.IsNaN(v):
+		return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
+	case math.IsInf(v, 0):
+		return fmt.Sprintf("%s (%q) is not a finite number", rc.role, c.Name), "infinite"
+	case rc.role == "weight" && v <= 0:
+		return fmt.Sprintf("weight (%q) is 0 or negative (%s)", c.Name, formatNumber(v)), "weight"
+	}
+	return "", ""
+}
+
+// countReason is the reason of a kind, without the cell's own value.
+func countReason(rc roleColumn, kind string) string {
+	switch kind {
+	case "text":
+		return fmt.Sprintf("text where the %s (%q) needs a number", rc.role, rc.col.Name)
+	case "infinite":
+		return fmt.Sprintf("%s (%q) is not a finite number", rc.role, rc.col.Name)
+	case "weight":
+		return fmt.Sprintf("weight (%q) is 0 or negative", rc.col.Name)
+	}
+	return fmt.Sprintf("missing %s (%q)", rc.role, rc.col.Name)
+}
+
+// buildDesign turns the data and a spec (defaults filled) into the model
+// matrix, leaving out rows with a missing or unusable value in any column
+// the model uses (listwise deletion), each with its reason.
+func buildDesign(d *Data, s Spec) (*design, error) {
+	n, err := d.rows()
+	if err != nil {
+		return nil, err
+	}
+	get := func(name, role string, numeric bool) (roleColumn, error) {
+		c, err := d.column(name, role)
+		if err != nil {
+			return roleColumn{}, err
+		}
+		if numeric && !c.IsNumeric() {
+			return roleColumn{}, fail(ErrSpec, name, fmt.Sprintf("The %s column %q holds text, not numbers. %s", role, name, numericAdvice(role)))
+		}
+		return roleColumn{col: c, role: role, numeric: numeric}, nil
+	}
+	outcome, err := get(s.Outcome, "outcome", true)
+	if err != nil {
+		return nil, err
+	}
+	treat, err := get(s.Treatment.Column, "treatment", s.Treatment.Kind != TreatmentLabels)
+	if err != nil {
+		return nil, err
+	}
+	mod, err := get(s.Moderator.Column, "moderator", s.Moderator.Kind == ModeratorContinuous)
+	if err != nil {
+		return nil, err
+	}
+	checks := []roleColumn{outcome, treat, mod}
+	var controls []roleColumn
+	for _, name := range s.Controls {
+		rc, err := get(name, "control", false)
+		if err != nil {
+			return nil, err
+		}
+		controls = append(controls, rc)
+		checks = append(checks, rc)
+	}
+	var cluster roleColumn
+	if s.Cluster != "" {
+		if cluster, err = get(s.Cluster, "cluster", false); err != nil {
+			return nil, err
+		}
+		checks = append(checks, cluster)
+	}
+	var weight roleColumn
+	if s.Weights != "" {
+		if weight, err = get(s.Weights, "weight", true); err != nil {
+			return nil, err
+		}
+		checks = append(checks, weight)
+	}
+
+	ds := &design{rowsRead: n}
+	countAt := map[[2]string]int{}
+	for i := 0; i < n; i++ {
+		reason, kind := "", ""
+		var at roleColumn
+		for _, rc := range checks {
+			if reason, kind = rc.problem(i); reason != "" {
+				at = rc
+				break
+			}
+		}
+		if reason == "" {
+			ds.used = append(ds.used, i)
+			continue
+		}
+		ds.dropped = append(ds.dropped, DroppedRow{Row: d.label(i), Column: at.col.Name, Reason: reason})
+		key := [2]string{at.col.Name, kind}
+		if j, ok := countAt[key]; ok {
+			ds.counts[j].Rows++
+		} else {
+			countAt[key] = len(ds.counts)
+			ds.counts = append(ds.counts, DropCount{Column: at.col.Name, Reason: countReason(at, kind), Rows: 1})
+		}
+	}
+	if len(ds.used) == 0 {
+		return nil, noRowsError(n, ds.counts)
+	}
+	ds.n = len(ds.used)
+
+	if err := ds.readTreatment(d, s, treat.col); err != nil {
+		return nil, err
+	}
+	if err := ds.readModerator(d, s, mod.col); err != nil {
+		return nil, err
+	}
+	ds.y = make([]float64, ds.n)
+	for r, i := range ds.used {
+		ds.y[r] = outcome.col.Num[i]
+	}
+	if s.Weights != "" {
+		ds.w = make([]float64, ds.n)
+		for r, i := range ds.used {
+			ds.w[r] = weight.col.Num[i]
+		}
+	}
+	if s.Cluster != "" {
+		ds.readCluster(cluster.col)
+	}
+	ds.assemble(s, controls)
+	return ds, nil
+}
+
+func numericAdvice(role string) string {
+	switch role {
+	case "treatment":
+		return "If it holds two labels, choose the kind \"labels\" and say which label means treated."
+	case "moderator":
+		return "If it holds groups, choose the kind \"categorical\"."
+	}
+	return "Pick a column of numbers, or fix the cells that hold text."
+}
+
+func noRowsError(n int, counts []DropCount) *Error {
+	var b strings.Builder
+	fmt.Fprintf(&b, "None of the %d rows can be used:", n)
+	for _, c := range counts {
+		fmt.Fprintf(&b, " %d with %s;", c.Rows, c.Reason)
+	}
+	msg := strings.TrimSuffix(b.String(), ";") + ". Check that the right columns are chosen and that the cells hold values."
+	col := ""
+	if len(counts) > 0 {
+		col = counts[0].Column
+	}
+	return fail(ErrNoRows, col, msg)
+}
+
+// readTreatment fills ds.treat, checking the values the kind allows.
+func (ds *design) readTreatment(d *Data, s Spec, c *Column) error {
+	ds.treat = make([]float64, ds.n)
+	switch s.Treatment.Kind {
+	case TreatmentContinuous:
+		for r, i := range ds.used {
+			ds.treat[r] = c.Num[i]
+		}
+	case TreatmentBinary:
+		var bad []int
+		var first float64
+		for r, i := range ds.used {
+			v := c.Num[i]
+			if v != 0 && v != 1 {
+				if bad == nil {
+					first = v
+				}
+				bad = append(bad, d.label(i))
+			}
+			ds.treat[r] = v
+		}
+		if bad != nil {
+			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q should hold only 0 (untreated) and 1 (treated), but row %d holds %s (%d rows in all). If it is a dose or amount, choose the kind \"continuous\"; otherwise correct those cells.", c.Name, bad[0], formatNumber(first), len(bad)), bad...)
+		}
+	case TreatmentLabels:
+		seen := map[string]int{}
+		for _, i := range ds.used {
+			seen[c.key(i)]++
+		}
+		labels := sortedLevels(seen)
+		treated := s.Treatment.Treated
+		if seen[treated] == 0 {
+			return fail(ErrValues, c.Name, fmt.Sprintf("The label %q, chosen as treated, does not appear in column %q among the rows used; its labels are %s.", treated, c.Name, quoteList(labels)))
+		}
+		if len(labels) != 2 {
+			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q has %d different labels (%s); it needs exactly two, one meaning treated. Correct the cells or recode the column.", c.Name, len(labels), quoteList(labels)))
+		}
+		for r, i := range ds.used {
+			if c.key(i) == treated {
+				ds.treat[r] = 1
+			}
+		}
+	}
+	return nil
+}
+
+// readModerator fills the moderator's levels or values.
+func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
+	m := s.Moderator
+	if m.Kind == ModeratorContinuous {
+		ds.modValue = make([]float64, ds.n)
+		for r, i := range ds.used {
+			ds.modValue[r] = c.Num[i]
+		}
+		if m.Centre != nil {
+			ds.centre = *m.Centre
+		}
+		return nil
+	}
+	count := map[string]int{}
+	for _, i := range ds.used {
+		count[c.key(i)]++
+	}
+	ds.levels = sortedLevels(count)
+	if m.Kind == ModeratorBinary && len(ds.levels) > 2 {
+		return fail(ErrValues, c.Name, fmt.Sprintf("The moderator %q was chosen as binary but has %d different values (%s). Choose the kind \"categorical\", or \"continuous\" if it is a measurement.", c.Name, len(ds.levels), quoteList(ds.levels)))
+	}
+	index := map[string]int{}
+	for j, l := range ds.levels {
+		index[l] = j
+	}
+	ds.ref = -1
+	switch {
+	case m.Reference != "":
+		j, ok := index[m.Reference]
+		if !ok {
+			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", m.Reference, c.Name, quoteList(ds.levels)))
+		}
+		ds.ref = j
+	case m.Kind == ModeratorBinary && len(ds.levels) == 2 && ds.levels[0] == "0" && ds.levels[1] == "1":
+		ds.ref = 0
+	default:
+		ds.ref = largestLevel(ds.levels, count)
+	}
+	ds.modLevel = make([]int, ds.n)
+	for r, i := range ds.used {
+		ds.modLevel[r] = index[c.key(i)]
+	}
+	return nil
+}
+
+func (ds *design) readCluster(c *Column) {
+	index := map[string]int{}
+	ds.cluster = make([]int, ds.n)
+	for r, i := range ds.used {
+		k := c.key(i)
+		j, ok := index[k]
+		if !ok {
+			j = len(ds.clusterLabels)
+			index[k] = j
+			ds.clusterLabels = append(ds.clusterLabels, k)
+		}
+		ds.cluster[r] = j
+	}
+}
+
+// assemble writes the model matrix: intercept, treatment, moderator,
+// treatment × moderator, controls (METHODS §1).
+func (ds *design) assemble(s Spec, controls []roleColumn) {
+	type term struct {
+		name, role string
+		value      func(r int) float64
+	}
+	var terms []term
+	add := func(name, role string, f func(r int) float64) int {
+		terms = append(terms, term{name, role, f})
+		return len(terms) - 1
+	}
+	add("(intercept)", roleIntercept, func(int) float64 { return 1 })
+	tName := s.Treatment.Column
+	if s.Treatment.Kind == TreatmentLabels {
+		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
+	}
+	ds.tCol = add(tName, roleTreatment, func(r int) float64 { return ds.treat[r] })
+
+	var modNames []string
+	var modValues []func(r int) float64
+	if ds.modValue != nil {
+		name := s.Moderator.Column
+		if ds.centre != 0 {
+			name = fmt.Sprintf("%s − %s", name, formatNumber(ds.centre))
+		}
+		modNames = append(modNames, name)
+		modValues = append(modValues, func(r int) float64 { return ds.modValue[r] - ds.centre })
+	} else {
+		for j, l := range ds.levels {
+			if j == ds.ref {
+				continue
+			}
+			modNames = append(modNames, fmt.Sprintf("%s = %s", s.Moderator.Column, l))
+			modValues = append(modValues, func(r int) float64 {
+				if ds.modLevel[r] == j {
+					return 1
+				}
+				return 0
+			})
+		}
+	}
+	for j, name := range modNames {
+		ds.mCols = append(ds.mCols, add(name, roleModerator, modValues[j]))
+	}
+	for j, name := range modNames {
+		f := modValues[j]
+		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(r int) float64 { return ds.treat[r] * f(r) }))
+	}
+	for _, rc := range controls {
+		c := rc.col
+		if c.IsNumeric() {
+			add(c.Name, roleControl, func(r int) float64 { return c.Num[ds.used[r]] })
+			continue
+		}
+		count := map[string]int{}
+		for _, i := range ds.used {
+			count[c.Text[i]]++
+		}
+		levels := sortedLevels(count)
+		ref := largestLevel(levels, count)
+		for j, l := range levels {
+			if j == ref {
+				continue
+			}
+			add(fmt.Sprintf("%s = %s", c.Name, l), roleControl, func(r int) float64 {
+				if c.Text[ds.used[r]] == l {
+					return 1
+				}
+				return 0
+			})
+		}
+	}
+	ds.k = len(terms)
+	ds.x = make([]float64, ds.n*ds.k)
+	for j, t := range terms {
+		ds.names = append(ds.names, t.name)
+		ds.roles = append(ds.roles, t.role)
+		for r := 0; r < ds.n; r++ {
+			ds.x[r*ds.k+j] = t.value(r)
+		}
+	}
+}
+
+// sortedLevels returns the keys in level order: numerically when every key
+// is a number, otherwise by byte order.
+func sortedLevels(count map[string]int) []string {
+	levels := make([]string, 0, len(count))
+	numeric := true
+	for l := range count {
+		levels = append(levels, l)
+		if _, err := strconv.ParseFloat(l, 64); err != nil {
+			numeric = false
+		}
+	}
+	if numeric {
+		sort.Slice(levels, func(a, b int) bool {
+			x, _ := strconv.ParseFloat(levels[a], 64)
+			y, _ := strconv.ParseFloat(levels[b], 64)
+			return x < y
+		})
+	} else {
+		sort.Strings(levels)
+	}
+	return levels
+}
+
+// largestLevel returns the index of the level with the most rows, ties
+// broken by the first in level order.
+func largestLevel(levels []string, count map[string]int) int {
+	best := 0
+	for j, l := range levels {
+		if count[l] > count[levels[best]] {
+			best = j
+		}
+	}
+	return best
+}
+
+func quoteList(xs []string) string {
+	const show = 8
+	q := make([]string, 0, min(len(xs), show))
+	for i, x := range xs {
+		if i == show {
+			q = append(q, fmt.Sprintf("and %d more", len(xs)-show))
+			break
+		}
+		q = append(q, strconv.Quote(x))
+	}
+	return strings.Join(q, ", ")
+}

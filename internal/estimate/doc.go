@@ -1,0 +1,20 @@
+// Package estimate fits the treatment × moderator model of METHODS.md and
+// reports the treatment's effect within each moderator group, the
+// differences between groups and their tests.
+//
+// The model (METHODS §1):
+//
+//	y = b0 + b1·T + b2'·M + b3'·(T × M) + g'·C + e
+//
+// The effect of T at moderator value m is the linear combination
+// θ(m) = b1 + b3'·d(m); its standard error uses the full covariance of the
+// coefficients, Var(a'b) = a'Va. Everything here is pure computation on
+// columns of numbers and text: the package knows nothing of files, sheets or
+// windows. Bad data returns an *Error that says, in plain words, what is
+// wrong and what to do; it never panics.
+//
+// The fit is a pivoted Householder QR with iterative refinement (qr.go);
+// variance estimators are in variance.go, linear combinations and tests in
+// effects.go, the Johnson–Neyman interval in jn.go, multiplicity
+// adjustments in adjust.go.
+package estimate

@@ -1,0 +1,129 @@
+package estimate
+
+// Result is a fitted model read as a person asks about it: the effect of
+// the treatment in each group, the differences between groups, and the
+// tests, with everything needed to say how they were obtained.
+type Result struct {
+	// Spec is the spec that was fitted, defaults filled in.
+	Spec Spec `json:"spec"`
+
+	Rows  RowSummary `json:"rows"`
+	Model ModelInfo  `json:"model"`
+
+	Coefficients []Coefficient `json:"coefficients"`
+	// Covariance is the estimated covariance of the coefficients, in the
+	// order of Coefficients.
+	Covariance [][]float64 `json:"covariance"`
+
+	Moderator     ModeratorInfo  `json:"moderator"`
+	Effects       []GroupEffect  `json:"effects"`
+	Differences   []Difference   `json:"differences"`
+	Heterogeneity *WaldTest      `json:"heterogeneity,omitempty"`
+	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+
+	// Notes are facts about this fit a reader should know (a fallback
+	// variance type, probes outside the data).
+	Notes []string `json:"notes,omitempty"`
+}
+
+// RowSummary says which rows were used.
+type RowSummary struct {
+	Read    int          `json:"read"`
+	Used    int          `json:"used"`
+	Dropped int          `json:"dropped"`
+	Reasons []DropCount  `json:"reasons,omitempty"`
+	List    []DroppedRow `json:"list,omitempty"`
+}
+
+// ModelInfo describes the fit as a whole.
+type ModelInfo struct {
+	Terms    int          `json:"terms"`
+	Variance VarianceType `json:"variance"`
+	// DF are the degrees of freedom of t and F tests: N − K, or G − 1
+	// with clusters (METHODS §3).
+	DF       int     `json:"df"`
+	Clusters int     `json:"clusters,omitempty"`
+	Sigma    float64 `json:"sigma"`
+	R2       float64 `json:"r2"`
+	AdjR2    float64 `json:"adj_r2"`
+	// Condition is a lower estimate of the condition number of the
+	// column-scaled model matrix.
+	Condition float64 `json:"condition"`
+	Alpha     float64 `json:"alpha"`
+	Power     float64 `json:"power"`
+}
+
+// Coefficient is one term of the model.
+type Coefficient struct {
+	Term string `json:"term"`
+	// Role is intercept, treatment, moderator, interaction or control.
+	Role string `json:"role"`
+	Inference
+}
+
+// Inference is an estimate with its standard error, t statistic, two-sided
+// p-value and confidence interval at level 1 − α.
+type Inference struct {
+	Estimate float64 `json:"estimate"`
+	SE       float64 `json:"se"`
+	T        float64 `json:"t"`
+	P        float64 `json:"p"`
+	CILow    float64 `json:"ci_low"`
+	CIHigh   float64 `json:"ci_high"`
+}
+
+// ModeratorInfo describes the moderator as fitted.
+type ModeratorInfo struct {
+	Column string        `json:"column"`
+	Kind   ModeratorKind `json:"kind"`
+	// Levels and Reference, for a binary or categorical moderator.
+	Levels    []string `json:"levels,omitempty"`
+	Reference string   `json:"reference,omitempty"`
+	// Min, Max and Centre, for a continuous moderator.
+	Min    float64 `json:"min,omitempty"`
+	Max    float64 `json:"max,omitempty"`
+	Centre float64 `json:"centre,omitempty"`
+}
+
+// GroupEffect is the treatment's effect in one moderator group, or at one
+// probe value of a continuous moderator.
+type GroupEffect struct {
+	// Group is the level, or for a continuous moderator a probe label
+	// ("p10" for the 10th percentile, or the value typed).
+	Group     string  `json:"group"`
+	Value     float64 `json:"value,omitempty"`
+	Reference bool    `json:"reference,omitempty"`
+	// Rows used in the group; for a probe, rows whose moderator lies within
+	// 10% of the observed range of the probe value.
+	Rows int `json:"rows"`
+	// Treated and Untreated count the group's rows by arm (binary or
+	// labelled treatment only).
+	Treated   int `json:"treated,omitempty"`
+	Untreated int `json:"untreated,omitempty"`
+	// Extrapolated marks a probe outside the observed range.
+	Extrapolated bool `json:"extrapolated,omitempty"`
+	Inference
+}
+
+// Difference is the difference of the effects in two groups, To − From,
+// or for a continuous moderator (PerUnit) the change in the effect per unit
+// of the moderator.
+type Difference struct {
+	From    string `json:"from,omitempty"`
+	To      string `json:"to,omitempty"`
+	PerUnit bool   `json:"per_unit,omitempty"`
+	// VsReference marks a comparison with the reference group.
+	VsReference bool `json:"vs_reference,omitempty"`
+	Inference
+	// MDD is the minimum detectable difference at the spec's α and power
+	// (Bloom 1995).
+	MDD float64 `json:"mdd"`
+}
+
+// WaldTest is an F test of several linear restrictions.
+type WaldTest struct {
+	F   float64 `json:"F"`
+	DF1 int     `json:"df1"`
+	DF2 int     `json:"df2"`
+	P   float64 `json:"p"`
+}
