@@ -3,6 +3,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"strconv"
 	"strings"
 )
 
@@ -152,9 +153,9 @@ func (ds *design) aliasError(aliased []alias) *Error {
 		case len(with) == 1 && with[0] == "(intercept)":
 			reason = fmt.Sprintf("%q has the same value in every row used", term)
 		case ds.roles[a.col] == roleControl:
-			reason = fmt.Sprintf("the control %q is a combination of %s, so it adds nothing they do not already say; remove one of them", term, quoteList(with))
+			reason = fmt.Sprintf("the control %q is a combination of %s, so it adds nothing they do not already say; remove one of them", term, termList(with))
 		default:
-			reason = fmt.Sprintf("%q is a combination of %s, so it cannot be estimated separately", term, quoteList(with))
+			reason = fmt.Sprintf("%q is a combination of %s, so it cannot be estimated separately", term, termList(with))
 		}
 		e.Aliased = append(e.Aliased, AliasedTerm{Term: term, With: with, Reason: reason})
 		parts = append(parts, reason)
@@ -164,6 +165,23 @@ func (ds *design) aliasError(aliased []alias) *Error {
 	}
 	e.Message = "Some terms of the model cannot be told apart: " + strings.Join(parts, "; ") + "."
 	return e
+}
+
+// termList writes model terms for a sentence: quoted names, the intercept
+// in words, the last joined with "and".
+func termList(terms []string) string {
+	var q []string
+	for _, t := range terms {
+		if t == "(intercept)" {
+			q = append(q, "the intercept")
+		} else {
+			q = append(q, strconv.Quote(t))
+		}
+	}
+	if len(q) < 2 {
+		return strings.Join(q, "")
+	}
+	return strings.Join(q[:len(q)-1], ", ") + " and " + q[len(q)-1]
 }
 
 // checkExact refuses a fit with no residual variation: standard errors
