@@ -1,0 +1,291 @@
+package workbook
+
+import (
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// maxDistinct bounds the distinct texts remembered for a column; past it
+// the column is free text whatever else it holds.
+const maxDistinct = 1000
+
+// colBuilder gathers one column's cells before its kind is decided.
+type colBuilder struct {
+	index int
+	nums  []float64 // the value of number, bool and date cells, else NaN
+	texts []string  // text of text cells; allocated at the first one
+	miss  []Reason  // Blank, ErrorValue, Marker, NoCachedValue or Present
+
+	numbers, converted, dates, dateTexts, bools int
+	distinct                                    map[string]int
+	distinctNums                                map[float64]struct{}
+}
+
+func newColBuilder(index int) *colBuilder {
+	return &colBuilder{index: index, distinct: map[string]int{}, distinctNums: map[float64]struct{}{}}
+}
+
+// add appends one row's cell (nil for a blank cell).
+func (b *colBuilder) add(c *rawCell, decimalComma bool) {
+	row := len(b.miss)
+	b.nums = append(b.nums, math.NaN())
+	b.miss = append(b.miss, Present)
+	if b.texts != nil {
+		b.texts = append(b.texts, "")
+	}
+	if c == nil {
+		b.miss[row] = Blank
+		return
+	}
+	switch c.Type {
+	case cellNoValue:
+		b.miss[row] = NoCachedValue
+	case cellError:
+		b.miss[row] = ErrorValue
+	case cellBool:
+		b.nums[row] = c.Num
+		b.bools++
+		b.setText(row, c.Text)
+	case cellNumber:
+		b.nums[row] = c.Num
+		if c.Date {
+			b.dates++
+		} else {
+			b.numbers++
+			b.noteNum(c.Num)
+		}
+	case cellText:
+		s := trimSpace(c.Text)
+		if r := classifyText(s); r != Present {
+			b.miss[row] = r
+			return
+		}
+		if v, ok := parseNumber(s, decimalComma); ok {
+			b.nums[row] = v
+			b.converted++
+			b.noteNum(v)
+			b.setText(row, s)
+			return
+		}
+		if _, ok := parseDate(s); ok {
+			b.dateTexts++
+			b.setText(row, s)
+			return
+		}
+		b.setText(row, s)
+	}
+}
+
+func (b *colBuilder) noteNum(v float64) {
+	if len(b.distinctNums) <= 2 {
+		b.distinctNums[v] = struct{}{}
+	}
+}
+
+func (b *colBuilder) setText(row int, s string) {
+	if b.texts == nil {
+		b.texts = make([]string, len(b.miss), cap(b.miss))
+	}
+	b.texts[row] = s
+	if len(b.distinct) < maxDistinct {
+		if _, ok := b.distinct[s]; !ok {
+			b.distinct[s] = len(b.distinct)
+		}
+	} else if _, ok := b.distinct[s]; !ok {
+		b.distinct[s] = -1 // marks "too many"; the map grows by one only
+	}
+}
+
+// maxLevels is the most distinct values a text column may have and still
+// be a category.
+const maxLevels = 50
+
+// finish decides the column's kind and fills col.
+func (b *colBuilder) finish(col *Column) {
+	col.Missing = b.miss
+	present := 0
+	for _, r := range b.miss {
+		if r == Present {
+			present++
+		}
+	}
+	numeric := b.numbers + b.converted
+	switch {
+	case present == 0:
+		col.Kind = Empty
+	case b.dates+b.dateTexts > present/2:
+		col.Kind = Date
+		col.Numbers = b.nums
+		for i, r := range b.miss {
+			if r != Present {
+				continue
+			}
+			if b.texts != nil && b.texts[i] != "" {
+				v, ok := parseDate(b.texts[i])
+				if !ok {
+					v, b.miss[i] = math.NaN(), BadDate
+				}
+				col.Numbers[i] = v
+			} else if math.IsNaN(col.Numbers[i]) {
+				b.miss[i] = BadDate
+			}
+		}
+	case numeric > present/2:
+		if numeric > 0 && b.bools == 0 && isZeroOne(b.distinctNums) {
+			b.finishYesNoNumbers(col)
+			break
+		}
+		col.Kind = Number
+		col.Numbers = b.nums
+		col.Converted = b.converted
+		for i, r := range b.miss {
+			if r == Present && math.IsNaN(col.Numbers[i]) {
+				b.miss[i] = TextInNumbers
+			}
+		}
+	default:
+		b.finishText(col, present)
+	}
+	col.Texts = nilIfKind(col.Kind, b.texts)
+	for _, r := range b.miss {
+		col.MissingCount[r]++
+	}
+	col.MissingCount[Present] = 0
+}
+
+func nilIfKind(k Kind, texts []string) []string {
+	if k == Number || k == Date || k == Empty {
+		return nil
+	}
+	return texts
+}
+
+func isZeroOne(set map[float64]struct{}) bool {
+	if len(set) != 2 {
+		return false
+	}
+	_, zero := set[0]
+	_, one := set[1]
+	return zero && one
+}
+
+// finishYesNoNumbers makes a 0/1 column a yes/no column.
+func (b *colBuilder) finishYesNoNumbers(col *Column) {
+	col.Kind = YesNo
+	col.Levels = []string{"0", "1"}
+	col.Numbers = b.nums
+	col.Converted = b.converted
+	col.Texts = make([]string, len(b.nums))
+	for i, v := range b.nums {
+		switch {
+		case b.miss[i] != Present:
+		case v == 0:
+			col.Texts[i] = col.Levels[0]
+		case v == 1:
+			col.Texts[i] = col.Levels[1]
+		default:
+			b.miss[i] = TextInNumbers
+			col.Numbers[i] = math.NaN()
+		}
+	}
+	b.texts = col.Texts
+}
+
+// finishText makes a yes/no, category or text column from a column that
+// is mostly text; numbers in it are kept as their text.
+func (b *colBuilder) finishText(col *Column, present int) {
+	if b.texts == nil {
+		b.texts = make([]string, len(b.miss))
+	}
+	for i, r := range b.miss {
+		if r == Present && b.texts[i] == "" {
+			s := formatNumber(b.nums[i])
+			b.texts[i] = s
+			if _, ok := b.distinct[s]; !ok && len(b.distinct) < maxDistinct {
+				b.distinct[s] = len(b.distinct)
+			}
+		}
+	}
+	n := len(b.distinct)
+	switch {
+	case n == 2:
+		col.Kind = YesNo
+	case n <= maxLevels && n*2 <= present:
+		col.Kind = Category
+	default:
+		col.Kind = Text
+		return
+	}
+	col.Levels = make([]string, 0, n)
+	for s := range b.distinct {
+		col.Levels = append(col.Levels, s)
+	}
+	if col.Kind == YesNo {
+		orderYesNo(col.Levels)
+	} else {
+		sort.Strings(col.Levels)
+	}
+	code := make(map[string]float64, n)
+	for i, s := range col.Levels {
+		code[s] = float64(i)
+	}
+	col.Numbers = b.nums
+	for i, r := range b.miss {
+		if r == Present {
+			col.Numbers[i] = code[b.texts[i]]
+		} else {
+			col.Numbers[i] = math.NaN()
+		}
+	}
+}
+
+// negativeWords are labels that come first (coded 0) in a yes/no column.
+var negativeWords = map[string]bool{
+	"no": true, "n": true, "false": true, "0": true, "control": true,
+	"untreated": true, "off": true, "absent": true, "non": true, "none": true,
+}
+
+// orderYesNo puts the negative-sounding label first, else sorts.
+func orderYesNo(levels []string) {
+	sort.Strings(levels)
+	if negativeWords[strings.ToLower(levels[1])] && !negativeWords[strings.ToLower(levels[0])] {
+		levels[0], levels[1] = levels[1], levels[0]
+	}
+}
+
+func formatNumber(v float64) string {
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}
+
+// nameColumns turns header texts into unique column names, reporting
+// blanks and duplicates as notes.
+func nameColumns(header []string, indexes []int, sheet string, headerRow int) ([]string, []Note) {
+	names := make([]string, len(header))
+	var notes []Note
+	seen := map[string]int{}
+	for i, h := range header {
+		h = strings.Join(strings.Fields(h), " ")
+		letter := columnLetter(indexes[i])
+		if h == "" {
+			h = "Column " + letter
+			if headerRow > 0 {
+				notes = append(notes, Note{Sheet: sheet, Cell: fmt.Sprintf("%s%d", letter, headerRow), Column: h,
+					Text: "the header cell is blank, so the column is named after its letter"})
+			}
+		}
+		base := h
+		for k := 2; seen[strings.ToLower(h)] > 0; k++ {
+			h = fmt.Sprintf("%s (%d)", base, k)
+		}
+		if h != base {
+			notes = append(notes, Note{Sheet: sheet, Cell: fmt.Sprintf("%s%d", letter, headerRow), Column: h,
+				Text: fmt.Sprintf("another column is already named %q, so this one is called %q", base, h)})
+		}
+		seen[strings.ToLower(h)]++
+		names[i] = h
+	}
+	return names, notes
+}

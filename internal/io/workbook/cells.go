@@ -1,0 +1,219 @@
+package workbook
+
+import (
+	"math"
+	"strconv"
+	"strings"
+	"time"
+	"unicode/utf8"
+)
+
+// cellType is what a source cell holds before the column's kind is known.
+type cellType uint8
+
+const (
+	cellText    cellType = iota // text, possibly a number stored as text
+	cellNumber                  // a stored number in Num
+	cellBool                    // TRUE/FALSE; Num is 1 or 0
+	cellError                   // a spreadsheet error value in Text
+	cellNoValue                 // a formula whose result was never saved
+)
+
+// rawCell is one non-empty source cell as a rowSource delivers it.
+type rawCell struct {
+	Col  int // 0-based
+	Type cellType
+	Text string
+	Num  float64
+	// Date marks a number displayed with a date or time format; Num is
+	// then a 1900-system serial.
+	Date bool
+	// Formula marks a cell whose value came from a formula.
+	Formula bool
+	// Line is the line of a text file the cell starts on (0 in workbooks).
+	Line int
+}
+
+// rowSource delivers a sheet's non-empty rows in order. It is the seam
+// between the file formats and the column builder: a faster workbook
+// reader only needs to implement it.
+type rowSource interface {
+	// Next returns the next row that has at least one cell, its 1-based
+	// row number, and its cells in column order. The slice is reused by
+	// the next call. At the end it returns io.EOF.
+	Next() (row int, cells []rawCell, err error)
+	Close() error
+}
+
+// errorValues are the spreadsheet error values (ECMA-376 Part 1, section
+// 18.17.2.2 for the first seven; the rest are newer error values that
+// current spreadsheet programs write, from memory).
+var errorValues = map[string]bool{
+	"#N/A": true, "#DIV/0!": true, "#VALUE!": true, "#REF!": true,
+	"#NAME?": true, "#NUM!": true, "#NULL!": true,
+	"#GETTING_DATA": true, "#SPILL!": true, "#CALC!": true, "#FIELD!": true,
+	"#BLOCKED!": true, "#CONNECT!": true, "#BUSY!": true, "#UNKNOWN!": true,
+}
+
+// missingMarkers are values that people type by hand to mean "no value"
+// (common practice in survey and monitoring data), compared without case.
+var missingMarkers = map[string]bool{
+	"na": true, "n/a": true, "n.a.": true, ".": true, "-": true, "--": true,
+	"missing": true, "nan": true,
+}
+
+// trimSpace trims ASCII and Unicode spaces, including the no-break spaces
+// that copied numbers often carry.
+func trimSpace(s string) string {
+	return strings.TrimFunc(s, func(r rune) bool {
+		return r == ' ' || r == '\t' || r == '\r' || r == '\n' || r == '\u00a0' || r == '\u202f' || r == '\u2007'
+	})
+}
+
+// classify returns why a text value is missing, or Present.
+func classifyText(s string) Reason {
+	if s == "" {
+		return Blank
+	}
+	if errorValues[strings.ToUpper(s)] {
+		return ErrorValue
+	}
+	if missingMarkers[strings.ToLower(s)] {
+		return Marker
+	}
+	return Present
+}
+
+// parseNumber reads a number written as text: an optional sign, digits
+// with an optional thousands separator in groups of three, a decimal
+// separator ('.' or, with decimalComma, ','), an exponent, and an optional
+// trailing percent sign (divided by 100). Spaces and no-break spaces may
+// also group thousands. It accepts nothing else, so "inf", "0x10" and
+// "1_000" stay text.
+func parseNumber(s string, decimalComma bool) (float64, bool) {
+	if s == "" || len(s) > 64 {
+		return 0, false
+	}
+	dec, thou := byte('.'), byte(',')
+	if decimalComma {
+		dec, thou = ',', '.'
+	}
+	percent := false
+	if strings.HasSuffix(s, "%") {
+		percent = true
+		s = trimSpace(s[:len(s)-1])
+	}
+	var b [64]byte
+	out := b[:0]
+	i := 0
+	if i < len(s) && (s[i] == '+' || s[i] == '-') {
+		out = append(out, s[i])
+		i++
+	}
+	// Integer part with optional grouping.
+	intStart := i
+	group := -1 // digits since the last separator; -1: no separator yet
+	var sep byte
+	for i < len(s) {
+		c := s[i]
+		switch {
+		case c >= '0' && c <= '9':
+			out = append(out, c)
+			if group >= 0 {
+				group++
+			}
+			i++
+			continue
+		case c == thou || c == ' ' || strings.HasPrefix(s[i:], "\u00a0") || strings.HasPrefix(s[i:], "\u202f"):
+			if i == intStart || group >= 0 && group != 3 {
+				return 0, false
+			}
+			if group < 0 && i-intStart > 3 {
+				return 0, false
+			}
+			if sep != 0 && sep != c {
+				return 0, false
+			}
+			sep = c
+			group = 0
+			_, w := utf8.DecodeRuneInString(s[i:])
+			i += w
+			continue
+		}
+		break
+	}
+	digits := len(out) > 0 && out[len(out)-1] >= '0' && out[len(out)-1] <= '9'
+	if group >= 0 && group != 3 {
+		return 0, false
+	}
+	if i < len(s) && s[i] == dec {
+		out = append(out, '.')
+		i++
+		for i < len(s) && s[i] >= '0' && s[i] <= '9' {
+			out = append(out, s[i])
+			digits = true
+			i++
+		}
+	}
+	if !digits {
+		return 0, false
+	}
+	if i < len(s) && (s[i] == 'e' || s[i] == 'E') {
+		out = append(out, 'e')
+		i++
+		if i < len(s) && (s[i] == '+' || s[i] == '-') {
+			out = append(out, s[i])
+			i++
+		}
+		expStart := i
+		for i < len(s) && s[i] >= '0' && s[i] <= '9' {
+			out = append(out, s[i])
+			i++
+		}
+		if i == expStart {
+			return 0, false
+		}
+	}
+	if i != len(s) {
+		return 0, false
+	}
+	v, err := strconv.ParseFloat(string(out), 64)
+	if err != nil || math.IsInf(v, 0) {
+		return 0, false
+	}
+	if percent {
+		v /= 100
+	}
+	return v, true
+}
+
+// dateLayouts are the date and time forms read from text: ISO 8601 only,
+// since "03/04/2024" means different days in different countries.
+var dateLayouts = []string{
+	"2006-01-02",
+	"2006-01-02 15:04",
+	"2006-01-02 15:04:05",
+	"2006-01-02T15:04",
+	"2006-01-02T15:04:05",
+	"2006-01-02T15:04:05Z07:00",
+	"2006-01-02T15:04:05.999999999",
+	"2006-01-02T15:04:05.999999999Z07:00",
+	"2006/01/02",
+}
+
+// parseDate reads an ISO 8601 date or date-time written as text into a
+// 1900-system serial.
+func parseDate(s string) (float64, bool) {
+	if len(s) < 10 || len(s) > 40 || s[0] < '0' || s[0] > '9' {
+		return 0, false
+	}
+	for _, layout := range dateLayouts {
+		if t, err := time.Parse(layout, s); err == nil {
+			if t.Year() < 1900 || t.Year() > 9999 {
+				return 0, false
+			}
+			return timeToSerial(t.UTC()), true
+		}
+	}
+	return 0, false
+}

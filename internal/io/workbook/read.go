@@ -1,0 +1,438 @@
+package workbook
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"slices"
+	"sort"
+)
+
+// Options steer Read. The zero value reads the first worksheet and finds
+// the header row by itself.
+type Options struct {
+	// Sheet is the worksheet to read; empty means the first visible one.
+	// Ignored for text files.
+	Sheet string
+	// HeaderRow is the 1-based row holding the column names. Zero means
+	// find it: the first row of mostly text, at least half as wide as the
+	// table, above rows with more numbers in them. NoHeader means the sheet
+	// has no header row; columns are then named after their letters.
+	HeaderRow int
+	// UnzipSizeLimit bounds the total unpacked size of a workbook and
+	// UnzipXMLSizeLimit the size of one worksheet held in memory (larger
+	// ones are unpacked to a temporary file). Zero means the defaults
+	// below. A file past either is refused with ErrTooLarge.
+	UnzipSizeLimit    int64
+	UnzipXMLSizeLimit int64
+	// Progress, when set, is called with the number of rows read so far,
+	// every few thousand rows.
+	Progress func(rows int)
+}
+
+// NoHeader is the HeaderRow value for a sheet without column names.
+const NoHeader = -1
+
+// Default size limits. A genuine 1,000,000-row sheet of twelve columns
+// unpacks to well under 1 GiB; a crafted "zip bomb" unpacks to far more.
+const (
+	DefaultUnzipSizeLimit    = 4 << 30
+	DefaultUnzipXMLSizeLimit = 64 << 20
+)
+
+// headerScanRows is how many non-empty rows are held back to find the
+// header row.
+const headerScanRows = 50
+
+// Read reads one sheet of a workbook or a text file into a Table.
+// The file is only read, never changed.
+func Read(ctx context.Context, path string, opts Options) (*Table, error) {
+	f, err := sniff(path)
+	if err != nil {
+		return nil, err
+	}
+	var (
+		src   rowSource
+		table = &Table{Path: path}
+		dc    bool
+	)
+	switch f {
+	case formatXLSX:
+		var sheet string
+		src, sheet, err = openXLSXSheet(path, opts)
+		table.Sheet = sheet
+	default:
+		var tf *TextFormat
+		src, tf, err = openText(path)
+		table.Text = tf
+		if tf != nil {
+			dc = tf.DecimalComma
+			if tf.Encoding != "UTF-8" {
+				table.Notes = append(table.Notes, Note{Text: "the file is not UTF-8; it was read as " + tf.Encoding + " text"})
+			}
+		}
+	}
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	if err := build(ctx, src, table, opts, dc); err != nil {
+		var e *Error
+		if errors.As(err, &e) {
+			if e.Path == "" {
+				e.Path = path
+			}
+			if e.Sheet == "" {
+				e.Sheet = table.Sheet
+			}
+			return nil, e
+		}
+		return nil, &Error{Path: path, Sheet: table.Sheet, Underlying: err}
+	}
+	return table, nil
+}
+
+// bufRow is a row held back while the header is found.
+type bufRow struct {
+	num   int
+	cells []rawCell
+}
+
+// build reads every row of src into table.
+func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalComma bool) error {
+	var buf []bufRow
+	for len(buf) < headerScanRows {
+		num, cells, err := src.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		if isBlankRow(cells) {
+			continue
+		}
+		buf = append(buf, bufRow{num, slices.Clone(cells)})
+		if opts.HeaderRow > 0 && num >= opts.HeaderRow && len(buf) >= 2 {
+			break
+		}
+	}
+	if len(buf) == 0 {
+		return &Error{Cause: ErrEmptySheet}
+	}
+	hi := -1 // index in buf of the header row, or of the last row above it
+	var headerCells []rawCell
+	switch {
+	case opts.HeaderRow > 0:
+		if last := buf[len(buf)-1].num; last < opts.HeaderRow {
+			return &Error{Cause: ErrHeaderOutside, Detail: fmt.Sprintf("row %d was asked for; the last row with values is row %d", opts.HeaderRow, last)}
+		}
+		for i, r := range buf {
+			if r.num <= opts.HeaderRow {
+				hi = i
+			}
+		}
+		t.HeaderRow = opts.HeaderRow
+		if hi >= 0 && buf[hi].num == opts.HeaderRow {
+			headerCells = buf[hi].cells
+		}
+	case opts.HeaderRow == 0:
+		t.HeaderDetected = true
+		if hi = detectHeader(buf); hi >= 0 {
+			headerCells = buf[hi].cells
+			t.HeaderRow = buf[hi].num
+		} else {
+			t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: "no header row was found, so columns are named after their letters; set the header row if this is wrong"})
+		}
+	}
+	_, isText := src.(*textSource)
+	b := &tableBuilder{t: t, cols: map[int]*colBuilder{}, decimalComma: decimalComma, fixedWidth: isText && t.HeaderRow > 0}
+	if t.HeaderRow > 0 {
+		b.header = map[int]string{}
+		for _, c := range headerCells {
+			b.header[c.Col] = headerText(c)
+			b.col(c.Col)
+		}
+	}
+	if b.fixedWidth {
+		b.width = len(b.cols)
+		for c := range b.cols {
+			b.width = max(b.width, c+1)
+		}
+	}
+	for _, r := range buf[hi+1:] {
+		if err := b.addRow(r.num, r.cells); err != nil {
+			return err
+		}
+	}
+	for n := 0; ; n++ {
+		if n%4096 == 0 {
+			if err := ctx.Err(); err != nil {
+				return &Error{Cause: ErrCancelled, Underlying: err}
+			}
+			if opts.Progress != nil && n > 0 {
+				opts.Progress(len(t.SourceRows))
+			}
+		}
+		num, cells, err := src.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		if err := b.addRow(num, cells); err != nil {
+			return err
+		}
+	}
+	if len(t.SourceRows) == 0 {
+		if t.HeaderRow > 0 {
+			return &Error{Cause: ErrNoDataRows, Detail: fmt.Sprintf("the header is row %d", t.HeaderRow)}
+		}
+		return &Error{Cause: ErrEmptySheet}
+	}
+	b.finish()
+	return nil
+}
+
+// headerText is a header cell's text: numbers as written, errors as text.
+func headerText(c rawCell) string {
+	switch c.Type {
+	case cellNumber:
+		return formatNumber(c.Num)
+	case cellNoValue:
+		return ""
+	}
+	return c.Text
+}
+
+func isBlankRow(cells []rawCell) bool {
+	for _, c := range cells {
+		if c.Type != cellText || trimSpace(c.Text) != "" {
+			return false
+		}
+	}
+	return true
+}
+
+// tableBuilder turns data rows into columns.
+type tableBuilder struct {
+	t            *Table
+	cols         map[int]*colBuilder
+	header       map[int]string
+	decimalComma bool
+	blankRows    int
+	firstBlank   int
+	cached       []int
+	// fixedWidth: a text file's rows may not be wider than its header.
+	fixedWidth bool
+	width      int
+}
+
+func (b *tableBuilder) col(i int) *colBuilder {
+	c, ok := b.cols[i]
+	if !ok {
+		c = newColBuilder(i)
+		for range b.t.SourceRows {
+			c.add(nil, false)
+		}
+		b.cols[i] = c
+	}
+	return c
+}
+
+func (b *tableBuilder) addRow(num int, cells []rawCell) error {
+	if isBlankRow(cells) {
+		if b.blankRows == 0 {
+			b.firstBlank = num
+		}
+		b.blankRows++
+		return nil
+	}
+	for _, c := range cells {
+		if b.fixedWidth && c.Col >= b.width {
+			if trimSpace(c.Text) != "" {
+				return &Error{Cell: fmt.Sprintf("line %d", c.Line), Cause: ErrRaggedRow,
+					Detail: fmt.Sprintf("the header has %d columns; this row has a value in column %d", b.width, c.Col+1)}
+			}
+			continue
+		}
+		b.col(c.Col)
+	}
+	b.t.SourceRows = append(b.t.SourceRows, num)
+	j := 0
+	for _, idx := range b.sortedIndexes() {
+		cb := b.cols[idx]
+		for j < len(cells) && cells[j].Col < idx {
+			j++
+		}
+		if j < len(cells) && cells[j].Col == idx {
+			cb.add(&cells[j], b.decimalComma)
+		} else {
+			cb.add(nil, false)
+		}
+	}
+	return nil
+}
+
+// sortedIndexes lists the column indexes in order; cached between rows
+// because new columns are rare.
+func (b *tableBuilder) sortedIndexes() []int {
+	if len(b.cached) != len(b.cols) {
+		b.cached = b.cached[:0]
+		for i := range b.cols {
+			b.cached = append(b.cached, i)
+		}
+		sort.Ints(b.cached)
+	}
+	return b.cached
+}
+
+func (b *tableBuilder) finish() {
+	t := b.t
+	idx := b.sortedIndexes()
+	header := make([]string, len(idx))
+	for i, ci := range idx {
+		header[i] = b.header[ci]
+	}
+	names, notes := nameColumns(header, idx, t.Sheet, t.HeaderRow)
+	t.Notes = append(t.Notes, notes...)
+	if b.blankRows > 0 {
+		t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: fmt.Sprintf("%d entirely blank row(s) were left out, the first being row %d", b.blankRows, b.firstBlank)})
+	}
+	for i, ci := range idx {
+		cb := b.cols[ci]
+		col := &Column{Name: names[i], Letter: columnLetter(ci), Index: ci}
+		cb.finish(col)
+		if col.Kind == Empty && b.header[ci] == "" && col.MissingCount[Blank] == len(col.Missing) {
+			continue // a spacer column with neither name nor values
+		}
+		t.Columns = append(t.Columns, col)
+		t.Notes = append(t.Notes, columnNotes(t, col)...)
+	}
+}
+
+// columnNotes reports what a person should know about one column.
+func columnNotes(t *Table, col *Column) []Note {
+	var notes []Note
+	add := func(format string, args ...any) {
+		notes = append(notes, Note{Sheet: t.Sheet, Column: col.Name, Text: fmt.Sprintf(format, args...)})
+	}
+	if col.Converted > 0 {
+		add("%d number(s) stored as text were read as numbers", col.Converted)
+	}
+	if n := col.MissingCount[NoCachedValue]; n > 0 {
+		first := firstMissing(col, NoCachedValue)
+		add("%d formula cell(s) have no saved result (the first is %s), so they count as missing; the file was probably written by a program that does not calculate. Open it in a spreadsheet program, save it, and read it again", n, t.CellRef(col, first))
+	}
+	if col.Kind == Empty && col.MissingCount[ErrorValue] > 0 {
+		add("every cell with a value is an error value (such as #DIV/0!), so the column has no usable values; check the formulas that fill it")
+	}
+	if n := col.MissingCount[TextInNumbers]; n > 0 {
+		first := firstMissing(col, TextInNumbers)
+		add("%d text value(s) in this number column count as missing, the first at %s", n, t.CellRef(col, first))
+	}
+	if n := col.MissingCount[BadDate]; n > 0 {
+		first := firstMissing(col, BadDate)
+		add("%d value(s) in this date column are not dates and count as missing, the first at %s", n, t.CellRef(col, first))
+	}
+	return notes
+}
+
+func firstMissing(col *Column, r Reason) int {
+	for i, m := range col.Missing {
+		if m == r {
+			return i
+		}
+	}
+	return 0
+}
+
+// detectHeader finds the header row among the first rows: the first row,
+// at least half as wide as the widest, whose cells are mostly text and
+// above rows holding more numbers than it does. A table of text only
+// takes its first wide row. It returns -1 when no row qualifies.
+func detectHeader(rows []bufRow) int {
+	width := 0
+	for _, r := range rows {
+		width = max(width, nonBlank(r.cells))
+	}
+	for i, r := range rows {
+		n := nonBlank(r.cells)
+		if n == 0 || n*2 < width {
+			continue
+		}
+		text, num := shares(r.cells)
+		if text < 0.5 {
+			continue
+		}
+		below := rows[i+1:]
+		if len(below) > 10 {
+			below = below[:10]
+		}
+		if len(below) == 0 {
+			return i
+		}
+		var sum float64
+		for _, b := range below {
+			_, nb := shares(b.cells)
+			sum += nb
+		}
+		numBelow := sum / float64(len(below))
+		if numBelow > num+0.1 || numBelow == 0 && num == 0 {
+			return i
+		}
+		if i >= 20 {
+			break
+		}
+	}
+	return -1
+}
+
+func nonBlank(cells []rawCell) int {
+	n := 0
+	for _, c := range cells {
+		if c.Type != cellText || trimSpace(c.Text) != "" {
+			n++
+		}
+	}
+	return n
+}
+
+// shares returns the fractions of a row's non-blank cells that are text
+// and that are numbers (stored, or written as text).
+func shares(cells []rawCell) (text, num float64) {
+	var n, nt, nn int
+	for _, c := range cells {
+		switch c.Type {
+		case cellNumber, cellBool:
+			n++
+			nn++
+		case cellText:
+			s := trimSpace(c.Text)
+			if s == "" {
+				continue
+			}
+			n++
+			if classifyText(s) != Present {
+				continue
+			}
+			if _, ok := parseNumber(s, false); ok {
+				nn++
+			} else if _, ok := parseNumber(s, true); ok {
+				nn++
+			} else if _, ok := parseDate(s); ok {
+				nn++
+			} else {
+				nt++
+			}
+		default:
+			n++
+		}
+	}
+	if n == 0 {
+		return 0, 0
+	}
+	return float64(nt) / float64(n), float64(nn) / float64(n)
+}

@@ -1,0 +1,303 @@
+package workbook
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"strings"
+	"testing"
+	"time"
+)
+
+// visitsBook is a messy evaluator's sheet: a title in row 1, the header in
+// row 3, numbers stored as text, hand-typed markers, error values and a
+// formula that was never calculated.
+func visitsBook() *rawBook {
+	b := &rawBook{
+		shared:  []string{"Site", "treated", "control", "North", "South", "East"},
+		numFmts: map[int]string{164: `yyyy\-mm\-dd`},
+		xfs:     []int{164, 4}, // style 1: a custom date format; style 2: "#,##0.00"
+	}
+	rows := []string{
+		row(1, inl("A1", "Home visits, spring round")),
+		row(3, inl("A3", "ID"), inl("B3", "Arm"), sst("C3", 0), inl("D3", "Score"), inl("E3", ""), inl("F3", "Visit date"), inl("G3", "Score"), inl("H3", "Flag")),
+	}
+	sites := []int{3, 4, 5}
+	for i := 0; i < 12; i++ {
+		r := 4 + i
+		ref := func(col string) string { return fmt.Sprintf("%s%d", col, r) }
+		arm := sst(ref("B"), 1+i%2)
+		score := numS(ref("D"), 2, fmt.Sprintf("%.7f", 10+float64(i)*0.1234567))
+		switch i {
+		case 2:
+			score = inl(ref("D"), "N/A")
+		case 3:
+			score = errc(ref("D"), "#DIV/0!")
+		case 4:
+			score = inl(ref("D"), " 12.5 ") // a number stored as text
+		case 5:
+			score = inl(ref("D"), "pending")
+		case 6:
+			score = formulaNoValue(ref("D"), "B6*2")
+		case 7:
+			score = ""
+		}
+		cells := []string{num(ref("A"), fmt.Sprint(100+i)), arm, sst(ref("C"), sites[i%3]), score, errc(ref("E"), "#N/A"),
+			numS(ref("F"), 1, fmt.Sprint(45000+i)), num(ref("G"), fmt.Sprint(i%4)), boolc(ref("H"), i%3 == 0)}
+		rows = append(rows, row(r, cells...))
+	}
+	b.sheets = []rawSheet{{name: "Visits", rows: rows}}
+	return b
+}
+
+func TestReadMessySheet(t *testing.T) {
+	path := visitsBook().write(t, t.TempDir(), "visits.xlsx")
+	tab, err := Read(context.Background(), path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tab.HeaderRow != 3 || !tab.HeaderDetected || tab.Sheet != "Visits" {
+		t.Fatalf("header row %d (detected %v), sheet %q; want row 3 detected on Visits", tab.HeaderRow, tab.HeaderDetected, tab.Sheet)
+	}
+	if tab.Len() != 12 || tab.SourceRows[0] != 4 || tab.SourceRows[11] != 15 {
+		t.Fatalf("rows %d from %v", tab.Len(), tab.SourceRows)
+	}
+	want := []struct {
+		name string
+		kind Kind
+	}{
+		{"ID", Number}, {"Arm", YesNo}, {"Site", Category}, {"Score", Number},
+		{"Column E", Empty}, {"Visit date", Date}, {"Score (2)", Number}, {"Flag", YesNo},
+	}
+	if len(tab.Columns) != len(want) {
+		var got []string
+		for _, c := range tab.Columns {
+			got = append(got, c.Name)
+		}
+		t.Fatalf("columns %q", got)
+	}
+	for i, w := range want {
+		c := tab.Columns[i]
+		if c.Name != w.name || c.Kind != w.kind {
+			t.Errorf("column %d: %q %v, want %q %v", i, c.Name, c.Kind, w.name, w.kind)
+		}
+	}
+	score := tab.Column("Score")
+	// The stored value, not the displayed "10.37": full precision.
+	if got, want := score.Numbers[1], 10.1234567; got != want {
+		t.Errorf("score row 2 = %v, want the stored %v", got, want)
+	}
+	if score.Numbers[4] != 12.5 || score.Converted != 1 {
+		t.Errorf("number stored as text: %v, converted %d", score.Numbers[4], score.Converted)
+	}
+	wantReasons := map[int]Reason{2: Marker, 3: ErrorValue, 5: TextInNumbers, 6: NoCachedValue, 7: Blank}
+	for i, r := range score.Missing {
+		if wantReasons[i] != r {
+			t.Errorf("score row %d: reason %v, want %v", i, r, wantReasons[i])
+		}
+		if r != Present && !math.IsNaN(score.Numbers[i]) {
+			t.Errorf("score row %d is missing but holds %v", i, score.Numbers[i])
+		}
+	}
+	if score.MissingTotal() != 5 || score.MissingCount[ErrorValue] != 1 {
+		t.Errorf("missing counts %v", score.MissingCount)
+	}
+	if got := tab.CellRef(score, 3); got != `sheet "Visits", cell D7` {
+		t.Errorf("cell reference %q", got)
+	}
+	arm := tab.Column("Arm")
+	if arm.Levels[0] != "control" || arm.Levels[1] != "treated" || arm.Numbers[0] != 1 || arm.Texts[1] != "control" {
+		t.Errorf("arm levels %q, first codes %v %v", arm.Levels, arm.Numbers[0], arm.Texts[1])
+	}
+	site := tab.Column("Site")
+	if strings.Join(site.Levels, ",") != "East,North,South" || site.Numbers[0] != 1 {
+		t.Errorf("site levels %q code %v", site.Levels, site.Numbers[0])
+	}
+	// 45000 is 2023-03-15 in the 1900 date system (LibreOffice Calc shows
+	// =DATE(2023;3;15) as 45000 with the default 1899-12-30 epoch).
+	d, ok := tab.Column("Visit date").Time(0)
+	if !ok || !d.Equal(time.Date(2023, 3, 15, 0, 0, 0, 0, time.UTC)) {
+		t.Errorf("date %v", d)
+	}
+	notes := noteTexts(tab)
+	for _, want := range []string{
+		`another column is already named "Score", so this one is called "Score (2)"`,
+		`cell E3, column "Column E": the header cell is blank`,
+		`formula cell(s) have no saved result (the first is sheet "Visits", cell D10)`,
+		`1 number(s) stored as text were read as numbers`,
+		`column "Column E": every cell with a value is an error value`,
+		`text value(s) in this number column count as missing, the first at sheet "Visits", cell D9`,
+	} {
+		if !strings.Contains(notes, want) {
+			t.Errorf("notes lack %q:\n%s", want, notes)
+		}
+	}
+	problems := tab.Problems()
+	if len(problems) == 0 || !strings.HasPrefix(tab.Describe(problems[0]), `sheet "Visits", cell`) {
+		t.Errorf("problems %v", problems)
+	}
+}
+
+func noteTexts(t *Table) string {
+	var b strings.Builder
+	for _, n := range t.Notes {
+		b.WriteString(n.String())
+		b.WriteString("\n")
+	}
+	return b.String()
+}
+
+func TestReadDate1904(t *testing.T) {
+	b := &rawBook{date1904: true, xfs: []int{14}}
+	rows := []string{row(1, inl("A1", "When"), inl("B1", "n"))}
+	for i := 0; i < 5; i++ {
+		rows = append(rows, row(i+2, numS(fmt.Sprintf("A%d", i+2), 1, "0"), num(fmt.Sprintf("B%d", i+2), fmt.Sprint(i))))
+	}
+	b.sheets = []rawSheet{{name: "S", rows: rows}}
+	tab, err := Read(context.Background(), b.write(t, t.TempDir(), "d.xlsx"), Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Serial 0 in the 1904 system is 1904-01-01 (ECMA-376 Part 1,
+	// section 18.17.4.1).
+	d, _ := tab.Column("When").Time(0)
+	if !d.Equal(time.Date(1904, 1, 1, 0, 0, 0, 0, time.UTC)) {
+		t.Errorf("1904 serial 0 read as %v", d)
+	}
+}
+
+func TestHeaderOverride(t *testing.T) {
+	path := visitsBook().write(t, t.TempDir(), "v.xlsx")
+	tab, err := Read(context.Background(), path, Options{HeaderRow: 4})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tab.HeaderRow != 4 || tab.HeaderDetected || tab.Columns[0].Name != "100" || tab.Len() != 11 {
+		t.Errorf("header %d detected %v first name %q rows %d", tab.HeaderRow, tab.HeaderDetected, tab.Columns[0].Name, tab.Len())
+	}
+	tab, err = Read(context.Background(), path, Options{HeaderRow: NoHeader})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if tab.HeaderRow != 0 || tab.Columns[0].Name != "Column A" || tab.SourceRows[0] != 1 {
+		t.Errorf("no header: row %d name %q first row %d", tab.HeaderRow, tab.Columns[0].Name, tab.SourceRows[0])
+	}
+	_, err = Read(context.Background(), path, Options{HeaderRow: 400})
+	if !errors.Is(err, ErrHeaderOutside) {
+		t.Errorf("header below the data: %v", err)
+	}
+}
+
+func TestReadOtherSheetAndSheets(t *testing.T) {
+	b := visitsBook()
+	b.sheets = append([]rawSheet{{name: "Chart", chart: true}}, b.sheets...)
+	b.sheets = append(b.sheets, rawSheet{name: "Small", rows: []string{row(1, inl("A1", "x"), inl("B1", "y")), row(2, num("A2", "1"), num("B2", "2")), row(3, num("A3", "3"), num("B3", "5"))}})
+	path := b.write(t, t.TempDir(), "multi.xlsx")
+	sheets, err := Sheets(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(sheets) != 3 || sheets[0].Worksheet || !sheets[1].Worksheet || sheets[2].Name != "Small" {
+		t.Fatalf("sheets %+v", sheets)
+	}
+	tab, err := Read(context.Background(), path, Options{})
+	if err != nil || tab.Sheet != "Visits" {
+		t.Fatalf("default sheet: %v %v", tab, err)
+	}
+	tab, err = Read(context.Background(), path, Options{Sheet: "Small"})
+	if err != nil || tab.Len() != 2 || tab.Column("y").Numbers[1] != 5 {
+		t.Fatalf("Small: %+v %v", tab, err)
+	}
+	if _, err := Read(context.Background(), path, Options{Sheet: "Chart"}); !errors.Is(err, ErrNotWorksheet) {
+		t.Errorf("chart sheet: %v", err)
+	}
+	_, err = Read(context.Background(), path, Options{Sheet: "Nope"})
+	if !errors.Is(err, ErrSheetNotFound) || !strings.Contains(err.Error(), `"Visits", "Small"`) {
+		t.Errorf("missing sheet: %v", err)
+	}
+}
+
+func TestParseNumber(t *testing.T) {
+	cases := []struct {
+		in    string
+		comma bool
+		want  float64
+		ok    bool
+	}{
+		{"12", false, 12, true},
+		{"-0.5", false, -0.5, true},
+		{"1,234,567.25", false, 1234567.25, true},
+		{"1 234,5", true, 1234.5, true},
+		{"1.234,5", true, 1234.5, true},
+		{"12,5", true, 12.5, true},
+		{"12,5", false, 0, false},
+		{"1,23", false, 0, false},
+		{"12%", false, 0.12, true},
+		{"1e-3", false, 0.001, true},
+		{"inf", false, 0, false},
+		{"NaN", false, 0, false},
+		{"0x10", false, 0, false},
+		{"1_000", false, 0, false},
+		{"1e999", false, 0, false},
+		{"-", false, 0, false},
+		{".5", false, 0.5, true},
+		{"12.3.4", false, 0, false},
+		{"1234,567.8", false, 0, false},
+	}
+	for _, c := range cases {
+		got, ok := parseNumber(c.in, c.comma)
+		if ok != c.ok || ok && got != c.want {
+			t.Errorf("parseNumber(%q, %v) = %v, %v; want %v, %v", c.in, c.comma, got, ok, c.want, c.ok)
+		}
+	}
+}
+
+func TestIsDateFormat(t *testing.T) {
+	// Format codes as spreadsheet programs write them (ECMA-376 Part 1,
+	// section 18.8.31, and common practice).
+	for code, want := range map[string]bool{
+		`yyyy\-mm\-dd`:       true,
+		`d/m/yy h:mm`:        true,
+		`[h]:mm:ss`:          true,
+		`0.00`:               false,
+		`#,##0 "days"`:       false,
+		`[Red]0.0;[Blue]0.0`: false,
+		`General`:            false,
+		`0.00E+00`:           false,
+		`[$-409]mmm yy`:      true,
+	} {
+		if got := isDateFormat(code); got != want {
+			t.Errorf("isDateFormat(%q) = %v", code, got)
+		}
+	}
+}
+
+func TestColumnLetter(t *testing.T) {
+	for i, want := range map[int]string{0: "A", 25: "Z", 26: "AA", 701: "ZZ", 702: "AAA", 16383: "XFD"} {
+		if got := columnLetter(i); got != want {
+			t.Errorf("columnLetter(%d) = %q, want %q", i, got, want)
+		}
+		if got, _ := refColumn(want + "12"); got != i {
+			t.Errorf("refColumn(%q) = %d", want+"12", got)
+		}
+	}
+}
+
+func TestSerialDates(t *testing.T) {
+	// Serial 60 is the phantom 1900-02-29 and 61 is 1900-03-01; serial 1
+	// is 1900-01-01 (ECMA-376 Part 1, section 18.17.4.1).
+	for serial, want := range map[float64]time.Time{
+		1:        time.Date(1900, 1, 1, 0, 0, 0, 0, time.UTC),
+		61:       time.Date(1900, 3, 1, 0, 0, 0, 0, time.UTC),
+		45000.5:  time.Date(2023, 3, 15, 12, 0, 0, 0, time.UTC),
+		36526.25: time.Date(2000, 1, 1, 6, 0, 0, 0, time.UTC),
+	} {
+		if got := serialToTime(serial); !got.Equal(want) {
+			t.Errorf("serial %v = %v, want %v", serial, got, want)
+		}
+	}
+	if got := timeToSerial(time.Date(2023, 3, 15, 12, 0, 0, 0, time.UTC)); got != 45000.5 {
+		t.Errorf("timeToSerial = %v", got)
+	}
+}

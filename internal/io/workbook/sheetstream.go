@@ -1,0 +1,357 @@
+package workbook
+
+import (
+	"bufio"
+	"encoding/xml"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+)
+
+// sheetStream reads a worksheet part row by row with a token decoder, so
+// memory stays flat however long the sheet is.
+//
+// It does the work of excelize's row iterator (Rows/Columns) but keeps
+// what that iterator drops and the reader needs: each cell's type (an
+// error value is not text), its style (a number shown as a date is a
+// date) and whether it holds a formula without a saved result. Values are
+// read as stored, never as displayed.
+type sheetStream struct {
+	pkg   *xlsxPackage
+	rc    io.ReadCloser
+	dec   *xml.Decoder
+	sst   []string
+	cells []rawCell
+	row   int
+	done  bool
+}
+
+func newSheetStream(p *xlsxPackage, part string) (*sheetStream, error) {
+	sst, err := readSharedStrings(p)
+	if err != nil {
+		return nil, err
+	}
+	rc, err := p.openPart(part, p.limit)
+	if err != nil {
+		return nil, err
+	}
+	return &sheetStream{pkg: p, rc: rc, dec: xml.NewDecoder(bufio.NewReaderSize(rc, 1<<16)), sst: sst}, nil
+}
+
+func (s *sheetStream) Close() error {
+	err := s.rc.Close()
+	if cerr := s.pkg.Close(); err == nil {
+		err = cerr
+	}
+	return err
+}
+
+// damaged reports a broken worksheet at the current row.
+func (s *sheetStream) damaged(err error) error {
+	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("row %d", s.row), Cause: ErrDamaged, Underlying: err}
+}
+
+// Next implements rowSource.
+func (s *sheetStream) Next() (int, []rawCell, error) {
+	for !s.done {
+		tok, err := s.dec.RawToken()
+		if err == io.EOF {
+			s.done = true
+			break
+		}
+		if err != nil {
+			return 0, nil, s.damaged(err)
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			if t.Name.Local != "row" {
+				continue
+			}
+			num := s.row + 1
+			if v := attr(t, "r"); v != "" {
+				n, err := strconv.Atoi(v)
+				if err != nil || n < 1 || n > 1048576 {
+					return 0, nil, s.damaged(fmt.Errorf("row number %q", v))
+				}
+				num = n
+			}
+			s.row = num
+			if err := s.readRow(); err != nil {
+				return 0, nil, err
+			}
+			if len(s.cells) > 0 {
+				return s.row, s.cells, nil
+			}
+		case xml.EndElement:
+			if t.Name.Local == "sheetData" {
+				s.done = true
+			}
+		}
+	}
+	return 0, nil, io.EOF
+}
+
+// readRow reads the cells of the current row up to </row>.
+func (s *sheetStream) readRow() error {
+	s.cells = s.cells[:0]
+	col := -1
+	for {
+		tok, err := s.dec.RawToken()
+		if err != nil {
+			if err == io.EOF {
+				err = io.ErrUnexpectedEOF
+			}
+			return s.damaged(err)
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			if t.Name.Local != "c" {
+				continue
+			}
+			col++
+			if ref := attr(t, "r"); ref != "" {
+				c, ok := refColumn(ref)
+				if !ok {
+					return s.damaged(fmt.Errorf("cell reference %q", ref))
+				}
+				col = c
+			}
+			c, keep, err := s.readCell(t, col)
+			if err != nil {
+				return err
+			}
+			if keep {
+				s.cells = append(s.cells, c)
+			}
+		case xml.EndElement:
+			if t.Name.Local == "row" {
+				return nil
+			}
+		}
+	}
+}
+
+// readCell reads one <c> element.
+func (s *sheetStream) readCell(start xml.StartElement, col int) (rawCell, bool, error) {
+	typ := attr(start, "t")
+	style := -1
+	if v := attr(start, "s"); v != "" {
+		style, _ = strconv.Atoi(v)
+	}
+	var value, inline strings.Builder
+	var hasV, hasF bool
+	depth, inT, inPhonetic := 0, false, false
+	var into *strings.Builder
+	for {
+		tok, err := s.dec.RawToken()
+		if err != nil {
+			if err == io.EOF {
+				err = io.ErrUnexpectedEOF
+			}
+			return rawCell{}, false, s.damaged(err)
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			depth++
+			switch t.Name.Local {
+			case "v":
+				hasV, into = true, &value
+			case "f":
+				hasF = true
+			case "rPh":
+				inPhonetic = true
+			case "t":
+				if !inPhonetic {
+					inT, into = true, &inline
+				}
+			}
+		case xml.EndElement:
+			if depth == 0 {
+				if t.Name.Local != "c" {
+					return rawCell{}, false, s.damaged(fmt.Errorf("unexpected </%s>", t.Name.Local))
+				}
+				return s.cell(col, typ, style, value.String(), inline.String(), hasV, hasF)
+			}
+			depth--
+			switch t.Name.Local {
+			case "v":
+				into = nil
+			case "t":
+				if inT {
+					inT, into = false, nil
+				}
+			case "rPh":
+				inPhonetic = false
+			}
+		case xml.CharData:
+			if into != nil {
+				into.Write(t)
+			}
+		}
+	}
+}
+
+// cell turns a cell's parts into a rawCell; keep is false for cells with
+// nothing in them (a styled empty cell).
+func (s *sheetStream) cell(col int, typ string, style int, v, inline string, hasV, hasF bool) (rawCell, bool, error) {
+	c := rawCell{Col: col, Formula: hasF}
+	switch typ {
+	case "s":
+		if !hasV {
+			return c, false, nil
+		}
+		i, err := strconv.Atoi(strings.TrimSpace(v))
+		if err != nil || i < 0 || i >= len(s.sst) {
+			return c, false, s.cellDamaged(col, fmt.Errorf("shared string index %q out of range", v))
+		}
+		c.Type, c.Text = cellText, s.sst[i]
+	case "inlineStr":
+		c.Type, c.Text = cellText, inline
+		if inline == "" && hasV {
+			c.Text = v
+		}
+	case "str":
+		if !hasV && hasF {
+			c.Type = cellNoValue
+			break
+		}
+		c.Type, c.Text = cellText, v
+	case "b":
+		if !hasV {
+			return s.noValue(c, hasF)
+		}
+		c.Type = cellBool
+		if strings.TrimSpace(v) == "1" {
+			c.Num, c.Text = 1, "TRUE"
+		} else {
+			c.Num, c.Text = 0, "FALSE"
+		}
+	case "e":
+		c.Type, c.Text = cellError, v
+	case "d":
+		if !hasV {
+			return s.noValue(c, hasF)
+		}
+		n, ok := parseDate(strings.TrimSpace(v))
+		if !ok {
+			c.Type, c.Text = cellText, v
+			break
+		}
+		c.Type, c.Num, c.Date = cellNumber, n, true
+	case "", "n":
+		if !hasV {
+			return s.noValue(c, hasF)
+		}
+		n, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		if err != nil {
+			return c, false, s.cellDamaged(col, fmt.Errorf("number %q", v))
+		}
+		c.Type, c.Num = cellNumber, n
+		if style >= 0 && style < len(s.pkg.dateXf) && s.pkg.dateXf[style] {
+			c.Date = true
+			if s.pkg.date1904 {
+				c.Num += date1904Offset
+			}
+		}
+	default:
+		return c, false, s.cellDamaged(col, fmt.Errorf("cell type %q", typ))
+	}
+	return c, true, nil
+}
+
+func (s *sheetStream) noValue(c rawCell, hasF bool) (rawCell, bool, error) {
+	if hasF {
+		c.Type = cellNoValue
+		return c, true, nil
+	}
+	return c, false, nil
+}
+
+func (s *sheetStream) cellDamaged(col int, err error) error {
+	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("cell %s%d", columnLetter(col), s.row), Cause: ErrDamaged, Underlying: err}
+}
+
+func attr(t xml.StartElement, name string) string {
+	for _, a := range t.Attr {
+		if a.Name.Local == name {
+			return a.Value
+		}
+	}
+	return ""
+}
+
+// refColumn returns the 0-based column of a cell reference such as "AB12".
+func refColumn(ref string) (int, bool) {
+	col, i := 0, 0
+	for ; i < len(ref); i++ {
+		c := ref[i] | 0x20
+		if c < 'a' || c > 'z' {
+			break
+		}
+		col = col*26 + int(c-'a'+1)
+		if col > 16384 {
+			return 0, false
+		}
+	}
+	if i == 0 {
+		return 0, false
+	}
+	return col - 1, true
+}
+
+// readSharedStrings reads the shared string table: each <si> is plain
+// text in <t>, or rich text runs <r><t>, with phonetic hints <rPh> left
+// out (ECMA-376 Part 1, section 18.4).
+func readSharedStrings(p *xlsxPackage) ([]string, error) {
+	if p.sstPart == "" {
+		return nil, nil
+	}
+	rc, err := p.openPart(p.sstPart, p.limit)
+	if err != nil {
+		if p.file(p.sstPart) == nil {
+			return nil, nil
+		}
+		return nil, err
+	}
+	defer rc.Close()
+	dec := xml.NewDecoder(bufio.NewReaderSize(rc, 1<<16))
+	var out []string
+	var cur strings.Builder
+	inSI, inT, inPhonetic := false, false, false
+	for {
+		tok, err := dec.RawToken()
+		if err == io.EOF {
+			return out, nil
+		}
+		if err != nil {
+			return nil, &Error{Path: p.path, Cause: ErrDamaged, Detail: "the shared text table cannot be read", Underlying: err}
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			switch t.Name.Local {
+			case "si":
+				inSI = true
+				cur.Reset()
+			case "rPh":
+				inPhonetic = true
+			case "t":
+				inT = inSI && !inPhonetic
+			}
+		case xml.EndElement:
+			switch t.Name.Local {
+			case "si":
+				inSI = false
+				out = append(out, cur.String())
+			case "rPh":
+				inPhonetic = false
+			case "t":
+				inT = false
+			}
+		case xml.CharData:
+			if inT {
+				cur.Write(t)
+			}
+		}
+	}
+}

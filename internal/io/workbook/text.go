@@ -1,0 +1,306 @@
+package workbook
+
+import (
+	"bufio"
+	"bytes"
+	"encoding/csv"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+	"unicode/utf8"
+
+	"golang.org/x/text/encoding/charmap"
+	"golang.org/x/text/encoding/unicode"
+)
+
+// sampleSize is how much of a text file is looked at to find its
+// delimiter and decimal separator.
+const sampleSize = 64 << 10
+
+// Byte order marks (The Unicode Standard, section 23.8).
+var (
+	bomUTF8    = []byte{0xEF, 0xBB, 0xBF}
+	bomUTF16LE = []byte{0xFF, 0xFE}
+	bomUTF16BE = []byte{0xFE, 0xFF}
+)
+
+// textSource reads a delimited text file record by record.
+type textSource struct {
+	path    string
+	f       *os.File
+	r       *csv.Reader
+	cells   []rawCell
+	row     int
+	endLine int
+}
+
+// openText sniffs a text file's encoding, delimiter and decimal separator
+// and opens it for reading.
+func openText(path string) (rowSource, *TextFormat, error) {
+	tf, err := sniffText(path)
+	if err != nil {
+		return nil, nil, err
+	}
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, nil, statError(path, err)
+	}
+	r, err := decodedReader(f, tf.Encoding)
+	if err != nil {
+		f.Close()
+		return nil, nil, &Error{Path: path, Underlying: err}
+	}
+	return &textSource{path: path, f: f, r: newCSVReader(r, tf.Delimiter)}, tf, nil
+}
+
+func newCSVReader(r io.Reader, delim rune) *csv.Reader {
+	cr := csv.NewReader(r)
+	cr.Comma = delim
+	cr.FieldsPerRecord = -1
+	cr.LazyQuotes = false
+	cr.ReuseRecord = true
+	return cr
+}
+
+// decodedReader skips the byte order mark and decodes to UTF-8.
+func decodedReader(f *os.File, encoding string) (io.Reader, error) {
+	br := bufio.NewReaderSize(f, 1<<16)
+	head, _ := br.Peek(3)
+	switch encoding {
+	case "UTF-16LE", "UTF-16BE":
+		order := unicode.LittleEndian
+		if encoding == "UTF-16BE" {
+			order = unicode.BigEndian
+		}
+		return unicode.UTF16(order, unicode.ExpectBOM).NewDecoder().Reader(br), nil
+	case "Windows-1252":
+		return charmap.Windows1252.NewDecoder().Reader(br), nil
+	}
+	if bytes.HasPrefix(head, bomUTF8) {
+		if _, err := br.Discard(3); err != nil {
+			return nil, err
+		}
+	}
+	return br, nil
+}
+
+// undefined1252 are the five bytes that Windows-1252 leaves unassigned
+// (the code page's published table, from memory).
+var undefined1252 = [256]bool{0x81: true, 0x8D: true, 0x8F: true, 0x90: true, 0x9D: true}
+
+// sniffText decides the encoding by reading the whole file once (a file
+// is UTF-8 only if all of it is), then the delimiter and decimal separator
+// from the start of it.
+func sniffText(path string) (*TextFormat, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, statError(path, err)
+	}
+	defer f.Close()
+	tf := &TextFormat{Encoding: "UTF-8"}
+	br := bufio.NewReaderSize(f, 1<<16)
+	head, _ := br.Peek(3)
+	switch {
+	case bytes.HasPrefix(head, bomUTF16LE):
+		tf.Encoding = "UTF-16LE"
+	case bytes.HasPrefix(head, bomUTF16BE):
+		tf.Encoding = "UTF-16BE"
+	default:
+		if err := scanEncoding(path, br, tf); err != nil {
+			return nil, err
+		}
+	}
+	if _, err := f.Seek(0, io.SeekStart); err != nil {
+		return nil, &Error{Path: path, Underlying: err}
+	}
+	r, err := decodedReader(f, tf.Encoding)
+	if err != nil {
+		return nil, &Error{Path: path, Underlying: err}
+	}
+	sample, err := io.ReadAll(io.LimitReader(r, sampleSize))
+	if err != nil {
+		return nil, &Error{Path: path, Cause: ErrNotText, Underlying: err}
+	}
+	if len(bytes.TrimSpace(sample)) == 0 {
+		return nil, fail(path, ErrEmptyFile, "it holds no text")
+	}
+	if strings.ContainsRune(string(sample), 0) {
+		return nil, fail(path, ErrNotText, "it contains zero bytes")
+	}
+	tf.Delimiter = sniffDelimiter(sample, path)
+	tf.DecimalComma = tf.Delimiter != ',' && sniffDecimalComma(sample, tf.Delimiter)
+	return tf, nil
+}
+
+// scanEncoding reads the whole file: UTF-8 if every byte sequence is
+// valid, else Windows-1252 if no byte is one that code page leaves
+// unassigned, else not text. A zero byte means a binary file.
+func scanEncoding(path string, br *bufio.Reader, tf *TextFormat) error {
+	valid := true
+	var carry []byte
+	buf := make([]byte, 1<<16)
+	line := 1
+	bad1252 := 0
+	var offset int64
+	for {
+		n, err := br.Read(buf)
+		chunk := buf[:n]
+		if i := bytes.IndexByte(chunk, 0); i >= 0 {
+			return fail(path, ErrNotText, fmt.Sprintf("it contains a zero byte at line %d", line+bytes.Count(chunk[:i], []byte{'\n'})))
+		}
+		for _, c := range chunk {
+			if undefined1252[c] && bad1252 == 0 {
+				bad1252 = line
+			}
+			if c == '\n' {
+				line++
+			}
+		}
+		if valid {
+			data := append(carry, chunk...)
+			// Keep an incomplete sequence at the end for the next chunk.
+			cut := len(data)
+			for k := 1; k <= 3 && k <= len(data); k++ {
+				if utf8.RuneStart(data[len(data)-k]) {
+					if !utf8.FullRune(data[len(data)-k:]) {
+						cut = len(data) - k
+					}
+					break
+				}
+			}
+			if err == io.EOF {
+				cut = len(data)
+			}
+			if !utf8.Valid(data[:cut]) {
+				valid = false
+			}
+			carry = append(carry[:0], data[cut:]...)
+		}
+		offset += int64(n)
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return &Error{Path: path, Underlying: err}
+		}
+	}
+	if valid && len(carry) > 0 && !utf8.Valid(carry) {
+		valid = false
+	}
+	if valid {
+		return nil
+	}
+	if bad1252 > 0 {
+		return fail(path, ErrNotText, fmt.Sprintf("it is neither UTF-8 nor Windows-1252; the first byte that fits neither is on line %d", bad1252))
+	}
+	tf.Encoding = "Windows-1252"
+	return nil
+}
+
+// sniffDelimiter picks the delimiter that splits the sample's first
+// records into the same number of fields, most often and most finely.
+func sniffDelimiter(sample []byte, path string) rune {
+	best, bestScore := rune(0), 0.0
+	for _, d := range []rune{',', ';', '\t', '|'} {
+		cr := newCSVReader(bytes.NewReader(sample), d)
+		counts := map[int]int{}
+		records := 0
+		for records < 50 {
+			rec, err := cr.Read()
+			if err != nil {
+				break
+			}
+			counts[len(rec)]++
+			records++
+		}
+		mode, modeN := 0, 0
+		for n, k := range counts {
+			if k > modeN || k == modeN && n > mode {
+				mode, modeN = n, k
+			}
+		}
+		if records == 0 || mode < 2 {
+			continue
+		}
+		// Consistency first, then the number of fields.
+		score := float64(modeN)/float64(records)*100 + float64(min(mode, 99))/100
+		if score > bestScore {
+			best, bestScore = d, score
+		}
+	}
+	if best != 0 {
+		return best
+	}
+	if strings.EqualFold(filepath.Ext(path), ".tsv") {
+		return '\t'
+	}
+	return ','
+}
+
+// sniffDecimalComma reports whether numbers in the sample use a decimal
+// comma: more fields look like "12,5" than like "12.5".
+func sniffDecimalComma(sample []byte, delim rune) bool {
+	cr := newCSVReader(bytes.NewReader(sample), delim)
+	comma, dot := 0, 0
+	for {
+		rec, err := cr.Read()
+		if err != nil {
+			break
+		}
+		for _, f := range rec {
+			f = trimSpace(f)
+			if strings.Count(f, ",") == 1 && !strings.Contains(f, ".") {
+				if _, ok := parseNumber(f, true); ok {
+					comma++
+				}
+			}
+			if strings.Count(f, ".") == 1 && !strings.Contains(f, ",") {
+				if i := strings.IndexByte(f, '.'); len(f)-i-1 != 3 {
+					if _, ok := parseNumber(f, false); ok {
+						dot++
+					}
+				}
+			}
+		}
+	}
+	return comma > dot
+}
+
+// Next implements rowSource. The row number counts records as a
+// spreadsheet program does when it opens the file, blank lines included.
+func (s *textSource) Next() (int, []rawCell, error) {
+	rec, err := s.r.Read()
+	if err == io.EOF {
+		return 0, nil, io.EOF
+	}
+	if err != nil {
+		var pe *csv.ParseError
+		if errors.As(err, &pe) {
+			cause := ErrBadQuote
+			return 0, nil, &Error{Path: s.path, Cell: fmt.Sprintf("line %d", pe.StartLine), Cause: cause, Underlying: err}
+		}
+		return 0, nil, &Error{Path: s.path, Cause: ErrNotText, Underlying: err}
+	}
+	line, _ := s.r.FieldPos(0)
+	if s.endLine > 0 && line > s.endLine+1 {
+		s.row += line - s.endLine - 1
+	} else if s.endLine == 0 && line > 1 {
+		s.row += line - 1
+	}
+	s.row++
+	last, _ := s.r.FieldPos(len(rec) - 1)
+	s.endLine = last + strings.Count(rec[len(rec)-1], "\n")
+	s.cells = s.cells[:0]
+	for j, f := range rec {
+		if f == "" {
+			continue
+		}
+		s.cells = append(s.cells, rawCell{Col: j, Type: cellText, Text: f, Line: line})
+	}
+	return s.row, s.cells, nil
+}
+
+func (s *textSource) Close() error { return s.f.Close() }

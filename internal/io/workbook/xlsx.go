@@ -1,0 +1,363 @@
+package workbook
+
+import (
+	"archive/zip"
+	"encoding/xml"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path"
+	"strconv"
+	"strings"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// SheetInfo describes one sheet of a workbook.
+type SheetInfo struct {
+	Name string
+	// Hidden is true for sheets hidden from view in the workbook.
+	Hidden bool
+	// Worksheet is false for chart, dialog and macro sheets, which have
+	// no cells to read.
+	Worksheet bool
+}
+
+// Sheets lists a workbook's sheets in tab order. A text file has one
+// sheet with an empty name.
+func Sheets(path string) ([]SheetInfo, error) {
+	f, err := sniff(path)
+	if err != nil {
+		return nil, err
+	}
+	if f == formatText {
+		return []SheetInfo{{Worksheet: true}}, nil
+	}
+	pkg, err := openPackage(path, Options{})
+	if err != nil {
+		return nil, err
+	}
+	defer pkg.Close()
+	return pkg.sheets, nil
+}
+
+// xlsxPackage is an opened workbook: excelize has checked it and its size
+// limits; the zip is kept open to stream worksheets from it.
+type xlsxPackage struct {
+	path     string
+	zf       *os.File
+	zr       *zip.Reader
+	sheets   []SheetInfo
+	parts    map[string]string // sheet name → worksheet part name
+	date1904 bool
+	dateXf   []bool // by cell style index: shown as a date or time
+	sstPart  string
+	limit    int64
+	limitXML int64
+}
+
+func (p *xlsxPackage) Close() error { return p.zf.Close() }
+
+// openPackage opens a workbook with excelize, which decrypts nothing (the
+// format sniffer has refused encrypted files), applies the size limits
+// and reads the workbook's sheets and styles. excelize is asked for raw
+// values (RawCellValue) so that nothing is read in its displayed form.
+func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			p, err = nil, fail(path, ErrDamaged, fmt.Sprint("the workbook reader stopped: ", r))
+		}
+	}()
+	limit := opts.UnzipSizeLimit
+	if limit <= 0 {
+		limit = DefaultUnzipSizeLimit
+	}
+	limitXML := opts.UnzipXMLSizeLimit
+	if limitXML <= 0 {
+		limitXML = min(DefaultUnzipXMLSizeLimit, limit)
+	}
+	xf, err := excelize.OpenFile(path, excelize.Options{
+		RawCellValue:      true,
+		UnzipSizeLimit:    limit,
+		UnzipXMLSizeLimit: limitXML,
+	})
+	if err != nil {
+		return nil, excelizeOpenError(path, err, limit)
+	}
+	defer xf.Close()
+	p = &xlsxPackage{path: path, parts: map[string]string{}, limit: limit, limitXML: limitXML}
+	if props, err := xf.GetWorkbookProps(); err == nil && props.Date1904 != nil {
+		p.date1904 = *props.Date1904
+	}
+	p.dateXf = dateStyles(xf)
+	if p.zf, err = os.Open(path); err != nil {
+		return nil, statError(path, err)
+	}
+	info, err := p.zf.Stat()
+	if err != nil {
+		p.zf.Close()
+		return nil, statError(path, err)
+	}
+	if p.zr, err = zip.NewReader(p.zf, info.Size()); err != nil {
+		p.zf.Close()
+		return nil, &Error{Path: path, Cause: ErrDamaged, Underlying: err}
+	}
+	if err := p.readWorkbook(); err != nil {
+		p.zf.Close()
+		return nil, err
+	}
+	return p, nil
+}
+
+// excelizeOpenError maps what excelize says on open to our causes.
+func excelizeOpenError(path string, err error, limit int64) error {
+	msg := err.Error()
+	switch {
+	case strings.Contains(msg, "unzip size exceeds"):
+		return &Error{Path: path, Cause: ErrTooLarge, Detail: fmt.Sprintf("the limit is %d MiB", limit>>20), Underlying: err}
+	case errors.Is(err, excelize.ErrWorkbookFileFormat), errors.Is(err, excelize.ErrWorkbookPassword):
+		return &Error{Path: path, Cause: ErrEncrypted, Underlying: err}
+	case errors.Is(err, zip.ErrFormat), errors.Is(err, io.ErrUnexpectedEOF), errors.Is(err, zip.ErrChecksum), errors.Is(err, zip.ErrAlgorithm):
+		return &Error{Path: path, Cause: ErrDamaged, Underlying: err}
+	}
+	var se *xml.SyntaxError
+	if errors.As(err, &se) {
+		return &Error{Path: path, Cause: ErrDamaged, Underlying: err}
+	}
+	return &Error{Path: path, Cause: ErrDamaged, Underlying: err}
+}
+
+// dateStyles marks the cell styles whose number format shows a date or a
+// time.
+func dateStyles(xf *excelize.File) []bool {
+	if xf.Styles == nil || xf.Styles.CellXfs == nil {
+		return nil
+	}
+	custom := map[int]string{}
+	if xf.Styles.NumFmts != nil {
+		for _, nf := range xf.Styles.NumFmts.NumFmt {
+			if nf != nil {
+				custom[nf.NumFmtID] = nf.FormatCode
+			}
+		}
+	}
+	out := make([]bool, len(xf.Styles.CellXfs.Xf))
+	for i, x := range xf.Styles.CellXfs.Xf {
+		if x.NumFmtID == nil {
+			continue
+		}
+		id := *x.NumFmtID
+		if code, ok := custom[id]; ok {
+			out[i] = isDateFormat(code)
+		} else {
+			out[i] = isBuiltinDate(id)
+		}
+	}
+	return out
+}
+
+// isBuiltinDate reports the built-in number formats that show dates or
+// times: 14–22 and 45–47 (ECMA-376 Part 1, section 18.8.30), and the
+// East Asian date formats 27–36 and 50–58 (same section, from memory).
+func isBuiltinDate(id int) bool {
+	return id >= 14 && id <= 22 || id >= 27 && id <= 36 || id >= 45 && id <= 47 || id >= 50 && id <= 58
+}
+
+// isDateFormat reports whether a custom number format shows a date or
+// time: it has y, m, d, h or s outside quoted text, escapes and brackets
+// (a bracketed [h], [m] or [s] is an elapsed time, which counts).
+func isDateFormat(code string) bool {
+	// Only the first section matters for positive numbers.
+	inQuote := false
+	for i := 0; i < len(code); i++ {
+		c := code[i]
+		switch {
+		case inQuote:
+			if c == '"' {
+				inQuote = false
+			}
+		case c == '"':
+			inQuote = true
+		case c == '\\' || c == '_' || c == '*':
+			i++
+		case c == ';':
+			return false
+		case c == '[':
+			end := strings.IndexByte(code[i:], ']')
+			if end < 0 {
+				return false
+			}
+			inner := strings.ToLower(code[i+1 : i+end])
+			if inner == "h" || inner == "hh" || inner == "m" || inner == "mm" || inner == "s" || inner == "ss" {
+				return true
+			}
+			i += end
+		default:
+			switch c | 0x20 {
+			case 'y', 'm', 'd', 'h', 's':
+				return true
+			}
+		}
+	}
+	return false
+}
+
+// Relationship type suffixes, from ECMA-376 Part 1, section 15.2.
+const (
+	relOfficeDocument = "/officeDocument"
+	relWorksheet      = "/worksheet"
+	relSharedStrings  = "/sharedStrings"
+)
+
+type xmlRels struct {
+	Rels []struct {
+		ID     string `xml:"Id,attr"`
+		Type   string `xml:"Type,attr"`
+		Target string `xml:"Target,attr"`
+	} `xml:"Relationship"`
+}
+
+type xmlWorkbook struct {
+	Sheets []struct {
+		Name  string `xml:"name,attr"`
+		State string `xml:"state,attr"`
+		RID   string `xml:"http://schemas.openxmlformats.org/officeDocument/2006/relationships id,attr"`
+		RIDs  string `xml:"http://purl.oclc.org/ooxml/officeDocument/relationships id,attr"`
+	} `xml:"sheets>sheet"`
+}
+
+// readWorkbook finds the workbook part, its sheets and their parts.
+func (p *xlsxPackage) readWorkbook() error {
+	wbPart := "xl/workbook.xml"
+	var root xmlRels
+	if err := p.decodePart("_rels/.rels", &root); err == nil {
+		for _, r := range root.Rels {
+			if strings.HasSuffix(r.Type, relOfficeDocument) {
+				wbPart = strings.TrimPrefix(r.Target, "/")
+			}
+		}
+	}
+	var wb xmlWorkbook
+	if err := p.decodePart(wbPart, &wb); err != nil {
+		return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the workbook part cannot be read", Underlying: err}
+	}
+	var rels xmlRels
+	relsPart := path.Join(path.Dir(wbPart), "_rels", path.Base(wbPart)+".rels")
+	if err := p.decodePart(relsPart, &rels); err != nil {
+		return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the workbook's relationships cannot be read", Underlying: err}
+	}
+	targets := map[string]string{}
+	for _, r := range rels.Rels {
+		target := r.Target
+		if strings.HasPrefix(target, "/") {
+			target = strings.TrimPrefix(target, "/")
+		} else {
+			target = path.Join(path.Dir(wbPart), target)
+		}
+		targets[r.ID] = target
+		if strings.HasSuffix(r.Type, relSharedStrings) {
+			p.sstPart = target
+		}
+		if strings.HasSuffix(r.Type, relWorksheet) {
+			targets["ws:"+r.ID] = target
+		}
+	}
+	for _, s := range wb.Sheets {
+		rid := s.RID
+		if rid == "" {
+			rid = s.RIDs
+		}
+		_, isWS := targets["ws:"+rid]
+		p.sheets = append(p.sheets, SheetInfo{Name: s.Name, Hidden: s.State == "hidden" || s.State == "veryHidden", Worksheet: isWS})
+		if isWS {
+			p.parts[s.Name] = targets[rid]
+		}
+	}
+	return nil
+}
+
+// file finds a zip entry by part name, ignoring case and slash direction
+// as spreadsheet programs do.
+func (p *xlsxPackage) file(name string) *zip.File {
+	for _, f := range p.zr.File {
+		if strings.EqualFold(strings.ReplaceAll(f.Name, "\\", "/"), name) {
+			return f
+		}
+	}
+	return nil
+}
+
+// openPart opens a part for streaming, refusing parts past the size limit.
+func (p *xlsxPackage) openPart(name string, limit int64) (io.ReadCloser, error) {
+	f := p.file(name)
+	if f == nil {
+		return nil, fmt.Errorf("part %s is missing: %w", name, os.ErrNotExist)
+	}
+	if f.UncompressedSize64 > uint64(limit) {
+		return nil, &Error{Path: p.path, Cause: ErrTooLarge, Detail: fmt.Sprintf("part %s unpacks to %d MiB", name, f.UncompressedSize64>>20)}
+	}
+	return f.Open()
+}
+
+func (p *xlsxPackage) decodePart(name string, v any) error {
+	rc, err := p.openPart(name, p.limitXML)
+	if err != nil {
+		return err
+	}
+	defer rc.Close()
+	return xml.NewDecoder(rc).Decode(v)
+}
+
+// openXLSXSheet opens the worksheet to read: the one named, or the first
+// visible one.
+func openXLSXSheet(path string, opts Options) (rowSource, string, error) {
+	p, err := openPackage(path, opts)
+	if err != nil {
+		return nil, "", err
+	}
+	name := opts.Sheet
+	if name == "" {
+		for _, s := range p.sheets {
+			if s.Worksheet && !s.Hidden {
+				name = s.Name
+				break
+			}
+		}
+		if name == "" {
+			p.Close()
+			return nil, "", fail(path, ErrNoSheets, "")
+		}
+	}
+	part, ok := p.parts[name]
+	if !ok {
+		p.Close()
+		for _, s := range p.sheets {
+			if s.Name == name {
+				return nil, "", &Error{Path: path, Sheet: name, Cause: ErrNotWorksheet}
+			}
+		}
+		return nil, "", &Error{Path: path, Sheet: name, Cause: ErrSheetNotFound, Detail: "the sheets are " + sheetList(p.sheets)}
+	}
+	src, err := newSheetStream(p, part)
+	if err != nil {
+		p.Close()
+		var e *Error
+		if errors.As(err, &e) {
+			e.Sheet = name
+			return nil, "", e
+		}
+		return nil, "", &Error{Path: path, Sheet: name, Cause: ErrDamaged, Underlying: err}
+	}
+	return src, name, nil
+}
+
+func sheetList(sheets []SheetInfo) string {
+	var names []string
+	for _, s := range sheets {
+		if s.Worksheet {
+			names = append(names, strconv.Quote(s.Name))
+		}
+	}
+	return strings.Join(names, ", ")
+}
