@@ -161,7 +161,7 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 		checks = append(checks, weight)
 	}
 
-	ds := &design{rowsRead: n}
+	ds := &design{rowsRead: n, used: make([]int, 0, n)}
 	countAt := map[[2]string]int{}
 	for i := 0; i < n; i++ {
 		reason, kind := "", ""
@@ -328,74 +328,108 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 	return nil
 }
 
+// readCluster numbers the clusters in order of first appearance. Numeric
+// cluster columns are keyed by value, so that a million rows cost no
+// formatting.
 func (ds *design) readCluster(c *Column) {
-	index := map[string]int{}
 	ds.cluster = make([]int, ds.n)
+	byText := map[string]int{}
+	byValue := map[float64]int{}
 	for r, i := range ds.used {
-		k := c.key(i)
-		j, ok := index[k]
+		var j int
+		var ok bool
+		if c.IsNumeric() {
+			j, ok = byValue[c.Num[i]]
+		} else {
+			j, ok = byText[c.Text[i]]
+		}
 		if !ok {
 			j = len(ds.clusterLabels)
-			index[k] = j
-			ds.clusterLabels = append(ds.clusterLabels, k)
+			ds.clusterLabels = append(ds.clusterLabels, c.key(i))
+			if c.IsNumeric() {
+				byValue[c.Num[i]] = j
+			} else {
+				byText[c.Text[i]] = j
+			}
 		}
 		ds.cluster[r] = j
 	}
 }
 
 // assemble writes the model matrix: intercept, treatment, moderator,
-// treatment × moderator, controls (METHODS §1).
+// treatment × moderator, controls (METHODS §1). Each term is a function
+// that fills its column of the row-major matrix in one pass.
 func (ds *design) assemble(s Spec, controls []roleColumn) {
-	type term struct {
-		name, role string
-		value      func(r int) float64
+	type fill func(x []float64, j, k int)
+	var fills []fill
+	add := func(name, role string, f fill) int {
+		ds.names = append(ds.names, name)
+		ds.roles = append(ds.roles, role)
+		fills = append(fills, f)
+		return len(fills) - 1
 	}
-	var terms []term
-	add := func(name, role string, f func(r int) float64) int {
-		terms = append(terms, term{name, role, f})
-		return len(terms) - 1
-	}
-	add("(intercept)", roleIntercept, func(int) float64 { return 1 })
+	add("(intercept)", roleIntercept, func(x []float64, j, k int) {
+		for r := 0; r < ds.n; r++ {
+			x[r*k+j] = 1
+		}
+	})
 	tName := s.Treatment.Column
 	if s.Treatment.Kind == TreatmentLabels {
 		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
 	}
-	ds.tCol = add(tName, roleTreatment, func(r int) float64 { return ds.treat[r] })
+	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k int) {
+		for r, t := range ds.treat {
+			x[r*k+j] = t
+		}
+	})
 
+	// mod(r, j) is row r's value of the moderator's column j.
 	var modNames []string
-	var modValues []func(r int) float64
+	var mod func(r, j int) float64
+	var modLevelOf []int // categorical: the level of moderator column j
 	if ds.modValue != nil {
 		name := s.Moderator.Column
 		if ds.centre != 0 {
 			name = fmt.Sprintf("%s − %s", name, formatNumber(ds.centre))
 		}
-		modNames = append(modNames, name)
-		modValues = append(modValues, func(r int) float64 { return ds.modValue[r] - ds.centre })
+		modNames = []string{name}
+		mod = func(r, _ int) float64 { return ds.modValue[r] - ds.centre }
 	} else {
 		for j, l := range ds.levels {
-			if j == ds.ref {
-				continue
+			if j != ds.ref {
+				modNames = append(modNames, fmt.Sprintf("%s = %s", s.Moderator.Column, l))
+				modLevelOf = append(modLevelOf, j)
 			}
-			modNames = append(modNames, fmt.Sprintf("%s = %s", s.Moderator.Column, l))
-			modValues = append(modValues, func(r int) float64 {
-				if ds.modLevel[r] == j {
-					return 1
-				}
-				return 0
-			})
+		}
+		mod = func(r, j int) float64 {
+			if ds.modLevel[r] == modLevelOf[j] {
+				return 1
+			}
+			return 0
 		}
 	}
-	for j, name := range modNames {
-		ds.mCols = append(ds.mCols, add(name, roleModerator, modValues[j]))
+	for m, name := range modNames {
+		ds.mCols = append(ds.mCols, add(name, roleModerator, func(x []float64, j, k int) {
+			for r := 0; r < ds.n; r++ {
+				x[r*k+j] = mod(r, m)
+			}
+		}))
 	}
-	for j, name := range modNames {
-		f := modValues[j]
-		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(r int) float64 { return ds.treat[r] * f(r) }))
+	for m, name := range modNames {
+		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k int) {
+			for r, t := range ds.treat {
+				x[r*k+j] = t * mod(r, m)
+			}
+		}))
 	}
 	for _, rc := range controls {
 		c := rc.col
 		if c.IsNumeric() {
-			add(c.Name, roleControl, func(r int) float64 { return c.Num[ds.used[r]] })
+			add(c.Name, roleControl, func(x []float64, j, k int) {
+				for r, i := range ds.used {
+					x[r*k+j] = c.Num[i]
+				}
+			})
 			continue
 		}
 		count := map[string]int{}
@@ -408,22 +442,19 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			if j == ref {
 				continue
 			}
-			add(fmt.Sprintf("%s = %s", c.Name, l), roleControl, func(r int) float64 {
-				if c.Text[ds.used[r]] == l {
-					return 1
+			add(fmt.Sprintf("%s = %s", c.Name, l), roleControl, func(x []float64, col, k int) {
+				for r, i := range ds.used {
+					if c.Text[i] == l {
+						x[r*k+col] = 1
+					}
 				}
-				return 0
 			})
 		}
 	}
-	ds.k = len(terms)
+	ds.k = len(fills)
 	ds.x = make([]float64, ds.n*ds.k)
-	for j, t := range terms {
-		ds.names = append(ds.names, t.name)
-		ds.roles = append(ds.roles, t.role)
-		for r := 0; r < ds.n; r++ {
-			ds.x[r*ds.k+j] = t.value(r)
-		}
+	for j, f := range fills {
+		f(ds.x, j, ds.k)
 	}
 }
 

@@ -10,8 +10,10 @@ import (
 
 // chunkRows is the number of rows absorbed at a time by the first stage of
 // the factorization. Large enough that per-chunk overhead is negligible,
-// small enough that a chunk (chunkRows × K, column-major) stays in cache.
-const chunkRows = 512
+// small enough that a chunk (chunkRows × K, column-major) stays in cache;
+// not a power of two, so that the columns of a chunk do not all fall in the
+// same cache sets when the chunk is transposed into place.
+const chunkRows = 500
 
 // qrFactor is a Householder QR factorization with column pivoting of an
 // N×K matrix X, computed in two stages so that rows can be taken in chunks:
@@ -305,6 +307,7 @@ func (q *qrFactor) solveAugmented(f, g []float64) []float64 {
 // compensated arithmetic. xm is X, n×k row-major.
 func (q *qrFactor) refine(xm []float64, b, c, x []float64, maxIter int) {
 	n, k := q.n, q.k
+	kappa := q.cond()
 	r := residuals(xm, b, x, k)
 	f := make([]float64, n)
 	ga := make([]acc, k)
@@ -329,10 +332,13 @@ func (q *qrFactor) refine(xm []float64, b, c, x []float64, maxIter int) {
 			g[j] = ga[j].value()
 		}
 		dx := q.solveAugmented(f, g)
+		// Each step shrinks the error by about κ·ε (κ the condition
+		// number), so once a correction is below |x|/κ (with a margin) the
+		// next would be below the last bit of x.
 		small := true
 		for j := range x {
 			x[j] += dx[j]
-			if math.Abs(dx[j]) > eps*math.Abs(x[j]) {
+			if math.Abs(dx[j]) > 1e-3/kappa*math.Abs(x[j]) {
 				small = false
 			}
 		}
