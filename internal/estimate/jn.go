@@ -17,7 +17,10 @@ import (
 //
 // If the leading coefficient is positive the effect is significant outside
 // the roots, if negative between them; with no real roots, everywhere or
-// nowhere (METHODS §5).
+// nowhere (METHODS §5). A positive leading coefficient with no real roots
+// cannot occur with a positive variance (θ crosses zero somewhere and is not
+// significant there), so "everywhere" arises only in the degenerate linear
+// case; "significant across the observed range" is read from Regions.
 type JohnsonNeyman struct {
 	// Case is "outside" (significant outside the roots), "between"
 	// (significant between them), "everywhere", "nowhere", or "one-sided"
