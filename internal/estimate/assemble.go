@@ -12,16 +12,12 @@ const nearShare = 0.10
 // result reads the fit back in the terms of the question: effects by
 // group, differences, the heterogeneity test and, for a continuous
 // moderator, the Johnson–Neyman analysis.
-func (ds *design) result(s Spec, f *lsFit, v []float64, df int, notes []string) *Result {
+func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int, notes []string) *Result {
 	n, k := ds.n, ds.k
 	in := newInferencer(f.coef, v, df, s.Alpha, s.Power)
 	res := &Result{Spec: s, Notes: notes}
 	res.Rows = RowSummary{Read: ds.rowsRead, Used: n, Dropped: len(ds.dropped), Reasons: ds.counts, List: ds.dropped}
 
-	vt := s.Variance
-	if len(notes) > 0 && s.LeverageFallback != "" && (vt == HC2 || vt == HC3) {
-		vt = s.LeverageFallback
-	}
 	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
 		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
 	res.Model.R2, res.Model.AdjR2 = ds.rSquared(f)

@@ -32,11 +32,11 @@ func Fit(d *Data, s Spec) (*Result, error) {
 	if err := ds.checkExact(f); err != nil {
 		return nil, err
 	}
-	v, df, notes, err := ds.variance(d, f, s)
+	v, used, df, notes, err := ds.variance(d, f, s)
 	if err != nil {
 		return nil, err
 	}
-	return ds.result(s, f, v, df, notes), nil
+	return ds.result(s, f, v, used, df, notes), nil
 }
 
 // weighted returns √w·X and √w·y (METHODS §2).
@@ -202,8 +202,10 @@ func (ds *design) checkExact(f *lsFit) error {
 }
 
 // variance returns the covariance of the coefficients for the spec's
-// estimator (METHODS §3), its degrees of freedom and notes.
-func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, int, []string, error) {
+// estimator (METHODS §3), the estimator actually used (the fallback, if HC2
+// or HC3 was undefined and the spec allows one), its degrees of freedom and
+// notes.
+func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, VarianceType, int, []string, error) {
 	n, k := ds.n, ds.k
 	vt := s.Variance
 	var notes []string
@@ -217,12 +219,12 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, int, []string,
 		}
 		if rows != nil {
 			if s.LeverageFallback == "" {
-				return nil, 0, nil, fail(ErrLeverage, "", fmt.Sprintf("%s cannot be computed: row %s has leverage 1 (the model fits it perfectly whatever its outcome, usually because it is the only row in some group or control category). Merge or remove that category, or agree to fall back to HC1.", vt, joinInts(rows)), rows...)
+				return nil, "", 0, nil, fail(ErrLeverage, "", fmt.Sprintf("%s cannot be computed: row %s has leverage 1 (the model fits it perfectly whatever its outcome, usually because it is the only row in some group or control category). Merge or remove that category, or agree to fall back to HC1.", vt, joinInts(rows)), rows...)
 			}
 			notes = append(notes, fmt.Sprintf("%s was replaced by %s because row %s has leverage 1.", vt, s.LeverageFallback, joinInts(rows)))
 			vt = s.LeverageFallback
 		} else {
-			return hcVariance(f, vt, h), n - k, notes, nil
+			return hcVariance(f, vt, h), vt, n - k, notes, nil
 		}
 	}
 	switch vt {
@@ -232,7 +234,7 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, int, []string,
 		for i, b := range f.bread {
 			v[i] = s2 * b
 		}
-		return v, n - k, notes, nil
+		return v, vt, n - k, notes, nil
 	case CR1:
 		g := len(ds.clusterLabels)
 		c := float64(g) / float64(g-1) * float64(n-1) / float64(n-k)
@@ -240,9 +242,9 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, int, []string,
 		for i := range v {
 			v[i] *= c
 		}
-		return v, g - 1, notes, nil
+		return v, vt, g - 1, notes, nil
 	}
-	return hcVariance(f, vt, nil), n - k, notes, nil
+	return hcVariance(f, vt, nil), vt, n - k, notes, nil
 }
 
 // hcVariance is the heteroskedasticity-consistent estimator of the given

@@ -41,7 +41,7 @@ func TestPetersen(t *testing.T) {
 		t.Fatalf("aliased: %v", aliased)
 	}
 	se := func(vt VarianceType) float64 {
-		v, _, _, err := ds.variance(data, f, Spec{Variance: vt})
+		v, _, _, _, err := ds.variance(data, f, Spec{Variance: vt})
 		if err != nil {
 			t.Fatal(err)
 		}
