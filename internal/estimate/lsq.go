@@ -131,44 +131,49 @@ func (f *lsFit) inverseCrossProduct() []float64 {
 	return b
 }
 
-// leverage returns hᵢ = xᵢᵀ(XᵀX)⁻¹xᵢ for every row.
+// leverage returns hᵢ = xᵢᵀ(XᵀX)⁻¹xᵢ = ‖R2⁻ᵀ·PᵀD⁻¹xᵢ‖² for every row:
+// one triangular solve of K²/2 operations a row.
 func (f *lsFit) leverage() []float64 {
-	n, k := f.n, f.k
-	h := make([]float64, n)
-	bread := blas64.General{Rows: k, Cols: k, Stride: k, Data: f.bread}
-	buf := make([]float64, chunkRows*k)
-	for start := 0; start < n; start += chunkRows {
-		rows := min(chunkRows, n-start)
-		xc := blas64.General{Rows: rows, Cols: k, Stride: k, Data: f.x[start*k : (start+rows)*k]}
-		t := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
-		blas64.Gemm(blas.NoTrans, blas.NoTrans, 1, xc, bread, 0, t)
-		for i := 0; i < rows; i++ {
-			var s float64
-			for j := 0; j < k; j++ {
-				s += t.Data[i*k+j] * xc.Data[i*k+j]
-			}
-			h[start+i] = s
+	k, q := f.k, f.qr
+	h := make([]float64, f.n)
+	u := make([]float64, k)
+	for i := range h {
+		row := f.x[i*k : (i+1)*k]
+		for j, p := range q.perm {
+			u[j] = row[p] / q.d[p]
 		}
+		q.solveRT(u)
+		var s float64
+		for _, v := range u {
+			s += v * v
+		}
+		h[i] = s
 	}
 	return h
 }
 
-// sandwich returns B·(Σ ωᵢ xᵢxᵢᵀ)·B with B = (XᵀX)⁻¹ (White 1980).
+// sandwich returns B·(Σ ωᵢ xᵢxᵢᵀ)·B with B = (XᵀX)⁻¹ (White 1980); ωᵢ ≥ 0.
+// The middle is a symmetric rank update (Syrk) of the rows scaled by √ωᵢ.
 func (f *lsFit) sandwich(omega []float64) []float64 {
 	n, k := f.n, f.k
-	meat := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
+	meat := blas64.Symmetric{Uplo: blas.Upper, N: k, Stride: k, Data: make([]float64, k*k)}
 	buf := make([]float64, chunkRows*k)
 	for start := 0; start < n; start += chunkRows {
 		rows := min(chunkRows, n-start)
-		xc := blas64.General{Rows: rows, Cols: k, Stride: k, Data: f.x[start*k : (start+rows)*k]}
 		w := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
 		for i := 0; i < rows; i++ {
-			o := omega[start+i]
-			for j := 0; j < k; j++ {
-				w.Data[i*k+j] = o * xc.Data[i*k+j]
+			o := math.Sqrt(omega[start+i])
+			row := f.x[(start+i)*k : (start+i+1)*k]
+			for j, v := range row {
+				w.Data[i*k+j] = o * v
 			}
 		}
-		blas64.Gemm(blas.Trans, blas.NoTrans, 1, xc, w, 1, meat)
+		blas64.Syrk(blas.Trans, 1, w, 1, meat)
+	}
+	for i := 0; i < k; i++ {
+		for j := 0; j < i; j++ {
+			meat.Data[i*k+j] = meat.Data[j*k+i]
+		}
 	}
 	return f.wrap(meat.Data)
 }
