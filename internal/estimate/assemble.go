@@ -5,6 +5,25 @@ import (
 	"math"
 )
 
+// histogramBins is the number of bars in a continuous moderator's histogram.
+const histogramBins = 20
+
+// histogram counts sorted values in n equal-width bins over their range.
+func histogram(sorted []float64, n int) []Bin {
+	lo, hi := sorted[0], sorted[len(sorted)-1]
+	width := (hi - lo) / float64(n)
+	bins := make([]Bin, n)
+	for b := range bins {
+		bins[b] = Bin{From: lo + float64(b)*width, To: lo + float64(b+1)*width}
+	}
+	bins[n-1].To = hi
+	for _, v := range sorted {
+		b := min(int((v-lo)/width), n-1)
+		bins[b].Rows++
+	}
+	return bins
+}
+
 // nearShare is the half-width, as a share of the observed range, of the
 // window in which rows count as "near" a probe value.
 const nearShare = 0.10
@@ -134,7 +153,8 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result) {
 func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
 	sorted := sortedCopy(ds.modValue)
 	lo, hi := sorted[0], sorted[len(sorted)-1]
-	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Min: lo, Max: hi, Centre: ds.centre}
+	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Min: lo, Max: hi, Centre: ds.centre,
+		Histogram: histogram(sorted, histogramBins)}
 	type probe struct {
 		label string
 		value float64

@@ -124,3 +124,28 @@ func TestContinuousTreatmentMatchesBinary(t *testing.T) {
 		t.Errorf("arm counts belong to a binary treatment only")
 	}
 }
+
+// TestEffectAtMatchesProbes checks that the effect computed from the
+// result alone equals the effect reported at each probe.
+func TestEffectAtMatchesProbes(t *testing.T) {
+	res, err := Fit(synth(100, 42), contSpec())
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range res.Effects {
+		got, ok := res.EffectAt(e.Value)
+		if !ok || got != e.Inference {
+			t.Errorf("EffectAt(%g) = %+v, probe says %+v", e.Value, got, e.Inference)
+		}
+	}
+	total := 0
+	for _, b := range res.Moderator.Histogram {
+		total += b.Rows
+	}
+	if total != res.Rows.Used || len(res.Moderator.Histogram) != histogramBins {
+		t.Errorf("histogram counts %d rows in %d bins, want %d in %d", total, len(res.Moderator.Histogram), res.Rows.Used, histogramBins)
+	}
+	if _, ok := (&Result{Moderator: ModeratorInfo{Kind: ModeratorCategorical}}).EffectAt(1); ok {
+		t.Error("EffectAt answered for a categorical moderator")
+	}
+}

@@ -83,6 +83,17 @@ type ModeratorInfo struct {
 	Min    float64 `json:"min,omitempty"`
 	Max    float64 `json:"max,omitempty"`
 	Centre float64 `json:"centre,omitempty"`
+	// Histogram counts the rows used in equal-width bins over [Min, Max],
+	// for a continuous moderator, so a reader can see where the data are.
+	Histogram []Bin `json:"histogram,omitempty"`
+}
+
+// Bin is one bar of a histogram: rows with From ≤ value < To (the last bin
+// includes To).
+type Bin struct {
+	From float64 `json:"from"`
+	To   float64 `json:"to"`
+	Rows int     `json:"rows"`
 }
 
 // GroupEffect is the treatment's effect in one moderator group, or at one
@@ -126,4 +137,39 @@ type WaldTest struct {
 	DF1 int     `json:"df1"`
 	DF2 int     `json:"df2"`
 	P   float64 `json:"p"`
+}
+
+// EffectAt returns the treatment's effect at moderator value m of a
+// continuous moderator, θ(m) = b1 + b3·(m − c), with its standard error,
+// test and interval from the full covariance (METHODS §4–5). It is what a
+// chart draws across the observed range. ok is false for a binary or
+// categorical moderator.
+func (r *Result) EffectAt(m float64) (inf Inference, ok bool) {
+	if r.Moderator.Kind != ModeratorContinuous {
+		return Inference{}, false
+	}
+	t, b3 := -1, -1
+	for i, c := range r.Coefficients {
+		switch c.Role {
+		case roleTreatment:
+			t = i
+		case roleInteraction:
+			b3 = i
+		}
+	}
+	if t < 0 || b3 < 0 {
+		return Inference{}, false
+	}
+	k := len(r.Coefficients)
+	coef := make([]float64, k)
+	v := make([]float64, k*k)
+	for i := range r.Coefficients {
+		coef[i] = r.Coefficients[i].Estimate
+		copy(v[i*k:(i+1)*k], r.Covariance[i])
+	}
+	in := newInferencer(coef, v, r.Model.DF, r.Model.Alpha, r.Model.Power)
+	a := make([]float64, k)
+	a[t] = 1
+	a[b3] = m - r.Moderator.Centre
+	return in.combo(a), true
 }
