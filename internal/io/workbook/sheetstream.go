@@ -36,7 +36,11 @@ func newSheetStream(p *xlsxPackage, part string) (*sheetStream, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &sheetStream{pkg: p, rc: rc, dec: xml.NewDecoder(bufio.NewReaderSize(rc, 1<<16)), sst: sst}, nil
+	return &sheetStream{pkg: p, rc: rc, dec: newXMLDecoder(rc), sst: sst}, nil
+}
+
+func newXMLDecoder(r io.Reader) *xml.Decoder {
+	return xml.NewDecoder(bufio.NewReaderSize(r, 1<<16))
 }
 
 func (s *sheetStream) Close() error {
@@ -315,7 +319,7 @@ func readSharedStrings(p *xlsxPackage) ([]string, error) {
 		return nil, err
 	}
 	defer rc.Close()
-	dec := xml.NewDecoder(bufio.NewReaderSize(rc, 1<<16))
+	dec := newXMLDecoder(rc)
 	var out []string
 	var cur strings.Builder
 	inSI, inT, inPhonetic := false, false, false

@@ -50,6 +50,9 @@ type xlsxPackage struct {
 	zr       *zip.Reader
 	sheets   []SheetInfo
 	parts    map[string]string // sheet name → worksheet part name
+	rids     map[string]string // sheet name → relationship id
+	maxID    int               // the largest sheetId
+	wbPart   string
 	date1904 bool
 	dateXf   []bool // by cell style index: shown as a date or time
 	sstPart  string
@@ -220,7 +223,8 @@ type xmlRels struct {
 
 type xmlWorkbook struct {
 	Sheets []struct {
-		Name  string `xml:"name,attr"`
+		Name    string `xml:"name,attr"`
+		SheetID int    `xml:"sheetId,attr"`
 		State string `xml:"state,attr"`
 		RID   string `xml:"http://schemas.openxmlformats.org/officeDocument/2006/relationships id,attr"`
 		RIDs  string `xml:"http://purl.oclc.org/ooxml/officeDocument/relationships id,attr"`
@@ -263,11 +267,15 @@ func (p *xlsxPackage) readWorkbook() error {
 			targets["ws:"+r.ID] = target
 		}
 	}
+	p.wbPart = wbPart
+	p.rids = map[string]string{}
 	for _, s := range wb.Sheets {
 		rid := s.RID
 		if rid == "" {
 			rid = s.RIDs
 		}
+		p.rids[s.Name] = rid
+		p.maxID = max(p.maxID, s.SheetID)
 		_, isWS := targets["ws:"+rid]
 		p.sheets = append(p.sheets, SheetInfo{Name: s.Name, Hidden: s.State == "hidden" || s.State == "veryHidden", Worksheet: isWS})
 		if isWS {

@@ -1,0 +1,137 @@
+package workbook
+
+import (
+	"archive/zip"
+	"bytes"
+	"crypto/sha256"
+	"encoding/xml"
+	"fmt"
+	"io"
+	"os"
+)
+
+// verifyRewrite re-opens the rewritten file and checks that every sheet of
+// the original (but the replaced results sheet) is still there, in order,
+// with the same cell values and formulas.
+func verifyRewrite(orig []byte, tmpPath string, replaced string, limit, limitXML int64) error {
+	before, err := zip.NewReader(bytes.NewReader(orig), int64(len(orig)))
+	if err != nil {
+		return &Error{Cause: ErrVerifyFailed, Underlying: err}
+	}
+	f, err := os.Open(tmpPath)
+	if err != nil {
+		return &Error{Cause: ErrVerifyFailed, Underlying: err}
+	}
+	defer f.Close()
+	info, err := f.Stat()
+	if err != nil {
+		return &Error{Cause: ErrVerifyFailed, Underlying: err}
+	}
+	after, err := zip.NewReader(f, info.Size())
+	if err != nil {
+		return &Error{Cause: ErrVerifyFailed, Detail: "the new file is not a readable workbook", Underlying: err}
+	}
+	a := &xlsxPackage{zr: before, parts: map[string]string{}, limit: limit, limitXML: limitXML}
+	b := &xlsxPackage{zr: after, parts: map[string]string{}, limit: limit, limitXML: limitXML}
+	if err := a.readWorkbook(); err != nil {
+		return err
+	}
+	if err := b.readWorkbook(); err != nil {
+		return &Error{Cause: ErrVerifyFailed, Detail: "the new file's sheet list cannot be read", Underlying: err}
+	}
+	sstA, err := readSharedStrings(a)
+	if err != nil {
+		return err
+	}
+	sstB, err := readSharedStrings(b)
+	if err != nil {
+		return &Error{Cause: ErrVerifyFailed, Underlying: err}
+	}
+	j := 0
+	for _, s := range a.sheets {
+		if s.Name == replaced {
+			continue
+		}
+		for j < len(b.sheets) && b.sheets[j].Name != s.Name {
+			j++
+		}
+		if j == len(b.sheets) {
+			return &Error{Sheet: s.Name, Cause: ErrVerifyFailed, Detail: "the sheet is missing or out of order in the new file"}
+		}
+		if !s.Worksheet {
+			continue
+		}
+		da, err := sheetDigest(a, a.parts[s.Name], sstA)
+		if err != nil {
+			return &Error{Sheet: s.Name, Cause: ErrDamaged, Underlying: err}
+		}
+		db, err := sheetDigest(b, b.parts[s.Name], sstB)
+		if err != nil {
+			return &Error{Sheet: s.Name, Cause: ErrVerifyFailed, Underlying: err}
+		}
+		if da != db {
+			return &Error{Sheet: s.Name, Cause: ErrVerifyFailed, Detail: "its cells differ"}
+		}
+	}
+	return nil
+}
+
+// sheetDigest hashes every cell of a worksheet: its reference, its type,
+// its value (shared strings resolved, so a renumbered table still
+// compares equal) and its formula with the formula's attributes.
+func sheetDigest(p *xlsxPackage, part string, sst []string) ([32]byte, error) {
+	h := sha256.New()
+	rc, err := p.openPart(part, p.limit)
+	if err != nil {
+		return [32]byte{}, err
+	}
+	defer rc.Close()
+	dec := newXMLDecoder(rc)
+	var typ string
+	var in string // the element whose text is being read: "v", "f" or "t"
+	var text bytes.Buffer
+	for {
+		tok, err := dec.RawToken()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return [32]byte{}, err
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			switch t.Name.Local {
+			case "c":
+				typ = attr(t, "t")
+				fmt.Fprintf(h, "\x00c %s %s", attr(t, "r"), typ)
+			case "f":
+				fmt.Fprintf(h, "\x00f %s %s %s %s", attr(t, "t"), attr(t, "ref"), attr(t, "si"), attr(t, "ca"))
+				in = "f"
+				text.Reset()
+			case "v", "t":
+				in = t.Name.Local
+				text.Reset()
+			}
+		case xml.CharData:
+			if in != "" {
+				text.Write(t)
+			}
+		case xml.EndElement:
+			if t.Name.Local != in {
+				continue
+			}
+			v := text.String()
+			if in == "v" && typ == "s" {
+				var i int
+				if _, err := fmt.Sscan(v, &i); err == nil && i >= 0 && i < len(sst) {
+					v = "s:" + sst[i]
+				}
+			}
+			fmt.Fprintf(h, "\x00%s=%s", in, v)
+			in = ""
+		}
+	}
+	var sum [32]byte
+	copy(sum[:], h.Sum(nil))
+	return sum, nil
+}

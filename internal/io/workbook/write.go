@@ -1,0 +1,465 @@
+package workbook
+
+import (
+	"archive/zip"
+	"bytes"
+	"errors"
+	"fmt"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/xuri/excelize/v2"
+
+	"slopewise/internal/report"
+)
+
+// WriteOptions steer WriteResults.
+type WriteOptions struct {
+	// CopyTo, when set, is where the workbook with the results goes; the
+	// source file is then only read. For a text source it replaces the
+	// default "<name> results.xlsx" beside the source.
+	CopyTo string
+	// Replace allows replacing what Slopewise wrote before: its own
+	// earlier results sheet of the same name, or (with CopyTo, or for a
+	// text source) an existing target file, which is kept as a backup.
+	// A sheet that Slopewise did not write is never replaced.
+	Replace bool
+	// Now stamps backups; time.Now when nil.
+	Now func() time.Time
+	// UnzipSizeLimit and UnzipXMLSizeLimit as in Options.
+	UnzipSizeLimit    int64
+	UnzipXMLSizeLimit int64
+}
+
+// Written says what WriteResults did.
+type Written struct {
+	// Path is the file that holds the results sheet.
+	Path string
+	// Sheet is the results sheet's name, which may differ from the name
+	// asked for when that was taken.
+	Sheet string
+	// Backup is the copy of the file that was replaced, if any.
+	Backup string
+	// Lost lists the features of the source that the copy does not keep
+	// (only when writing a copy; in place such a source is refused).
+	Lost []string
+}
+
+// WriteResults adds the results sheet to the workbook at src, or, for a
+// text source, writes a new workbook beside it holding the data and the
+// results. Nothing but the new sheet changes: the file is written to a
+// temporary file in the same folder, re-opened and checked sheet by sheet
+// against the original, the original is copied to a timestamped backup,
+// and only then is the temporary file renamed into place. On any failure
+// the original's bytes are as they were.
+func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written, error) {
+	if opts.Now == nil {
+		opts.Now = time.Now
+	}
+	f, err := sniff(src)
+	if err != nil {
+		return nil, err
+	}
+	switch f {
+	case formatXLSX:
+		return writeWorkbook(src, sheet, opts)
+	case formatText:
+		return writeBesideText(src, sheet, opts)
+	}
+	return nil, fail(src, ErrNotWritableKind, "")
+}
+
+func (o WriteOptions) limits() (int64, int64) {
+	limit := o.UnzipSizeLimit
+	if limit <= 0 {
+		limit = DefaultUnzipSizeLimit
+	}
+	limitXML := o.UnzipXMLSizeLimit
+	if limitXML <= 0 {
+		limitXML = min(DefaultUnzipXMLSizeLimit, limit)
+	}
+	return limit, limitXML
+}
+
+// writeWorkbook adds the sheet to an .xlsx/.xlsm, in place or as a copy.
+func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written, error) {
+	inPlace := opts.CopyTo == ""
+	target := src
+	if !inPlace {
+		target = opts.CopyTo
+		if err := checkCopyTarget(src, target, opts.Replace); err != nil {
+			return nil, err
+		}
+	}
+	info, err := os.Stat(src)
+	if err != nil {
+		return nil, statError(src, err)
+	}
+	if inPlace {
+		if lock := lockFile(src); lock != "" {
+			return nil, &Error{Path: src, Cause: ErrOpenElsewhere, Detail: "a lock file is beside it: " + filepath.Base(lock)}
+		}
+	}
+	orig, err := os.ReadFile(src)
+	if err != nil {
+		return nil, statError(src, err)
+	}
+	limit, limitXML := opts.limits()
+	zr, err := zip.NewReader(bytes.NewReader(orig), int64(len(orig)))
+	if err != nil {
+		return nil, &Error{Path: src, Cause: ErrDamaged, Underlying: err}
+	}
+	hazards, err := scanHazards(zr, limitXML)
+	if err != nil {
+		return nil, &Error{Path: src, Cause: ErrDamaged, Underlying: err}
+	}
+	w := &Written{Path: target}
+	for _, h := range hazards {
+		if h.breaks {
+			return nil, &Error{Path: src, Cause: ErrCannotRewrite, Detail: "it uses " + h.feature}
+		}
+		w.Lost = append(w.Lost, h.feature)
+	}
+	if inPlace && len(w.Lost) > 0 {
+		return nil, &Error{Path: src, Cause: ErrWouldLose, Detail: "it uses " + strings.Join(w.Lost, "; ")}
+	}
+	pkg := &xlsxPackage{path: src, zr: zr, parts: map[string]string{}, limit: limit, limitXML: limitXML}
+	if err := pkg.readWorkbook(); err != nil {
+		return nil, err
+	}
+	name, replaced, err := chooseSheetName(pkg, sheet.Name, opts.Replace)
+	if err != nil {
+		return nil, err
+	}
+	w.Sheet = name
+	base := orig
+	if replaced != "" {
+		if base, err = removeSheet(pkg, orig, replaced); err != nil {
+			return nil, &Error{Path: src, Sheet: replaced, Cause: ErrSheetPartTaken, Underlying: err}
+		}
+		if zr, err = zip.NewReader(bytes.NewReader(base), int64(len(base))); err != nil {
+			return nil, &Error{Path: src, Cause: ErrDamaged, Underlying: err}
+		}
+		pkg = &xlsxPackage{path: src, zr: zr, parts: map[string]string{}, limit: limit, limitXML: limitXML}
+		if err := pkg.readWorkbook(); err != nil {
+			return nil, err
+		}
+	}
+	if err := checkFreeParts(pkg, sheet); err != nil {
+		return nil, err
+	}
+	l := layOut(sheet)
+	tmp, err := buildInTemp(target, base, limit, limitXML,
+		func(xf *excelize.File) error {
+			if _, err := xf.NewSheet(name); err != nil {
+				return err
+			}
+			return drawCells(xf, name, l)
+		},
+		func(xf *excelize.File) error { return finishSheet(xf, name, l) })
+	if err != nil {
+		return nil, err
+	}
+	defer os.Remove(tmp) // a no-op once renamed
+	if err := verifyRewrite(orig, tmp, replaced, limit, limitXML); err != nil {
+		var e *Error
+		if errors.As(err, &e) && e.Path == "" {
+			e.Path = src
+		}
+		return nil, err
+	}
+	if inPlace || fileExists(target) {
+		if w.Backup, err = backup(target, opts.Now()); err != nil {
+			return nil, err
+		}
+	}
+	if err := replaceFile(tmp, target, info.Mode().Perm(), info); err != nil {
+		return nil, err
+	}
+	return w, nil
+}
+
+// checkCopyTarget refuses a copy that would overwrite the source, or an
+// existing file the caller did not allow to replace.
+func checkCopyTarget(src, target string, replace bool) error {
+	si, err := os.Stat(src)
+	if err != nil {
+		return statError(src, err)
+	}
+	ti, err := os.Stat(target)
+	switch {
+	case err == nil && os.SameFile(si, ti):
+		return fail(target, ErrSameFile, "")
+	case err == nil && ti.IsDir():
+		return fail(target, ErrIsFolder, "")
+	case err == nil && !replace:
+		return fail(target, ErrTargetExists, "")
+	case err != nil && !errors.Is(err, fs.ErrNotExist):
+		return statError(target, err)
+	}
+	return nil
+}
+
+func fileExists(path string) bool {
+	_, err := os.Stat(path)
+	return err == nil
+}
+
+// lockFile returns the lock file that a spreadsheet program keeps beside
+// a workbook it has open, or "". Excel writes "~$" before the name (for
+// long names in place of its first two characters); LibreOffice writes
+// ".~lock.<name>#" (both from memory, checked by hand on files left by
+// those programs).
+func lockFile(path string) string {
+	dir, base := filepath.Split(path)
+	candidates := []string{"~$" + base, ".~lock." + base + "#"}
+	if r := []rune(base); len(r) > 2 {
+		candidates = append(candidates, "~$"+string(r[2:]))
+	}
+	for _, c := range candidates {
+		p := filepath.Join(dir, c)
+		if _, err := os.Lstat(p); err == nil {
+			return p
+		}
+	}
+	return ""
+}
+
+// chooseSheetName returns the results sheet's name, and the name of the
+// earlier results sheet to replace, if any.
+func chooseSheetName(pkg *xlsxPackage, want string, replace bool) (name, replaced string, err error) {
+	want = cleanSheetName(want)
+	existing := func(n string) (SheetInfo, bool) {
+		for _, s := range pkg.sheets {
+			if strings.EqualFold(s.Name, n) {
+				return s, true
+			}
+		}
+		return SheetInfo{}, false
+	}
+	s, taken := existing(want)
+	if !taken {
+		return want, "", nil
+	}
+	if replace {
+		last := pkg.sheets[len(pkg.sheets)-1]
+		ours := s.Worksheet && pkg.isResultsSheet(s.Name)
+		if !ours {
+			return "", "", &Error{Path: pkg.path, Sheet: s.Name, Cause: ErrSheetNameTaken}
+		}
+		if last.Name == s.Name && len(pkg.sheets) > 1 {
+			return s.Name, s.Name, nil
+		}
+		// An earlier results sheet that is not the last one is kept, and
+		// the new one gets a fresh name: removing a sheet from the middle
+		// would renumber the others' sheet-scoped names.
+	}
+	for k := 2; ; k++ {
+		suffix := fmt.Sprintf(" (%d)", k)
+		n := []rune(want)
+		if len(n)+len(suffix) > 31 {
+			n = n[:31-len(suffix)]
+		}
+		candidate := string(n) + suffix
+		if _, taken := existing(candidate); !taken {
+			return candidate, "", nil
+		}
+	}
+}
+
+// cleanSheetName makes a legal sheet name: at most 31 characters, none of
+// : \ / ? * [ ], not starting or ending with an apostrophe, not "History"
+// (the rules spreadsheet programs enforce; common practice).
+func cleanSheetName(s string) string {
+	s = strings.Map(func(r rune) rune {
+		if strings.ContainsRune(`:\/?*[]`, r) || r < 0x20 {
+			return ' '
+		}
+		return r
+	}, s)
+	s = strings.Trim(strings.Join(strings.Fields(s), " "), "'")
+	if r := []rune(s); len(r) > 31 {
+		s = strings.TrimSpace(string(r[:31]))
+	}
+	if s == "" || strings.EqualFold(s, "History") {
+		return DefaultSheetName
+	}
+	return s
+}
+
+// isResultsSheet reports whether a sheet holds Slopewise's spec marker in
+// column A, the mark of a results sheet it wrote.
+func (p *xlsxPackage) isResultsSheet(name string) bool {
+	spec, err := p.readSpec(name)
+	return err == nil && spec != nil
+}
+
+// checkFreeParts checks that the part names excelize will pick for the
+// new sheet and its picture are free. NewSheet names the part after the
+// largest sheetId plus one, and AddPicture names the drawing and the image
+// after the count of such parts plus one, none checking that the name is
+// unused (excelize v2.11.1 source: sheet.go NewSheet, picture.go
+// countDrawings and addMedia); an existing part of that name would be
+// overwritten.
+func checkFreeParts(pkg *xlsxPackage, sheet *report.Sheet) error {
+	want := []string{fmt.Sprintf("xl/worksheets/sheet%d.xml", pkg.maxID+1)}
+	if hasImages(sheet) {
+		drawings, media := 0, 0
+		for _, f := range pkg.zr.File {
+			switch {
+			case strings.Contains(f.Name, "xl/drawings/drawing"):
+				drawings++
+			case strings.Contains(f.Name, "xl/media/image"):
+				media++
+			}
+		}
+		want = append(want, fmt.Sprintf("xl/drawings/drawing%d.xml", drawings+1), fmt.Sprintf("xl/media/image%d.png", media+1))
+	}
+	for _, name := range want {
+		if pkg.file(name) != nil {
+			return &Error{Path: pkg.path, Cause: ErrSheetPartTaken, Detail: "the part " + name + " is already used"}
+		}
+	}
+	return nil
+}
+
+func hasImages(s *report.Sheet) bool {
+	for _, b := range s.Blocks {
+		if b.Image != nil && len(b.Image.PNG) > 0 {
+			return true
+		}
+	}
+	return false
+}
+
+// buildInTemp opens base (the workbook's bytes; nil for a new workbook) in
+// a fresh excelize File that has read nothing through its getters, lets
+// each stage add to it, saving and re-opening between stages, and writes
+// the result to a temporary file beside target.
+func buildInTemp(target string, base []byte, limit, limitXML int64, stages ...func(*excelize.File) error) (tmpPath string, err error) {
+	defer func() {
+		if r := recover(); r != nil {
+			err = &Error{Path: target, Cause: ErrVerifyFailed, Detail: fmt.Sprint("the workbook writer stopped: ", r)}
+		}
+	}()
+	var xf *excelize.File
+	for i, stage := range stages {
+		if base == nil {
+			xf = excelize.NewFile()
+		} else {
+			xf, err = excelize.OpenReader(bytes.NewReader(base), excelize.Options{UnzipSizeLimit: limit, UnzipXMLSizeLimit: limitXML})
+			if err != nil {
+				return "", excelizeOpenError(target, err, limit)
+			}
+		}
+		if err := stage(xf); err != nil {
+			xf.Close()
+			return "", &Error{Path: target, Cause: ErrVerifyFailed, Detail: "drawing the results sheet failed", Underlying: err}
+		}
+		if i == len(stages)-1 {
+			break
+		}
+		var buf bytes.Buffer
+		_, err := xf.WriteTo(&buf)
+		xf.Close()
+		if err != nil {
+			return "", &Error{Path: target, Cause: ErrVerifyFailed, Detail: "drawing the results sheet failed", Underlying: err}
+		}
+		base = buf.Bytes()
+	}
+	defer xf.Close()
+	dir, name := filepath.Split(target)
+	if dir == "" {
+		dir = "."
+	}
+	tmp, err := os.CreateTemp(dir, "."+name+".slopewise-*.tmp")
+	if err != nil {
+		return "", &Error{Path: dir, Cause: ErrFolderReadOnly, Underlying: err}
+	}
+	if _, err := xf.WriteTo(tmp); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Detail: "writing the new file failed", Underlying: err}
+	}
+	if err := tmp.Sync(); err != nil {
+		tmp.Close()
+		os.Remove(tmp.Name())
+		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Detail: "the new file could not be saved to disk", Underlying: err}
+	}
+	if err := tmp.Close(); err != nil {
+		os.Remove(tmp.Name())
+		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Underlying: err}
+	}
+	return tmp.Name(), nil
+}
+
+// backup copies path to "<name> (before Slopewise <time>).<ext>" beside
+// it and checks that the copy's bytes equal the original's.
+func backup(path string, now time.Time) (string, error) {
+	orig, err := os.ReadFile(path)
+	if err != nil {
+		return "", statError(path, err)
+	}
+	dir, base := filepath.Split(path)
+	ext := filepath.Ext(base)
+	stem := strings.TrimSuffix(base, ext)
+	stamp := now.Format("2006-01-02 15.04.05")
+	var dst string
+	for k := 1; ; k++ {
+		extra := ""
+		if k > 1 {
+			extra = " " + strconv.Itoa(k)
+		}
+		dst = filepath.Join(dir, fmt.Sprintf("%s (before Slopewise %s%s)%s", stem, stamp, extra, ext))
+		if !fileExists(dst) {
+			break
+		}
+	}
+	info, _ := os.Stat(path)
+	mode := fs.FileMode(0o644)
+	if info != nil {
+		mode = info.Mode().Perm()
+	}
+	f, err := os.OpenFile(dst, os.O_WRONLY|os.O_CREATE|os.O_EXCL, mode)
+	if err != nil {
+		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
+	}
+	_, werr := f.Write(orig)
+	serr := f.Sync()
+	cerr := f.Close()
+	if err := errors.Join(werr, serr, cerr); err != nil {
+		os.Remove(dst)
+		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
+	}
+	again, err := os.ReadFile(dst)
+	if err != nil || !bytes.Equal(again, orig) {
+		os.Remove(dst)
+		return "", &Error{Path: dst, Cause: ErrVerifyFailed, Detail: "the backup does not read back equal to the original"}
+	}
+	return dst, nil
+}
+
+// replaceFile gives tmp the original's permissions (and owner, where
+// allowed) and renames it over target.
+func replaceFile(tmp, target string, perm fs.FileMode, orig fs.FileInfo) error {
+	if err := os.Chmod(tmp, perm); err != nil {
+		return &Error{Path: target, Cause: ErrCannotReplace, Underlying: err}
+	}
+	chownLike(tmp, orig)
+	if err := os.Rename(tmp, target); err != nil {
+		return &Error{Path: target, Cause: ErrCannotReplace, Underlying: err}
+	}
+	syncDir(filepath.Dir(target))
+	return nil
+}
+
+func syncDir(dir string) {
+	if d, err := os.Open(dir); err == nil {
+		_ = d.Sync() // best effort: not every system can sync a folder
+		d.Close()
+	}
+}

@@ -1,0 +1,397 @@
+package workbook
+
+import (
+	"archive/zip"
+	"bytes"
+	"context"
+	"crypto/sha256"
+	"encoding/xml"
+	"errors"
+	"fmt"
+	"image"
+	"image/color"
+	"image/png"
+	"io"
+	"os"
+	"path/filepath"
+	"sort"
+	"strings"
+	"testing"
+	"time"
+
+	"github.com/xuri/excelize/v2"
+
+	"slopewise/internal/report"
+)
+
+// richWorkbook makes, with excelize, a workbook that uses what evaluators'
+// workbooks use: several sheets, styles, merged cells, formulas with saved
+// results, defined names, data validation, comments, a chart, a picture, a
+// table, a protected sheet, cells whose display format hides digits and a
+// macro project.
+func richWorkbook(t testing.TB, path string) {
+	t.Helper()
+	f := excelize.NewFile()
+	defer f.Close()
+	must := func(err error) {
+		t.Helper()
+		if err != nil {
+			t.Fatal(err)
+		}
+	}
+	must(f.SetSheetName("Sheet1", "Visits"))
+	_, err := f.NewSheet("Lookup")
+	must(err)
+	_, err = f.NewSheet("Locked")
+	must(err)
+	bold, err := f.NewStyle(&excelize.Style{Font: &excelize.Font{Bold: true}, Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{"DDEBF7"}}})
+	must(err)
+	threeDec, err := f.NewStyle(&excelize.Style{CustomNumFmt: ptr("0.000")})
+	must(err)
+	must(f.SetSheetRow("Visits", "A1", &[]any{"Person", "Arm", "Score", "Double"}))
+	must(f.SetCellStyle("Visits", "A1", "D1", bold))
+	for i := 0; i < 20; i++ {
+		r := i + 2
+		must(f.SetSheetRow("Visits", fmt.Sprintf("A%d", r), &[]any{i + 1, []string{"control", "treated"}[i%2], 0.1234567 + float64(i)/7}))
+		must(f.SetCellFormula("Visits", fmt.Sprintf("D%d", r), fmt.Sprintf("C%d*2", r)))
+		must(f.SetCellFloat("Visits", fmt.Sprintf("D%d", r), 2*(0.1234567+float64(i)/7), -1, 64))
+		must(f.SetCellFormula("Visits", fmt.Sprintf("D%d", r), fmt.Sprintf("C%d*2", r)))
+	}
+	must(f.SetCellStyle("Visits", "C2", "C21", threeDec))
+	must(f.MergeCell("Lookup", "A1", "C1"))
+	must(f.SetCellValue("Lookup", "A1", "Arms and their labels"))
+	must(f.SetSheetRow("Lookup", "A2", &[]any{"control", 0}))
+	must(f.SetSheetRow("Lookup", "A3", &[]any{"treated", 1}))
+	must(f.SetDefinedName(&excelize.DefinedName{Name: "Arms", RefersTo: "Lookup!$A$2:$A$3"}))
+	dv := excelize.NewDataValidation(true)
+	dv.Sqref = "B2:B21"
+	must(dv.SetDropList([]string{"control", "treated"}))
+	must(f.AddDataValidation("Visits", dv))
+	must(f.AddComment("Visits", excelize.Comment{Cell: "C1", Author: "Evaluator", Text: "Scores from the spring round"}))
+	must(f.AddChart("Visits", "F2", &excelize.Chart{
+		Type:   excelize.Col,
+		Series: []excelize.ChartSeries{{Name: "Visits!$C$1", Categories: "Visits!$A$2:$A$21", Values: "Visits!$C$2:$C$21"}},
+	}))
+	must(f.AddPictureFromBytes("Lookup", "E2", &excelize.Picture{Extension: ".png", File: testPNG(t, 40, 30)}))
+	must(f.AddTable("Lookup", &excelize.Table{Range: "A2:B3", Name: "ArmTable", ShowHeaderRow: ptr(false)}))
+	must(f.SetCellValue("Locked", "A1", "Do not edit"))
+	must(f.ProtectSheet("Locked", &excelize.SheetProtectionOptions{Password: "secret", EditScenarios: false}))
+	must(f.SetConditionalFormat("Visits", "C2:C21", []excelize.ConditionalFormatOptions{{Type: "data_bar", Criteria: "=", MinType: "min", MaxType: "max", BarColor: "#638EC6"}}))
+	vba := append(append([]byte{}, oleSignature...), make([]byte, 504)...)
+	must(f.AddVBAProject(vba))
+	must(f.SaveAs(path))
+}
+
+func testPNG(t testing.TB, w, h int) []byte {
+	t.Helper()
+	img := image.NewRGBA(image.Rect(0, 0, w, h))
+	for x := 0; x < w; x++ {
+		for y := 0; y < h; y++ {
+			img.Set(x, y, color.RGBA{uint8(x * 5), uint8(y * 7), 120, 255})
+		}
+	}
+	var buf bytes.Buffer
+	if err := png.Encode(&buf, img); err != nil {
+		t.Fatal(err)
+	}
+	return buf.Bytes()
+}
+
+// resultsGrid uses every kind of cell.
+func resultsGrid(t testing.TB) *report.Sheet {
+	return &report.Sheet{
+		Name: "Slopewise results",
+		Blocks: []report.Block{
+			{Title: "Effect of the programme by group", Rows: [][]report.Cell{
+				{report.HeadingCell("Group"), report.HeadingCell("Effect"), report.HeadingCell("Share"), report.HeadingCell("p")},
+				{report.TextCell("North"), report.NumberCell(0.12345678901234567, "0.00"), report.PercentCell(0.4567, 1), report.PValueCell(0.000123456789)},
+				{report.TextCell("South"), report.NumberCell(-1234567.890123, "#,##0.0"), report.PercentCell(0.5, 0), report.PValueCell(0.04321)},
+			}},
+			{Rows: [][]report.Cell{{report.ParagraphCell("The programme raised scores in the North more than in the South. "+strings.Repeat("This sentence makes the note long enough to wrap. ", 4), 4)}}},
+			{Title: "Chart", Image: &report.Image{Title: "Effects with confidence intervals", PNG: testPNG(t, 120, 80), Width: 120, Height: 80}},
+		},
+		Settings: []report.Setting{{Label: "Sheet", Value: "Visits"}, {Label: "Header row", Value: "1"}},
+		Spec:     []byte(`{"sheet":"Visits","header_row":1,"outcome":"Score"}`),
+	}
+}
+
+// rewrittenParts are the parts excelize always re-serialises on save
+// (excelize v2.11.1 source: excelize.go and file.go, writeToZip; the
+// issue's list), compared as XML rather than byte by byte.
+var rewrittenParts = map[string]bool{
+	"xl/workbook.xml":            true,
+	"xl/_rels/workbook.xml.rels": true,
+	"[Content_Types].xml":        true,
+	"xl/styles.xml":              true,
+	"xl/theme/theme1.xml":        true,
+	"xl/calcChain.xml":           true,
+}
+
+func zipParts(t testing.TB, path string) map[string][]byte {
+	t.Helper()
+	zr, err := zip.OpenReader(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer zr.Close()
+	out := map[string][]byte{}
+	for _, f := range zr.File {
+		rc, err := f.Open()
+		if err != nil {
+			t.Fatal(err)
+		}
+		b, err := io.ReadAll(rc)
+		rc.Close()
+		if err != nil {
+			t.Fatal(err)
+		}
+		out[f.Name] = b
+	}
+	return out
+}
+
+// xmlItems flattens an XML document into one string per element: its
+// path, its attributes (sorted, with resolved namespaces) and its text.
+func xmlItems(t testing.TB, body []byte) map[string]int {
+	t.Helper()
+	dec := xml.NewDecoder(bytes.NewReader(body))
+	items := map[string]int{}
+	var stack []string
+	var text []string
+	for {
+		tok, err := dec.Token()
+		if err == io.EOF {
+			return items
+		}
+		if err != nil {
+			t.Fatal(err)
+		}
+		switch x := tok.(type) {
+		case xml.StartElement:
+			var attrs []string
+			for _, a := range x.Attr {
+				// Namespace declarations, and counts of children, which
+				// grow with every addition.
+				if a.Name.Space == "xmlns" || a.Name.Local == "xmlns" || a.Name.Local == "count" {
+					continue
+				}
+				attrs = append(attrs, a.Name.Space+":"+a.Name.Local+"="+a.Value)
+			}
+			sort.Strings(attrs)
+			stack = append(stack, x.Name.Space+":"+x.Name.Local+"["+strings.Join(attrs, ",")+"]")
+			text = append(text, "")
+		case xml.CharData:
+			if len(text) > 0 {
+				text[len(text)-1] += strings.TrimSpace(string(x))
+			}
+		case xml.EndElement:
+			items[strings.Join(stack, "/")+"="+text[len(text)-1]]++
+			stack, text = stack[:len(stack)-1], text[:len(text)-1]
+		}
+	}
+}
+
+func sha(b []byte) [32]byte { return sha256.Sum256(b) }
+
+func fileHash(t testing.TB, path string) [32]byte {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sha(b)
+}
+
+// rawRows reads every sheet's raw values and formulas with excelize, a
+// reader independent of ours.
+func rawRows(t testing.TB, path string) map[string]string {
+	t.Helper()
+	f, err := excelize.OpenFile(path, excelize.Options{RawCellValue: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	out := map[string]string{}
+	for _, s := range f.GetSheetList() {
+		rows, err := f.GetRows(s, excelize.Options{RawCellValue: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		var b strings.Builder
+		for r, row := range rows {
+			for c, v := range row {
+				ref, _ := excelize.CoordinatesToCellName(c+1, r+1)
+				formula, _ := f.GetCellFormula(s, ref)
+				fmt.Fprintf(&b, "%s=%q f=%q\n", ref, v, formula)
+			}
+		}
+		out[s] = b.String()
+	}
+	return out
+}
+
+func TestWriteResultsRoundTrip(t *testing.T) {
+	dir := t.TempDir()
+	path := filepath.Join(dir, "visits.xlsm")
+	richWorkbook(t, path)
+	if err := os.Chmod(path, 0o640); err != nil {
+		t.Fatal(err)
+	}
+	before := zipParts(t, path)
+	origHash := fileHash(t, path)
+	rawBefore := rawRows(t, path)
+	now := time.Date(2026, 3, 4, 5, 6, 7, 0, time.UTC)
+
+	w, err := WriteResults(path, resultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w.Path != path || w.Sheet != "Slopewise results" {
+		t.Errorf("written %+v", w)
+	}
+	wantBackup := filepath.Join(dir, "visits (before Slopewise 2026-03-04 05.06.07).xlsm")
+	if w.Backup != wantBackup || fileHash(t, wantBackup) != origHash {
+		t.Errorf("backup %q is not the original", w.Backup)
+	}
+	if info, err := os.Stat(path); err != nil || info.Mode().Perm() != 0o640 {
+		t.Errorf("permissions after writing: %v %v", info.Mode(), err)
+	}
+	after := zipParts(t, path)
+	for name, body := range before {
+		got, ok := after[name]
+		switch {
+		case !ok:
+			t.Errorf("part %s is gone", name)
+		case rewrittenParts[name]:
+			old, neu := xmlItems(t, body), xmlItems(t, got)
+			for item, n := range old {
+				if neu[item] < n {
+					t.Errorf("part %s lost %q", name, item)
+				}
+			}
+		case !bytes.Equal(body, got):
+			t.Errorf("part %s changed", name)
+		}
+	}
+	var added []string
+	for name := range after {
+		if _, ok := before[name]; !ok {
+			added = append(added, name)
+		}
+	}
+	sort.Strings(added)
+	if want := "xl/drawings/_rels/drawing3.xml.rels xl/drawings/drawing3.xml xl/media/image2.png xl/worksheets/_rels/sheet4.xml.rels xl/worksheets/sheet4.xml"; strings.Join(added, " ") != want {
+		t.Errorf("added parts %q, want %q", added, want)
+	}
+	rawAfter := rawRows(t, path)
+	for s, v := range rawBefore {
+		if rawAfter[s] != v {
+			t.Errorf("sheet %s reads differently after writing", s)
+		}
+	}
+	res := rawAfter["Slopewise results"]
+	for _, want := range []string{
+		`B3="0.12345678901234566"`, // every digit of the float64 is kept
+		`D3="0.000123456789"`,
+		`B4="-1234567.890123"`,
+		`A1="Effect of the programme by group"`,
+	} {
+		if !strings.Contains(res, want) {
+			t.Errorf("results sheet lacks %s:\n%s", want, res)
+		}
+	}
+	spec, err := ReadSpec(path, "Slopewise results")
+	if err != nil || string(spec) != `{"sheet":"Visits","header_row":1,"outcome":"Score"}` {
+		t.Errorf("spec read back %q, %v", spec, err)
+	}
+	// The data sheet still reads as before through our own reader.
+	tab, err := Read(context.Background(), path, Options{Sheet: "Visits"})
+	if err != nil || tab.Column("Score").Numbers[0] != 0.1234567 {
+		t.Fatalf("reading the data back: %v", err)
+	}
+
+	// A second run with Replace replaces its own sheet; without, it adds one.
+	hash1 := fileHash(t, path)
+	now = now.Add(time.Minute)
+	w2, err := WriteResults(path, resultsGrid(t), WriteOptions{Replace: true, Now: func() time.Time { return now }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	sheets, _ := Sheets(path)
+	if w2.Sheet != "Slopewise results" || len(sheets) != 4 || fileHash(t, w2.Backup) != hash1 {
+		t.Errorf("replace: %+v, %d sheets", w2, len(sheets))
+	}
+	now = now.Add(time.Minute)
+	w3, err := WriteResults(path, resultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w3.Sheet != "Slopewise results (2)" {
+		t.Errorf("second sheet named %q", w3.Sheet)
+	}
+	if got := rawRows(t, path); got["Visits"] != rawBefore["Visits"] || got["Lookup"] != rawBefore["Lookup"] {
+		t.Error("data sheets changed after three writes")
+	}
+}
+
+func TestWriteCopyKeepsSource(t *testing.T) {
+	dir := t.TempDir()
+	src := filepath.Join(dir, "book.xlsx")
+	richWorkbook(t, src)
+	h := fileHash(t, src)
+	dst := filepath.Join(dir, "copy.xlsx")
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: dst})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if fileHash(t, src) != h || w.Backup != "" || w.Path != dst {
+		t.Errorf("source changed or unexpected backup: %+v", w)
+	}
+	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: dst}); !errors.Is(err, ErrTargetExists) {
+		t.Errorf("second copy onto the first: %v", err)
+	}
+	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: src}); !errors.Is(err, ErrSameFile) {
+		t.Errorf("copy onto the source: %v", err)
+	}
+}
+
+func TestWriteBesideCSV(t *testing.T) {
+	dir := t.TempDir()
+	src := writeFile(t, dir, "survey.csv", []byte("id;score;group\n1;1,25;A\n\n2;0,12345678901234567;B\n"))
+	h := fileHash(t, src)
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w.Path != filepath.Join(dir, "survey results.xlsx") || fileHash(t, src) != h {
+		t.Fatalf("written %+v; the CSV must stay as it was", w)
+	}
+	rows := rawRows(t, w.Path)
+	for _, want := range []string{`B2="1.25"`, `B4="0.12345678901234566"`, `C4="B"`} {
+		if !strings.Contains(rows[DataSheetName], want) {
+			t.Errorf("data sheet lacks %s:\n%s", want, rows[DataSheetName])
+		}
+	}
+	if !strings.Contains(rows["Slopewise results"], `A1="Effect of the programme by group"`) {
+		t.Errorf("no results sheet: %v", rows)
+	}
+	// The data sheet reads back as the CSV did, with the same cell references.
+	a, err := Read(context.Background(), src, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	b, err := Read(context.Background(), w.Path, Options{Sheet: DataSheetName})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if a.CellRef(a.Column("score"), 1) != "cell B4" || b.Column("score").Numbers[1] != a.Column("score").Numbers[1] {
+		t.Errorf("CSV and its data sheet differ: %v vs %v", a.Column("score").Numbers, b.Column("score").Numbers)
+	}
+	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{}); !errors.Is(err, ErrTargetExists) {
+		t.Errorf("second run without replace: %v", err)
+	}
+	w2, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	if err != nil || w2.Backup == "" {
+		t.Errorf("second run with replace: %+v %v", w2, err)
+	}
+}
