@@ -3,6 +3,7 @@ package workbook
 import (
 	"bufio"
 	"encoding/xml"
+	"errors"
 	"fmt"
 	"io"
 	"strconv"
@@ -43,12 +44,9 @@ func newXMLDecoder(r io.Reader) *xml.Decoder {
 	return xml.NewDecoder(bufio.NewReaderSize(r, 1<<16))
 }
 
+// Close closes the part and the workbook file it was read from.
 func (s *sheetStream) Close() error {
-	err := s.rc.Close()
-	if cerr := s.pkg.Close(); err == nil {
-		err = cerr
-	}
-	return err
+	return errors.Join(s.rc.Close(), s.pkg.Close())
 }
 
 // damaged reports a broken worksheet at the current row.

@@ -34,17 +34,11 @@ func (p *xlsxPackage) readSpec(sheet string) ([]byte, error) {
 	if !ok {
 		return nil, nil
 	}
-	sst, err := readSharedStrings(p)
+	s, err := newSheetStream(p, part)
 	if err != nil {
 		return nil, err
 	}
-	rc, err := p.openPart(part, p.limit)
-	if err != nil {
-		return nil, err
-	}
-	s := &sheetStream{pkg: p, rc: rc, sst: sst}
-	s.dec = newXMLDecoder(rc)
-	defer rc.Close()
+	defer s.rc.Close()
 	for {
 		_, cells, err := s.Next()
 		if err == io.EOF {

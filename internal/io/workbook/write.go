@@ -74,15 +74,7 @@ func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written,
 }
 
 func (o WriteOptions) limits() (int64, int64) {
-	limit := o.UnzipSizeLimit
-	if limit <= 0 {
-		limit = DefaultUnzipSizeLimit
-	}
-	limitXML := o.UnzipXMLSizeLimit
-	if limitXML <= 0 {
-		limitXML = min(DefaultUnzipXMLSizeLimit, limit)
-	}
-	return limit, limitXML
+	return sizeLimits(o.UnzipSizeLimit, o.UnzipXMLSizeLimit)
 }
 
 // writeWorkbook adds the sheet to an .xlsx/.xlsm, in place or as a copy.

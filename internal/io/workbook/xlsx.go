@@ -60,7 +60,13 @@ type xlsxPackage struct {
 	limitXML int64
 }
 
-func (p *xlsxPackage) Close() error { return p.zf.Close() }
+// Close closes the workbook file, if the package was opened from one.
+func (p *xlsxPackage) Close() error {
+	if p.zf == nil {
+		return nil
+	}
+	return p.zf.Close()
+}
 
 // openPackage opens a workbook with excelize, which decrypts nothing (the
 // format sniffer has refused encrypted files), applies the size limits
@@ -72,14 +78,7 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 			p, err = nil, fail(path, ErrDamaged, fmt.Sprint("the workbook reader stopped: ", r))
 		}
 	}()
-	limit := opts.UnzipSizeLimit
-	if limit <= 0 {
-		limit = DefaultUnzipSizeLimit
-	}
-	limitXML := opts.UnzipXMLSizeLimit
-	if limitXML <= 0 {
-		limitXML = min(DefaultUnzipXMLSizeLimit, limit)
-	}
+	limit, limitXML := sizeLimits(opts.UnzipSizeLimit, opts.UnzipXMLSizeLimit)
 	xf, err := excelize.OpenFile(path, excelize.Options{
 		RawCellValue:      true,
 		UnzipSizeLimit:    limit,
@@ -111,6 +110,17 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 		return nil, err
 	}
 	return p, nil
+}
+
+// sizeLimits applies the defaults to the size limits asked for.
+func sizeLimits(limit, limitXML int64) (int64, int64) {
+	if limit <= 0 {
+		limit = DefaultUnzipSizeLimit
+	}
+	if limitXML <= 0 {
+		limitXML = min(DefaultUnzipXMLSizeLimit, limit)
+	}
+	return limit, limitXML
 }
 
 // excelizeOpenError maps what excelize says on open to our causes.
@@ -225,9 +235,9 @@ type xmlWorkbook struct {
 	Sheets []struct {
 		Name    string `xml:"name,attr"`
 		SheetID int    `xml:"sheetId,attr"`
-		State string `xml:"state,attr"`
-		RID   string `xml:"http://schemas.openxmlformats.org/officeDocument/2006/relationships id,attr"`
-		RIDs  string `xml:"http://purl.oclc.org/ooxml/officeDocument/relationships id,attr"`
+		State   string `xml:"state,attr"`
+		RID     string `xml:"http://schemas.openxmlformats.org/officeDocument/2006/relationships id,attr"`
+		RIDs    string `xml:"http://purl.oclc.org/ooxml/officeDocument/relationships id,attr"`
 	} `xml:"sheets>sheet"`
 }
 
