@@ -1,6 +1,9 @@
 package estimate
 
 import (
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
 	"fmt"
 	"math"
 )
@@ -40,6 +43,14 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
 		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
 	res.Model.R2, res.Model.AdjR2 = ds.rSquared(f)
+	res.Model.OutcomeBinary = true
+	for _, y := range ds.y {
+		if y != 0 && y != 1 {
+			res.Model.OutcomeBinary = false
+			break
+		}
+	}
+	res.Model.DataSHA256 = ds.hash()
 
 	res.Covariance = make([][]float64, k)
 	for i := 0; i < k; i++ {
@@ -60,6 +71,30 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 		res.Notes = append(res.Notes, fmt.Sprintf("The test that all group effects are equal cannot be computed: the estimated covariance of the %d interaction terms is singular (with clusters, this happens when there are too few of them).", len(ds.iCols)))
 	}
 	return res
+}
+
+// hash returns the SHA-256 of the values used, as little-endian float64
+// bits in order: model matrix, outcome, weights, cluster numbers.
+func (ds *design) hash() string {
+	h := sha256.New()
+	buf := make([]byte, 0, 8*1024)
+	put := func(v uint64) {
+		buf = binary.LittleEndian.AppendUint64(buf, v)
+		if len(buf) == cap(buf) {
+			h.Write(buf)
+			buf = buf[:0]
+		}
+	}
+	for _, xs := range [][]float64{ds.x, ds.y, ds.w} {
+		for _, v := range xs {
+			put(math.Float64bits(v))
+		}
+	}
+	for _, c := range ds.cluster {
+		put(uint64(c))
+	}
+	h.Write(buf)
+	return hex.EncodeToString(h.Sum(nil))
 }
 
 // rSquared returns R² and adjusted R², weighted when there are weights

@@ -135,6 +135,9 @@ func TestPermutationInvariance(t *testing.T) {
 				same("SE "+a.Effects[i].Group, a.Effects[i].SE, b.Effects[i].SE)
 			}
 			same("F", a.Heterogeneity.F, b.Heterogeneity.F)
+			if a.Model.DataSHA256 == b.Model.DataSHA256 {
+				t.Errorf("the data hash should see the row order: both %s", a.Model.DataSHA256)
+			}
 			var ra, rb []int
 			for _, r := range a.Rows.List {
 				ra = append(ra, r.Row)
@@ -147,5 +150,31 @@ func TestPermutationInvariance(t *testing.T) {
 				t.Errorf("dropped rows %v vs %v", ra, rb)
 			}
 		}
+	}
+}
+
+// TestDataHash checks that the hash of the values used is stable for the
+// same data, changes when one used value changes, and ignores dropped rows.
+func TestDataHash(t *testing.T) {
+	fit := func(d *Data) string {
+		res, err := Fit(d, groupSpec())
+		if err != nil {
+			t.Fatal(err)
+		}
+		return res.Model.DataSHA256
+	}
+	d := synth(60, 50)
+	d.col("y").Num[3] = math.NaN()
+	base := fit(d)
+	if len(base) != 64 || fit(synth(60, 50)) == base || fit(d) != base {
+		t.Fatalf("hash %q not stable or not sensitive to a dropped row", base)
+	}
+	d.col("x1").Num[3] = 1e6 // a dropped row: not used, so the hash stays
+	if fit(d) != base {
+		t.Error("a value in a dropped row changed the hash")
+	}
+	d.col("x1").Num[4] += 1e-9
+	if fit(d) == base {
+		t.Error("a changed used value kept the hash")
 	}
 }

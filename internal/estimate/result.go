@@ -51,6 +51,13 @@ type ModelInfo struct {
 	Condition float64 `json:"condition"`
 	Alpha     float64 `json:"alpha"`
 	Power     float64 `json:"power"`
+	// OutcomeBinary is true when the outcome is 0/1, so effects are
+	// differences in proportions.
+	OutcomeBinary bool `json:"outcome_binary,omitempty"`
+	// DataSHA256 is a hash of exactly the values the fit used (model
+	// matrix, outcome, weights, clusters), so a reader can tell whether the
+	// data changed between two runs.
+	DataSHA256 string `json:"data_sha256"`
 }
 
 // Coefficient is one term of the model.
