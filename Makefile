@@ -2,7 +2,7 @@
 # (.ci/run calls it); it installs what it needs on a fresh Debian machine.
 
 GO ?= go
-APT_PACKAGES := r-base-core r-cran-sandwich
+APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui
 
 .PHONY: test deps go-test crosscheck-r bench vet
 
