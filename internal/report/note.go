@@ -1,0 +1,370 @@
+package report
+
+import (
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"slopewise/internal/estimate"
+)
+
+// Note writes the plain-language note an evaluator can hand on: what was
+// used, the effect in each group, whether the groups differ and how
+// precisely that could be told, with the wording rules of METHODS §9:
+// "effect" only for a randomised treatment; never "no difference" from an
+// unclear test; never a finding without its interval; never causal words
+// for the moderator; always rows used and dropped, the standard-error type
+// and the minimum detectable difference.
+func Note(run Run, res *estimate.Result) string {
+	w := noteWriter{run: run, res: res, u: unitsFor(res.Model.OutcomeBinary)}
+	w.rows()
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		w.continuous()
+	} else {
+		w.groups()
+	}
+	w.precision()
+	w.moderatorWords()
+	return strings.Join(w.sentences, " ")
+}
+
+type noteWriter struct {
+	run       Run
+	res       *estimate.Result
+	u         units
+	sentences []string
+}
+
+func (w *noteWriter) say(format string, args ...any) {
+	w.sentences = append(w.sentences, fmt.Sprintf(format, args...))
+}
+
+// rows says how many rows were used and why others were left out.
+func (w *noteWriter) rows() {
+	r := w.res.Rows
+	if r.Dropped == 0 {
+		w.say("The analysis used all %s rows.", count(r.Used))
+		return
+	}
+	var why []string
+	for _, c := range r.Reasons {
+		why = append(why, fmt.Sprintf("%s with %s", count(c.Rows), c.Reason))
+	}
+	w.say("The analysis used %s of %s rows; %s were left out (%s).", count(r.Used), count(r.Read), count(r.Dropped), strings.Join(why, "; "))
+}
+
+// subject names what is estimated: an effect, or a difference associated
+// with the treatment when it was not randomly assigned.
+func (w *noteWriter) subject() string {
+	t := w.res.Spec.Treatment
+	outcome := w.res.Spec.Outcome
+	name := treatmentName(t)
+	if t.Kind == estimate.TreatmentContinuous {
+		name = "each unit of " + name
+	}
+	if w.run.Randomized {
+		return fmt.Sprintf("the estimated effect of %s on %s", name, outcome)
+	}
+	return fmt.Sprintf("the difference in %s associated with %s", outcome, name)
+}
+
+func treatmentName(t estimate.Treatment) string {
+	if t.Kind == estimate.TreatmentLabels {
+		return fmt.Sprintf("%s = %s", t.Column, t.Treated)
+	}
+	return t.Column
+}
+
+func (w *noteWriter) effectText(e estimate.GroupEffect) string {
+	return fmt.Sprintf("%s (%s)", w.u.amount(e.Estimate), w.u.interval(w.res.Model.Alpha, e.CILow, e.CIHigh))
+}
+
+// groups covers a binary or categorical moderator.
+func (w *noteWriter) groups() {
+	res := w.res
+	m := res.Moderator.Column
+	const listed = 6
+	var parts []string
+	for i, e := range res.Effects {
+		if i == listed {
+			parts = append(parts, fmt.Sprintf("and %d more groups in the table", len(res.Effects)-listed))
+			break
+		}
+		parts = append(parts, fmt.Sprintf("%s in %s %q", w.effectText(e), m, e.Group))
+	}
+	w.say("%s was %s.", capitalise(w.subject()), joinAnd(parts))
+
+	if len(res.Differences) == 1 {
+		w.difference(res.Differences[0])
+		return
+	}
+	if h := res.Heterogeneity; h != nil {
+		verdict := "the data cannot tell whether it differs between them"
+		if h.P < res.Model.Alpha && !(w.exploratory() && w.run.AdjustedP >= res.Model.Alpha) {
+			verdict = "the data show that it differs between at least some of them"
+		}
+		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(h.P), verdict)
+	}
+	d := largest(res.Differences)
+	more := d.To
+	lo, hi := d.CILow, d.CIHigh
+	if d.Estimate < 0 {
+		more, lo, hi = d.From, -d.CIHigh, -d.CILow
+	}
+	w.say("The largest gap is between %q and %q: the %s in %q is larger by %s (%s, %s).", d.From, d.To, w.what(), more, w.u.amount(math.Abs(d.Estimate)),
+		w.u.interval(res.Model.Alpha, lo, hi), w.pWords(d.P))
+	w.say("With %d groups there are %d pairwise comparisons, so one of them can look clear by chance; the table lists them all.", len(res.Effects), len(res.Differences))
+}
+
+// what is the short name of the quantity, for later sentences.
+func (w *noteWriter) what() string {
+	if w.run.Randomized {
+		return "effect"
+	}
+	return "association"
+}
+
+// difference reports one comparison as clear, or unclear with what the
+// data could have detected.
+func (w *noteWriter) difference(d estimate.Difference) {
+	alpha := w.res.Model.Alpha
+	m := w.res.Moderator.Column
+	ci := w.u.interval(alpha, d.CILow, d.CIHigh)
+	bigger, smaller := d.To, d.From
+	if d.Estimate < 0 {
+		bigger, smaller = d.From, d.To
+	}
+	lo, hi := d.CILow, d.CIHigh
+	if d.Estimate < 0 {
+		lo, hi = -d.CIHigh, -d.CILow
+		ci = w.u.interval(alpha, lo, hi)
+	}
+	switch {
+	case d.P < alpha && w.exploratory() && w.run.AdjustedP >= alpha:
+		w.say("The %s is larger in %s %q than in %q by %s (%s, %s), but once the moderators tried are allowed for the data cannot confirm that it differs between these groups.",
+			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(d.P))
+	case d.P < alpha:
+		w.say("The %s is larger in %s %q than in %q by %s (%s, %s): the data show that it differs between these groups.",
+			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(d.P))
+	default:
+		w.say("The data cannot tell whether the %s differs between %s %q and %q: the estimated gap is %s, but anything from %s to %s is consistent with the data (%s).",
+			w.what(), m, d.To, d.From, w.u.amount(d.Estimate), readable(w.u.scale*d.CILow), readable(w.u.scale*d.CIHigh), w.pWords(d.P))
+	}
+}
+
+// exploratory is true for a moderator chosen after looking at the data
+// among several tried: its p-values are reported with the adjusted one.
+func (w *noteWriter) exploratory() bool { return !w.run.Planned && w.run.tried() > 1 }
+
+// pWords writes a p-value, with the adjusted one beside it for an
+// exploratory moderator (METHODS §6).
+func (w *noteWriter) pWords(p float64) string {
+	if !w.exploratory() {
+		return pText(p)
+	}
+	return fmt.Sprintf("%s before and %s after allowing for the %d moderators tried", pText(p), pText(w.run.AdjustedP), w.run.tried())
+}
+
+// continuous covers a continuous moderator: effects at the outer probes,
+// the change per unit and the Johnson–Neyman region.
+func (w *noteWriter) continuous() {
+	res := w.res
+	m := res.Moderator.Column
+	first, last := res.Effects[0], res.Effects[len(res.Effects)-1]
+	w.say("%s was %s where %s is %s and %s where it is %s.", capitalise(w.subject()),
+		w.effectText(first), m, probeName(first), w.effectText(last), probeName(last))
+	var unit estimate.Difference
+	for _, d := range res.Differences {
+		if d.PerUnit {
+			unit = d
+		}
+	}
+	alpha := res.Model.Alpha
+	change := "rises"
+	if unit.Estimate < 0 {
+		change = "falls"
+	}
+	if unit.P < alpha {
+		w.say("The %s %s by %s for each unit of %s (%s, %s): the data show that it changes with %s.",
+			w.what(), change, w.u.amount(math.Abs(unit.Estimate)), m, w.u.interval(alpha, unit.CILow, unit.CIHigh), w.pWords(unit.P), m)
+	} else {
+		w.say("The data cannot tell whether the %s changes with %s: the estimated change per unit is %s, but anything from %s to %s is consistent with the data (%s).",
+			w.what(), m, w.u.amount(unit.Estimate), readable(w.u.scale*unit.CILow), readable(w.u.scale*unit.CIHigh), w.pWords(unit.P))
+	}
+	if jn := res.JohnsonNeyman; jn != nil {
+		w.say("%s", capitalise(significantWhere(jn, m))+".")
+	}
+}
+
+// probeName describes a probe: "2.5 (its 10th percentile)".
+func probeName(e estimate.GroupEffect) string {
+	name := readable(e.Value)
+	if len(e.Group) > 1 && e.Group[0] == 'p' {
+		name += fmt.Sprintf(" (its %s percentile)", ordinal(e.Group[1:]))
+	}
+	if e.Extrapolated {
+		name += ", outside the observed range"
+	}
+	return name
+}
+
+func ordinal(n string) string {
+	switch {
+	case strings.HasSuffix(n, "1") && !strings.HasSuffix(n, "11"):
+		return n + "st"
+	case strings.HasSuffix(n, "2") && !strings.HasSuffix(n, "12"):
+		return n + "nd"
+	case strings.HasSuffix(n, "3") && !strings.HasSuffix(n, "13"):
+		return n + "rd"
+	}
+	return n + "th"
+}
+
+// significantWhere says in words where the effect is distinguishable from
+// zero within the observed range.
+func significantWhere(jn *estimate.JohnsonNeyman, m string) string {
+	rng := fmt.Sprintf("the observed range %s to %s", readable(jn.Min), readable(jn.Max))
+	var sig []estimate.Region
+	for _, r := range jn.Regions {
+		if r.Significant {
+			sig = append(sig, r)
+		}
+	}
+	switch {
+	case len(sig) == 0:
+		return fmt.Sprintf("the effect is not distinguishable from zero anywhere in %s", rng)
+	case len(sig) == len(jn.Regions):
+		return fmt.Sprintf("the effect is distinguishable from zero across all of %s", rng)
+	}
+	var parts []string
+	for _, r := range sig {
+		dir := "above zero"
+		if r.Sign < 0 {
+			dir = "below zero"
+		}
+		switch {
+		case r.From == jn.Min:
+			parts = append(parts, fmt.Sprintf("%s is below %s (%s)", m, readable(r.To), dir))
+		case r.To == jn.Max:
+			parts = append(parts, fmt.Sprintf("%s is above %s (%s)", m, readable(r.From), dir))
+		default:
+			parts = append(parts, fmt.Sprintf("%s is between %s and %s (%s)", m, readable(r.From), readable(r.To), dir))
+		}
+	}
+	return fmt.Sprintf("the effect is distinguishable from zero where %s, within %s", strings.Join(parts, " or where "), rng)
+}
+
+// precision says what size of difference the data could detect, and the
+// standard errors used.
+func (w *noteWriter) precision() {
+	res := w.res
+	d := w.mddDifference()
+	power := strconv100(res.Model.Power)
+	typical := meanAbsEffect(res.Effects)
+	what := "a difference between groups"
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		what = fmt.Sprintf("a difference between %s %s and %s", res.Moderator.Column, readable(valueOf(res.Effects, d.From)), readable(valueOf(res.Effects, d.To)))
+	}
+	sentence := fmt.Sprintf("With these data, %s would be detected reliably (%s%% power) only if it were about %s or more",
+		what, power, w.u.amount(d.MDD))
+	if d.P >= res.Model.Alpha && d.MDD > typical {
+		sentence += fmt.Sprintf(", which is larger than the typical %s itself (%s); so the absence of a clear difference is not evidence that %s works equally well for everyone", w.what(), w.u.amount(typical), treatmentName(res.Spec.Treatment))
+	}
+	w.say("%s.", sentence)
+	w.say("%s", seWords(res)+".")
+}
+
+// mddDifference is the comparison whose minimum detectable difference the
+// note reports: the only one, the widest span of a continuous moderator,
+// or the least precise comparison with the reference.
+func (w *noteWriter) mddDifference() estimate.Difference {
+	var best estimate.Difference
+	for _, d := range w.res.Differences {
+		if d.PerUnit {
+			continue
+		}
+		if best.MDD == 0 || (d.VsReference && d.MDD > best.MDD) {
+			best = d
+		}
+	}
+	return best
+}
+
+func valueOf(effects []estimate.GroupEffect, group string) float64 {
+	for _, e := range effects {
+		if e.Group == group {
+			return e.Value
+		}
+	}
+	return math.NaN()
+}
+
+func meanAbsEffect(effects []estimate.GroupEffect) float64 {
+	var s float64
+	for _, e := range effects {
+		s += math.Abs(e.Estimate)
+	}
+	return s / float64(len(effects))
+}
+
+func strconv100(p float64) string { return strconv.FormatFloat(100*p, 'f', -1, 64) }
+
+// seWords names the standard errors in plain words.
+func seWords(res *estimate.Result) string {
+	switch res.Model.Variance {
+	case estimate.Classical:
+		return "Standard errors are classical ones, which assume the outcome varies equally in every part of the data"
+	case estimate.CR1:
+		return fmt.Sprintf("Standard errors allow for rows of the same %s to be alike (cluster-robust, CR1, %d clusters)", res.Spec.Cluster, res.Model.Clusters)
+	}
+	return fmt.Sprintf("Standard errors are robust to unequal spread of the outcome (%s)", res.Model.Variance)
+}
+
+// moderatorWords keeps the moderator from being read as a cause, and says
+// how it was chosen.
+func (w *noteWriter) moderatorWords() {
+	m := w.res.Moderator.Column
+	w.say("Differences across %s describe for whom the %s was larger; they do not show that %s itself is the reason, since rows that differ in %s may differ in other ways too.", m, w.what(), m, m)
+	tried := w.run.tried()
+	switch {
+	case w.run.Planned && tried == 1:
+		w.say("The moderator %s was named before the data were examined.", m)
+	case w.run.Planned:
+		w.say("The moderator %s was named before the data were examined; %d moderators were examined in all.", m, tried)
+	case tried > 1:
+		w.say("The moderator %s was not named before the data were examined and is one of %d moderators tried; allowing for that, the test that the %s is the same everywhere gives an adjusted %s, so treat any difference as a lead to check in new data.", m, tried, w.what(), pText(w.run.AdjustedP))
+	default:
+		w.say("The moderator %s was not named before the data were examined, so treat any difference as a lead to check in new data.", m)
+	}
+}
+
+// largest returns the difference of largest size.
+func largest(ds []estimate.Difference) estimate.Difference {
+	best := ds[0]
+	for _, d := range ds[1:] {
+		if math.Abs(d.Estimate) > math.Abs(best.Estimate) {
+			best = d
+		}
+	}
+	return best
+}
+
+func count(n int) string { return groupThousands(fmt.Sprint(n)) }
+
+func capitalise(s string) string {
+	if s == "" {
+		return s
+	}
+	return strings.ToUpper(s[:1]) + s[1:]
+}
+
+func joinAnd(parts []string) string {
+	switch len(parts) {
+	case 0:
+		return ""
+	case 1:
+		return parts[0]
+	}
+	return strings.Join(parts[:len(parts)-1], ", ") + " and " + parts[len(parts)-1]
+}
