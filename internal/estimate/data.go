@@ -3,6 +3,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"strconv"
 )
 
 // Column is one named column of the data.
@@ -93,7 +94,12 @@ func (c *Column) key(i int) string {
 	return c.Text[i]
 }
 
-// formatNumber writes a number in the shortest form that reads back exactly.
+// formatNumber writes a number in the shortest form that reads back
+// exactly, without an exponent in the range a spreadsheet shows plainly
+// (a level 1000000 reads "1000000", not "1e+06").
 func formatNumber(v float64) string {
-	return fmt.Sprint(v)
+	if a := math.Abs(v); a == 0 || (a >= 1e-4 && a < 1e15) {
+		return strconv.FormatFloat(v, 'f', -1, 64)
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
 }
