@@ -11,11 +11,13 @@ import (
 // A numeric column has Num (NaN where a cell is missing or not a number);
 // its Text may then hold, per row, the original text of a cell that was not
 // a number, so that a dropped row can say why. A text column has Text only,
-// "" for a missing cell.
+// "" for a missing cell. Why, when set, says per row why a missing cell is
+// missing, as a short predicate ("holds an error value"); "" for a blank.
 type Column struct {
 	Name string
 	Num  []float64
 	Text []string
+	Why  []string
 }
 
 // IsNumeric reports whether the column holds numbers.
@@ -77,6 +79,14 @@ func (d *Data) label(i int) int {
 func (c *Column) cellText(i int) string {
 	if c.Text != nil && i < len(c.Text) {
 		return c.Text[i]
+	}
+	return ""
+}
+
+// why returns the reason a missing cell is missing, if the caller said.
+func (c *Column) why(i int) string {
+	if c.Why != nil && i < len(c.Why) {
+		return c.Why[i]
 	}
 	return ""
 }

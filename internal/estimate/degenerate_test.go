@@ -264,6 +264,9 @@ func TestDroppedRowsExplained(t *testing.T) {
 	d.col("w").Num[9] = -1
 	d.col("w").Num[10] = 0
 	d.col("g").Text[13] = ""
+	d.col("x1").Num[20] = math.NaN()
+	d.col("x1").Why = make([]string, 60)
+	d.col("x1").Why[20] = "holds an error value"
 	s := groupSpec()
 	s.Weights = "w"
 	res, err := Fit(d, s)
@@ -276,6 +279,7 @@ func TestDroppedRowsExplained(t *testing.T) {
 		{10, "w", `weight ("w") is 0 or negative (-1)`},
 		{11, "w", `weight ("w") is 0 or negative (0)`},
 		{14, "g", `missing moderator ("g")`},
+		{21, "x1", `control ("x1") holds an error value`},
 	}
 	if len(res.Rows.List) != len(want) {
 		t.Fatalf("dropped %v, want %v", res.Rows.List, want)
@@ -285,11 +289,11 @@ func TestDroppedRowsExplained(t *testing.T) {
 			t.Errorf("dropped[%d] = %+v, want %+v", i, res.Rows.List[i], want[i])
 		}
 	}
-	if res.Rows.Used != 55 || res.Rows.Read != 60 || res.Rows.Dropped != 5 {
+	if res.Rows.Used != 54 || res.Rows.Read != 60 || res.Rows.Dropped != 6 {
 		t.Errorf("rows %+v", res.Rows)
 	}
-	if len(res.Rows.Reasons) != 4 || res.Rows.Reasons[2].Rows != 2 {
-		t.Errorf("reasons %+v: want 4 reasons, the weight one counting 2 rows", res.Rows.Reasons)
+	if len(res.Rows.Reasons) != 5 || res.Rows.Reasons[2].Rows != 2 {
+		t.Errorf("reasons %+v: want 5 reasons, the weight one counting 2 rows", res.Rows.Reasons)
 	}
 }
 

@@ -73,6 +73,10 @@ type roleColumn struct {
 // problem says why row i cannot be used for this role, or "" if it can.
 func (rc roleColumn) problem(i int) (reason, kind string) {
 	c := rc.col
+	missing := (!c.IsNumeric() && c.Text[i] == "") || (c.IsNumeric() && math.IsNaN(c.Num[i]))
+	if why := c.why(i); missing && why != "" {
+		return fmt.Sprintf("%s (%q) %s", rc.role, c.Name, why), "why:" + why
+	}
 	if !c.IsNumeric() {
 		if c.Text[i] == "" {
 			return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
@@ -95,6 +99,9 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 
 // countReason is the reason of a kind, without the cell's own value.
 func countReason(rc roleColumn, kind string) string {
+	if why, ok := strings.CutPrefix(kind, "why:"); ok {
+		return fmt.Sprintf("%s (%q) %s", rc.role, rc.col.Name, why)
+	}
 	switch kind {
 	case "text":
 		return fmt.Sprintf("text where the %s (%q) needs a number", rc.role, rc.col.Name)
