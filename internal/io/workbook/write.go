@@ -364,10 +364,7 @@ func buildInTemp(target string, base []byte, limit, limitXML int64, stages ...fu
 		base = buf.Bytes()
 	}
 	defer xf.Close()
-	dir, name := filepath.Split(target)
-	if dir == "" {
-		dir = "."
-	}
+	dir, name := filepath.Dir(target), filepath.Base(target)
 	tmp, err := os.CreateTemp(dir, "."+name+".slopewise-*.tmp")
 	if err != nil {
 		return "", &Error{Path: dir, Cause: ErrFolderReadOnly, Underlying: err}
