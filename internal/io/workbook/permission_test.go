@@ -13,6 +13,8 @@ import (
 	"strings"
 	"syscall"
 	"testing"
+
+	"github.com/xuri/excelize/v2"
 )
 
 // asNobodyEnv marks the copy of the test binary that runs as an ordinary
@@ -138,4 +140,24 @@ func TestPermissionRefusals(t *testing.T) {
 			t.Errorf("got %v\nwant %s", err, want)
 		}
 	})
+}
+
+// excelize v2.11.1 source, file.go SaveAs: the file is created with mode
+// 0777 (less the umask).
+func TestExcelizeSaveAsMode(t *testing.T) {
+	old := syscall.Umask(0o022)
+	defer syscall.Umask(old)
+	p := filepath.Join(t.TempDir(), "new.xlsx")
+	f := excelize.NewFile()
+	if err := f.SaveAs(p); err != nil {
+		t.Fatal(err)
+	}
+	f.Close()
+	info, err := os.Stat(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if info.Mode().Perm() != 0o755 {
+		t.Errorf("SaveAs made mode %v; the writer sets the original's mode itself anyway", info.Mode().Perm())
+	}
 }
