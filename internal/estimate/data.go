@@ -12,7 +12,7 @@ import (
 // its Text may then hold, per row, the original text of a cell that was not
 // a number, so that a dropped row can say why. A text column has Text only,
 // "" for a missing cell. Why, when set, says per row why a missing cell is
-// missing, as a short predicate ("holds an error value"); "" for a blank.
+// missing, as a noun phrase ("a spreadsheet error value"); "" for a blank.
 type Column struct {
 	Name string
 	Num  []float64

@@ -113,7 +113,7 @@ func TestDegenerate(t *testing.T) {
 				d.col("w").Num[i] = 0
 			}
 			return d
-		}, func() Spec { s := groupSpec(); s.Weights = "w"; return s }, ErrNoRows, "w", `60 with weight ("w") is 0 or negative`, nil},
+		}, func() Spec { s := groupSpec(); s.Weights = "w"; return s }, ErrNoRows, "w", `60 with a weight of 0 or less ("w")`, nil},
 		{"one cluster", func() *Data {
 			d := synth(60, 7)
 			for i := range d.col("site").Num {
@@ -266,7 +266,7 @@ func TestDroppedRowsExplained(t *testing.T) {
 	d.col("g").Text[13] = ""
 	d.col("x1").Num[20] = math.NaN()
 	d.col("x1").Why = make([]string, 60)
-	d.col("x1").Why[20] = "holds an error value"
+	d.col("x1").Why[20] = "a spreadsheet error value"
 	s := groupSpec()
 	s.Weights = "w"
 	res, err := Fit(d, s)
@@ -275,11 +275,11 @@ func TestDroppedRowsExplained(t *testing.T) {
 	}
 	want := []DroppedRow{
 		{3, "y", `missing outcome ("y")`},
-		{6, "t", `text "yes" where the treatment ("t") needs a number`},
-		{10, "w", `weight ("w") is 0 or negative (-1)`},
-		{11, "w", `weight ("w") is 0 or negative (0)`},
+		{6, "t", `text "yes" in the treatment ("t"), which needs a number`},
+		{10, "w", `a weight of 0 or less ("w" is -1)`},
+		{11, "w", `a weight of 0 or less ("w" is 0)`},
 		{14, "g", `missing moderator ("g")`},
-		{21, "x1", `control ("x1") holds an error value`},
+		{21, "x1", `a spreadsheet error value in the control ("x1")`},
 	}
 	if len(res.Rows.List) != len(want) {
 		t.Fatalf("dropped %v, want %v", res.Rows.List, want)

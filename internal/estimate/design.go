@@ -75,7 +75,7 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 	c := rc.col
 	missing := (!c.IsNumeric() && c.Text[i] == "") || (c.IsNumeric() && math.IsNaN(c.Num[i]))
 	if why := c.why(i); missing && why != "" {
-		return fmt.Sprintf("%s (%q) %s", rc.role, c.Name, why), "why:" + why
+		return fmt.Sprintf("%s in the %s (%q)", why, rc.role, c.Name), "why:" + why
 	}
 	if !c.IsNumeric() {
 		if c.Text[i] == "" {
@@ -86,13 +86,13 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 	v := c.Num[i]
 	switch {
 	case math.IsNaN(v) && c.cellText(i) != "":
-		return fmt.Sprintf("text %q where the %s (%q) needs a number", c.cellText(i), rc.role, c.Name), "text"
+		return fmt.Sprintf("text %q in the %s (%q), which needs a number", c.cellText(i), rc.role, c.Name), "text"
 	case math.IsNaN(v):
 		return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
 	case math.IsInf(v, 0):
-		return fmt.Sprintf("%s (%q) is not a finite number", rc.role, c.Name), "infinite"
+		return fmt.Sprintf("an infinite value in the %s (%q)", rc.role, c.Name), "infinite"
 	case rc.role == "weight" && v <= 0:
-		return fmt.Sprintf("weight (%q) is 0 or negative (%s)", c.Name, formatNumber(v)), "weight"
+		return fmt.Sprintf("a weight of 0 or less (%q is %s)", c.Name, formatNumber(v)), "weight"
 	}
 	return "", ""
 }
@@ -100,15 +100,15 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 // countReason is the reason of a kind, without the cell's own value.
 func countReason(rc roleColumn, kind string) string {
 	if why, ok := strings.CutPrefix(kind, "why:"); ok {
-		return fmt.Sprintf("%s (%q) %s", rc.role, rc.col.Name, why)
+		return fmt.Sprintf("%s in the %s (%q)", why, rc.role, rc.col.Name)
 	}
 	switch kind {
 	case "text":
-		return fmt.Sprintf("text where the %s (%q) needs a number", rc.role, rc.col.Name)
+		return fmt.Sprintf("text in the %s (%q), which needs a number", rc.role, rc.col.Name)
 	case "infinite":
-		return fmt.Sprintf("%s (%q) is not a finite number", rc.role, rc.col.Name)
+		return fmt.Sprintf("an infinite value in the %s (%q)", rc.role, rc.col.Name)
 	case "weight":
-		return fmt.Sprintf("weight (%q) is 0 or negative", rc.col.Name)
+		return fmt.Sprintf("a weight of 0 or less (%q)", rc.col.Name)
 	}
 	return fmt.Sprintf("missing %s (%q)", rc.role, rc.col.Name)
 }

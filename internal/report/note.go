@@ -56,14 +56,16 @@ func (w *noteWriter) rows() {
 
 // subject names what is estimated: an effect, or a difference associated
 // with the treatment when it was not randomly assigned.
-func (w *noteWriter) subject() string {
-	t := w.res.Spec.Treatment
-	outcome := w.res.Spec.Outcome
+func (w *noteWriter) subject() string { return subjectWords(w.run, w.res) }
+
+func subjectWords(run Run, res *estimate.Result) string {
+	t := res.Spec.Treatment
+	outcome := res.Spec.Outcome
 	name := treatmentName(t)
 	if t.Kind == estimate.TreatmentContinuous {
 		name = "each unit of " + name
 	}
-	if w.run.Randomized {
+	if run.Randomized {
 		return fmt.Sprintf("the estimated effect of %s on %s", name, outcome)
 	}
 	return fmt.Sprintf("the difference in %s associated with %s", outcome, name)

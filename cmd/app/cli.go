@@ -1,0 +1,448 @@
+package main
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"flag"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"slopewise/assets"
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/pipeline"
+	"slopewise/internal/report"
+)
+
+// Exit codes of the headless commands.
+const (
+	exitOK    = 0
+	exitData  = 1 // the data or the model: a plain message names the column, sheet or cell
+	exitUsage = 2 // the command line
+)
+
+const usageText = `Slopewise — does the programme work equally well for everyone?
+
+Usage:
+  slopewise                      open the window
+  slopewise FILE                 open the window with a workbook
+  slopewise analyze FILE [options]
+                                 fit the model and write a results sheet into FILE
+  slopewise demo DIR             write the demonstration workbook into DIR
+  slopewise version              print the version
+  slopewise help [COMMAND]       this help, or a command's
+
+Run "slopewise help analyze" for the analysis options.
+`
+
+const analyzeUsage = `Usage: slopewise analyze FILE --outcome COL --treatment COL --moderator COL [options]
+
+Fits outcome = treatment + moderator + treatment × moderator + controls, and
+writes a results sheet into FILE (a .xlsx or .xlsm workbook; for a .csv, .tsv
+or .txt file, a new workbook "<name> results.xlsx" beside it). FILE itself is
+never damaged: the save is checked and a backup kept.
+
+Roles:
+  --outcome COL            the result measured for each row
+  --treatment COL          who received the programme: 0/1, two labels, or an amount
+  --treated LABEL          the label that means treated, for a treatment of two labels
+  --moderator COL          the column whose groups or values are compared
+  --moderator-type T       binary, category or number (detected when left out:
+                           text → category, two values → binary, numbers → number)
+  --reference LEVEL        the comparison group of a category moderator
+  --moderator-values V,..  values of a number moderator at which to report the
+                           effect (default: its 10th, 25th, 50th, 75th, 90th percentiles)
+  --center V               subtract V from a number moderator before fitting
+  --controls A,B,..        other columns to adjust for
+  --cluster COL            rows of the same value are alike (sites, classes)
+  --weights COL            a weight for each row (sampling or precision weights)
+
+Options:
+  --se TYPE                standard errors: classical, hc0, hc1, hc2, hc3, cluster
+                           (default hc3, or cluster when --cluster is given)
+  --randomized             the treatment was randomly assigned (the note then
+                           speaks of effects rather than associations)
+  --planned                the moderator was named before looking at the data
+  --alpha A                significance level (default 0.05: 95% intervals)
+  --sheet NAME             the sheet to read (default: the first)
+  --header-row N           the row holding the column names (default: found)
+  --out PATH               write the results into a copy at PATH instead
+  --json                   also print the results as JSON on standard output
+  --dry-run                fit and report, but write nothing
+
+Exit status: 0 done, 1 a problem with the data or the model (the message
+names the column, sheet or cell), 2 a problem with the command line.
+`
+
+const demoUsage = `Usage: slopewise demo DIR
+
+Writes the demonstration workbook, an invented job-coaching pilot with known
+true effects, into DIR as slopewise-demo.xlsx. DIR is created if needed.
+`
+
+// usageError is a problem with the command line.
+type usageError struct{ msg string }
+
+func (e usageError) Error() string { return e.msg }
+
+func usagef(format string, args ...any) error { return usageError{fmt.Sprintf(format, args...)} }
+
+// cli runs a headless command and returns its exit code.
+func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+	if len(args) == 0 {
+		fmt.Fprint(stderr, usageText)
+		return exitUsage
+	}
+	var err error
+	switch args[0] {
+	case "analyze":
+		err = analyze(ctx, args[1:], stdout, stderr)
+	case "demo":
+		err = demo(args[1:], stdout)
+	case "version", "--version":
+		fmt.Fprintln(stdout, "slopewise", version)
+		return exitOK
+	case "help", "--help", "-h", "-help":
+		topic := ""
+		if len(args) > 1 {
+			topic = args[1]
+		}
+		switch topic {
+		case "analyze":
+			fmt.Fprint(stdout, analyzeUsage)
+		case "demo":
+			fmt.Fprint(stdout, demoUsage)
+		case "":
+			fmt.Fprint(stdout, usageText)
+		default:
+			fmt.Fprintf(stderr, "slopewise: there is no command %q.\n\n%s", topic, usageText)
+			return exitUsage
+		}
+		return exitOK
+	default:
+		fmt.Fprintf(stderr, "slopewise: there is no command %q.\n\n%s", args[0], usageText)
+		return exitUsage
+	}
+	var ue usageError
+	switch {
+	case err == nil:
+		return exitOK
+	case errors.Is(err, flag.ErrHelp):
+		return exitOK
+	case errors.As(err, &ue):
+		fmt.Fprintf(stderr, "slopewise: %s\nRun \"slopewise help %s\" for the options.\n", ue.msg, args[0])
+		return exitUsage
+	}
+	fmt.Fprintf(stderr, "slopewise: %s\n", err)
+	return exitData
+}
+
+// analyzeFlags are the options of the analyze command.
+type analyzeFlags struct {
+	file                          string
+	outcome, treatment, moderator string
+	moderatorType, treated, ref   string
+	values, center, controls      string
+	cluster, weights, se, sheet   string
+	out                           string
+	randomized, planned           bool
+	json, dryRun                  bool
+	alpha                         float64
+	headerRow                     int
+}
+
+func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
+	var f analyzeFlags
+	fs := flag.NewFlagSet("analyze", flag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() { fmt.Fprint(stdout, analyzeUsage) }
+	fs.StringVar(&f.outcome, "outcome", "", "")
+	fs.StringVar(&f.treatment, "treatment", "", "")
+	fs.StringVar(&f.moderator, "moderator", "", "")
+	fs.StringVar(&f.moderatorType, "moderator-type", "", "")
+	fs.StringVar(&f.treated, "treated", "", "")
+	fs.StringVar(&f.ref, "reference", "", "")
+	fs.StringVar(&f.values, "moderator-values", "", "")
+	fs.StringVar(&f.center, "center", "", "")
+	fs.StringVar(&f.controls, "controls", "", "")
+	fs.StringVar(&f.cluster, "cluster", "", "")
+	fs.StringVar(&f.weights, "weights", "", "")
+	fs.StringVar(&f.se, "se", "", "")
+	fs.StringVar(&f.sheet, "sheet", "", "")
+	fs.StringVar(&f.out, "out", "", "")
+	fs.BoolVar(&f.randomized, "randomized", false, "")
+	fs.BoolVar(&f.planned, "planned", false, "")
+	fs.BoolVar(&f.json, "json", false, "")
+	fs.BoolVar(&f.dryRun, "dry-run", false, "")
+	fs.Float64Var(&f.alpha, "alpha", 0.05, "")
+	fs.IntVar(&f.headerRow, "header-row", 0, "")
+
+	// The file may come before or after the options.
+	var positional []string
+	for len(args) > 0 {
+		if err := fs.Parse(args); err != nil {
+			if errors.Is(err, flag.ErrHelp) {
+				fs.Usage()
+				return nil, err
+			}
+			return nil, usageError{err.Error()}
+		}
+		args = fs.Args()
+		if len(args) > 0 {
+			positional = append(positional, args[0])
+			args = args[1:]
+		}
+	}
+	switch len(positional) {
+	case 0:
+		return nil, usagef("give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …")
+	case 1:
+		f.file = positional[0]
+	default:
+		return nil, usagef("one file at a time, but %d were given (%s)", len(positional), strings.Join(positional, ", "))
+	}
+	return &f, f.check()
+}
+
+// check rejects options that are missing or do not go together.
+func (f *analyzeFlags) check() error {
+	for _, req := range []struct{ name, v string }{{"outcome", f.outcome}, {"treatment", f.treatment}, {"moderator", f.moderator}} {
+		if req.v == "" {
+			return usagef("--%s is required", req.name)
+		}
+	}
+	switch f.moderatorType {
+	case "", "binary", "category", "number":
+	default:
+		return usagef("--moderator-type must be binary, category or number, not %q", f.moderatorType)
+	}
+	if f.ref != "" && f.moderatorType == "number" {
+		return usagef("--reference names a group, so it cannot go with --moderator-type number")
+	}
+	if (f.values != "" || f.center != "") && (f.moderatorType == "binary" || f.moderatorType == "category" || f.ref != "") {
+		return usagef("--moderator-values and --center are for a number moderator; they cannot go with groups (--moderator-type %s or --reference)", orText(f.moderatorType, "category"))
+	}
+	if _, err := f.probeValues(); err != nil {
+		return err
+	}
+	if _, err := f.centre(); err != nil {
+		return err
+	}
+	switch f.se {
+	case "", "classical", "hc0", "hc1", "hc2", "hc3", "cluster":
+	default:
+		return usagef("--se must be classical, hc0, hc1, hc2, hc3 or cluster, not %q", f.se)
+	}
+	if f.se == "cluster" && f.cluster == "" {
+		return usagef("--se cluster needs --cluster COL, the column that names each cluster")
+	}
+	if f.cluster != "" && f.se != "" && f.se != "cluster" {
+		return usagef("--cluster is given but --se %s ignores it; use --se cluster, or leave out --cluster", f.se)
+	}
+	if !(f.alpha > 0 && f.alpha < 0.5) {
+		return usagef("--alpha must be between 0 and 0.5 (the usual choice is 0.05), not %g", f.alpha)
+	}
+	if f.headerRow < 0 {
+		return usagef("--header-row must be a row number, 1 or more, not %d", f.headerRow)
+	}
+	if f.dryRun && f.out != "" {
+		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
+	}
+	return nil
+}
+
+func orText(s, alt string) string {
+	if s == "" {
+		return alt
+	}
+	return s
+}
+
+func (f *analyzeFlags) probeValues() ([]float64, error) {
+	if f.values == "" {
+		return nil, nil
+	}
+	var out []float64
+	for _, s := range strings.Split(f.values, ",") {
+		v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+		if err != nil {
+			return nil, usagef("--moderator-values must be numbers separated by commas; %q is not a number", s)
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+func (f *analyzeFlags) centre() (*float64, error) {
+	if f.center == "" {
+		return nil, nil
+	}
+	v, err := strconv.ParseFloat(f.center, 64)
+	if err != nil {
+		return nil, usagef("--center must be a number, not %q", f.center)
+	}
+	return &v, nil
+}
+
+func splitList(s string) []string {
+	var out []string
+	for _, p := range strings.Split(s, ",") {
+		if p = strings.TrimSpace(p); p != "" {
+			out = append(out, p)
+		}
+	}
+	return out
+}
+
+var seTypes = map[string]estimate.VarianceType{
+	"classical": estimate.Classical, "hc0": estimate.HC0, "hc1": estimate.HC1,
+	"hc2": estimate.HC2, "hc3": estimate.HC3, "cluster": estimate.CR1,
+}
+
+// spec turns the options and the table's columns into the run's spec.
+func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
+	for _, name := range append([]string{f.outcome, f.treatment, f.moderator, f.cluster, f.weights}, splitList(f.controls)...) {
+		if name != "" && t.Column(name) == nil {
+			return estimate.Spec{}, missingColumn(t, name)
+		}
+	}
+	s := estimate.Spec{
+		Outcome:  f.outcome,
+		Controls: splitList(f.controls),
+		Cluster:  f.cluster, Weights: f.weights,
+		Variance: seTypes[f.se], Alpha: f.alpha,
+	}
+	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
+		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
+	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
+		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
+	}
+	m := estimate.Moderator{Column: f.moderator, Reference: f.ref}
+	switch {
+	case f.moderatorType == "binary":
+		m.Kind = estimate.ModeratorBinary
+	case f.moderatorType == "category" || (f.ref != "" && f.moderatorType == ""):
+		m.Kind = estimate.ModeratorCategorical
+	case f.moderatorType == "number" || f.values != "" || f.center != "":
+		m.Kind = estimate.ModeratorContinuous
+	default:
+		m.Kind = pipeline.ModeratorKind(t.Column(f.moderator))
+	}
+	m.Probes, _ = f.probeValues()
+	m.Centre, _ = f.centre()
+	s.Moderator = m
+	return s, nil
+}
+
+func missingColumn(t *workbook.Table, name string) error {
+	var names []string
+	for _, c := range t.Columns {
+		names = append(names, fmt.Sprintf("%q", c.Name))
+	}
+	place := t.Path
+	if t.Sheet != "" {
+		place = fmt.Sprintf("%s, sheet %q", t.Path, t.Sheet)
+	}
+	return fmt.Errorf("%s has no column %q; its columns are %s (names are read from row %d)", place, name, strings.Join(names, ", "), t.HeaderRow)
+}
+
+func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error {
+	f, err := parseAnalyze(args, stdout)
+	if err != nil {
+		return err
+	}
+	run := report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Randomized: f.randomized,
+		Planned: f.planned, Version: version, Time: time.Now()}
+	t, err := pipeline.Read(ctx, run, nil)
+	if err != nil {
+		return err
+	}
+	if run.Spec, err = f.spec(t); err != nil {
+		return err
+	}
+	a, err := pipeline.AnalyzeTable(ctx, run, t)
+	if err != nil {
+		return err
+	}
+	human := stdout
+	if f.json {
+		human = stderr
+	}
+	printSummary(human, a)
+	if !f.dryRun {
+		w, err := a.Save(workbook.WriteOptions{CopyTo: f.out})
+		if err != nil {
+			return err
+		}
+		fmt.Fprintf(human, "\nResults written to %s, sheet %q.\n", w.Path, w.Sheet)
+		if w.Backup != "" {
+			fmt.Fprintf(human, "The file as it was before is kept as %s.\n", w.Backup)
+		}
+		for _, l := range w.Lost {
+			fmt.Fprintf(human, "Not kept in the copy: %s\n", l)
+		}
+	} else {
+		fmt.Fprintln(human, "\nDry run: nothing was written.")
+	}
+	if f.json {
+		enc := json.NewEncoder(stdout)
+		enc.SetIndent("", "  ")
+		return enc.Encode(report.Summarize(a.Run, a.Result))
+	}
+	return nil
+}
+
+// printSummary writes the effects and differences for a terminal.
+func printSummary(w io.Writer, a *pipeline.Analysis) {
+	out := report.Summarize(a.Run, a.Result)
+	res := a.Result
+	fmt.Fprintf(w, "%d rows used, %d left out; standard errors %s, %d df.\n\n", out.NUsed, out.NDropped, out.SEType, res.Model.DF)
+	fmt.Fprintf(w, "Effect of %s on %s by %s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column)
+	for _, g := range out.Groups {
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P)
+	}
+	fmt.Fprintln(w, "Differences:")
+	for _, d := range out.Differences {
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g\n", d.Label, d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD)
+	}
+	if h := out.Heterogeneity; h != nil {
+		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g\n", h.F, h.DF1, h.DF2, h.P)
+	}
+	fmt.Fprintf(w, "\n%s\n", out.Note)
+}
+
+// demo writes the demonstration workbook into a folder.
+func demo(args []string, stdout io.Writer) error {
+	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
+	fs.SetOutput(io.Discard)
+	fs.Usage = func() { fmt.Fprint(stdout, demoUsage) }
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, flag.ErrHelp) {
+			fs.Usage()
+			return err
+		}
+		return usageError{err.Error()}
+	}
+	if fs.NArg() != 1 {
+		return usagef("give one folder to write the demo workbook into: slopewise demo DIR")
+	}
+	dir := fs.Arg(0)
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		return fmt.Errorf("cannot create the folder %s: %w", dir, err)
+	}
+	path := filepath.Join(dir, "slopewise-demo.xlsx")
+	if _, err := os.Stat(path); err == nil {
+		return fmt.Errorf("%s already exists; remove it or choose another folder", path)
+	}
+	if err := os.WriteFile(path, assets.DemoWorkbook, 0o644); err != nil {
+		return fmt.Errorf("cannot write the demo workbook: %w", err)
+	}
+	fmt.Fprintf(stdout, "Demo workbook written to %s\n", path)
+	return nil
+}

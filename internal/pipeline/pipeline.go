@@ -1,0 +1,187 @@
+// Package pipeline runs the pipe of ARCHITECTURE.md for both the window and
+// the headless command: read a sheet, adapt its columns to the engine, fit,
+// build the results sheet, write it back. It holds no statistics and no
+// file format of its own; it only connects the stages.
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"strconv"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/report"
+)
+
+// Analysis is one finished run: the table read, the fit and the sheet.
+type Analysis struct {
+	Run    report.Run
+	Table  *workbook.Table
+	Result *estimate.Result
+	Sheet  *report.Sheet
+}
+
+// Read reads the run's sheet.
+func Read(ctx context.Context, run report.Run, progress func(rows int)) (*workbook.Table, error) {
+	return workbook.Read(ctx, run.File, workbook.Options{Sheet: run.Sheet, HeaderRow: run.HeaderRow, Progress: progress})
+}
+
+// Analyze reads the data, fits the model and builds the results sheet.
+// The run's sheet and header row are filled in from what was read, so the
+// stored run repeats exactly.
+func Analyze(ctx context.Context, run report.Run, progress func(rows int)) (*Analysis, error) {
+	t, err := Read(ctx, run, progress)
+	if err != nil {
+		return nil, err
+	}
+	return AnalyzeTable(ctx, run, t)
+}
+
+// AnalyzeTable fits and builds from a table already read.
+func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Analysis, error) {
+	run.Sheet, run.HeaderRow = t.Sheet, t.HeaderRow
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	res, err := estimate.Fit(EngineData(t), run.Spec)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", where(t), err)
+	}
+	sheet, err := report.Build(run, res)
+	if err != nil {
+		return nil, err
+	}
+	return &Analysis{Run: run, Table: t, Result: res, Sheet: sheet}, nil
+}
+
+// Save writes the results sheet into the workbook (or beside a text file).
+func (a *Analysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
+	return workbook.WriteResults(a.Run.File, a.Sheet, opts)
+}
+
+func where(t *workbook.Table) string {
+	if t.Sheet != "" {
+		return fmt.Sprintf("%s, sheet %q", t.Path, t.Sheet)
+	}
+	return t.Path
+}
+
+// EngineData adapts a table to the engine's columns: numbers (and dates,
+// as serial numbers) stay numbers; yes/no columns whose two values are
+// numbers become numbers; everything else is text. Row labels are the
+// sheet's row numbers, so messages point at rows a person can find, and
+// each missing cell carries the reader's reason.
+func EngineData(t *workbook.Table) *estimate.Data {
+	d := &estimate.Data{RowLabels: t.SourceRows}
+	for _, c := range t.Columns {
+		col := estimate.Column{Name: c.Name, Why: whys(c)}
+		switch {
+		case c.Kind == workbook.Number || c.Kind == workbook.Date:
+			col.Num = c.Numbers
+		case c.Kind == workbook.YesNo && numericLevels(c.Levels):
+			col.Num = make([]float64, len(c.Texts))
+			for i, s := range c.Texts {
+				col.Num[i] = math.NaN()
+				if s != "" {
+					col.Num[i], _ = strconv.ParseFloat(s, 64)
+				}
+			}
+		case c.Texts != nil:
+			col.Text = c.Texts
+		default:
+			// An empty column: every cell missing.
+			col.Num = make([]float64, t.Len())
+			for i := range col.Num {
+				col.Num[i] = math.NaN()
+			}
+		}
+		d.Columns = append(d.Columns, col)
+	}
+	return d
+}
+
+func numericLevels(levels []string) bool {
+	for _, l := range levels {
+		if _, err := strconv.ParseFloat(l, 64); err != nil {
+			return false
+		}
+	}
+	return len(levels) > 0
+}
+
+// whys says, per row, why a missing cell is missing ("" when blank or
+// present), as the noun phrase a dropped-row reason starts with.
+func whys(c *workbook.Column) []string {
+	var out []string
+	for i, r := range c.Missing {
+		var why string
+		switch r {
+		case workbook.ErrorValue:
+			why = "a spreadsheet error value"
+		case workbook.Marker:
+			why = "a missing-value marker"
+		case workbook.TextInNumbers:
+			why = "text"
+		case workbook.NoCachedValue:
+			why = "a formula with no saved result (open and save the workbook in a spreadsheet program)"
+		case workbook.BadDate:
+			why = "a value that is not a date"
+		default:
+			continue
+		}
+		if out == nil {
+			out = make([]string, len(c.Missing))
+		}
+		out[i] = why
+	}
+	return out
+}
+
+// ModeratorKind guesses how a moderator column enters the model: text →
+// categorical, two values → binary, numbers → continuous.
+func ModeratorKind(c *workbook.Column) estimate.ModeratorKind {
+	switch c.Kind {
+	case workbook.YesNo:
+		return estimate.ModeratorBinary
+	case workbook.Number, workbook.Date:
+		if distinct(c.Numbers) == 2 {
+			return estimate.ModeratorBinary
+		}
+		return estimate.ModeratorContinuous
+	}
+	return estimate.ModeratorCategorical
+}
+
+// TreatmentKind guesses how a treatment column is read: a named treated
+// label → labels; 0/1 → binary; other numbers → continuous; text → labels.
+func TreatmentKind(c *workbook.Column, treated string) estimate.TreatmentKind {
+	if treated != "" {
+		return estimate.TreatmentLabels
+	}
+	switch c.Kind {
+	case workbook.Number:
+		for _, v := range c.Numbers {
+			if !math.IsNaN(v) && v != 0 && v != 1 {
+				return estimate.TreatmentContinuous
+			}
+		}
+		return estimate.TreatmentBinary
+	case workbook.YesNo:
+		if numericLevels(c.Levels) && c.Levels[0] == "0" && c.Levels[1] == "1" {
+			return estimate.TreatmentBinary
+		}
+	}
+	return estimate.TreatmentLabels
+}
+
+func distinct(xs []float64) int {
+	seen := map[float64]bool{}
+	for _, x := range xs {
+		if !math.IsNaN(x) {
+			seen[x] = true
+		}
+	}
+	return len(seen)
+}

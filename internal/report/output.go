@@ -1,0 +1,130 @@
+package report
+
+import (
+	"strings"
+
+	"slopewise/internal/estimate"
+)
+
+// Output is the results of one run as the headless command prints them
+// with --json. Its shape is a documented contract (README, "JSON output"):
+// fields are added, never renamed or removed.
+type Output struct {
+	NUsed         int            `json:"n_used"`
+	NDropped      int            `json:"n_dropped"`
+	SEType        string         `json:"se_type"`
+	DF            float64        `json:"df"`
+	Groups        []OutGroup     `json:"groups"`
+	Differences   []OutDiff      `json:"differences"`
+	Heterogeneity *OutWald       `json:"heterogeneity"`
+	JN            *OutJN         `json:"jn,omitempty"`
+	Coefficients  []OutCoef      `json:"coefficients"`
+	Note          string         `json:"note"`
+	Cautions      []string       `json:"cautions"`
+	Dropped       []OutDropCount `json:"dropped_reasons,omitempty"`
+}
+
+// OutGroup is the effect in one group, or at one value of a continuous
+// moderator (then N counts the rows nearby and may be omitted).
+type OutGroup struct {
+	Label    string  `json:"label"`
+	N        *int    `json:"n,omitempty"`
+	Estimate float64 `json:"estimate"`
+	SE       float64 `json:"se"`
+	CILow    float64 `json:"ci_low"`
+	CIHigh   float64 `json:"ci_high"`
+	P        float64 `json:"p"`
+}
+
+// OutDiff is one difference between groups.
+type OutDiff struct {
+	Label    string  `json:"label"`
+	Estimate float64 `json:"estimate"`
+	SE       float64 `json:"se"`
+	CILow    float64 `json:"ci_low"`
+	CIHigh   float64 `json:"ci_high"`
+	P        float64 `json:"p"`
+	MDD      float64 `json:"mdd"`
+}
+
+// OutWald is the test that the effect is the same in every group.
+type OutWald struct {
+	F   float64 `json:"F"`
+	DF1 int     `json:"df1"`
+	DF2 float64 `json:"df2"`
+	P   float64 `json:"p"`
+}
+
+// OutJN is the Johnson–Neyman result of a continuous moderator: the
+// boundaries inside the observed range, and where the effect is
+// distinguishable from zero in words.
+type OutJN struct {
+	Bounds           []float64 `json:"bounds"`
+	SignificantWhere string    `json:"significant_where"`
+}
+
+// OutCoef is one term of the model.
+type OutCoef struct {
+	Term     string  `json:"term"`
+	Estimate float64 `json:"estimate"`
+	SE       float64 `json:"se"`
+	CILow    float64 `json:"ci_low"`
+	CIHigh   float64 `json:"ci_high"`
+	P        float64 `json:"p"`
+}
+
+// OutDropCount counts the rows left out for one reason.
+type OutDropCount struct {
+	Reason string `json:"reason"`
+	Rows   int    `json:"rows"`
+}
+
+// SEName is the standard-error type in the words of the command line
+// (--se): classical, hc0…hc3, cluster.
+func SEName(v estimate.VarianceType) string {
+	if v == estimate.CR1 {
+		return "cluster"
+	}
+	return strings.ToLower(string(v))
+}
+
+// Summarize fills the JSON contract from a run and its result.
+func Summarize(run Run, res *estimate.Result) Output {
+	o := Output{
+		NUsed: res.Rows.Used, NDropped: res.Rows.Dropped,
+		SEType: SEName(res.Model.Variance), DF: float64(res.Model.DF),
+		Note: Note(run, res), Cautions: Cautions(run, res),
+		Groups: []OutGroup{}, Differences: []OutDiff{}, Coefficients: []OutCoef{},
+	}
+	continuous := res.Moderator.Kind == estimate.ModeratorContinuous
+	for _, e := range res.Effects {
+		g := OutGroup{Label: e.Group, Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P}
+		if continuous {
+			g.Label = formatValue(e.Value)
+		}
+		n := e.Rows
+		g.N = &n
+		o.Groups = append(o.Groups, g)
+	}
+	for _, d := range res.Differences {
+		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d), Estimate: d.Estimate, SE: d.SE,
+			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD})
+	}
+	if h := res.Heterogeneity; h != nil {
+		o.Heterogeneity = &OutWald{F: h.F, DF1: h.DF1, DF2: float64(h.DF2), P: h.P}
+	}
+	if jn := res.JohnsonNeyman; jn != nil {
+		bounds := []float64{}
+		for _, r := range jn.Regions[1:] {
+			bounds = append(bounds, r.From)
+		}
+		o.JN = &OutJN{Bounds: bounds, SignificantWhere: significantWhere(jn, res.Moderator.Column)}
+	}
+	for _, c := range res.Coefficients {
+		o.Coefficients = append(o.Coefficients, OutCoef{Term: c.Term, Estimate: c.Estimate, SE: c.SE, CILow: c.CILow, CIHigh: c.CIHigh, P: c.P})
+	}
+	for _, c := range res.Rows.Reasons {
+		o.Dropped = append(o.Dropped, OutDropCount{Reason: c.Reason, Rows: c.Rows})
+	}
+	return o
+}

@@ -1,0 +1,324 @@
+package report
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+
+	"slopewise/internal/estimate"
+)
+
+// tableWidth is the number of columns the wide tables use; paragraphs are
+// merged across it.
+const tableWidth = 9
+
+// Build lays out the results sheet of one run: what was asked, the data,
+// the effect in each group, the differences, the note, the cautions, the
+// coefficients, the chart and the rows left out, with the settings and the
+// machine-readable run. The GUI shows the same sheet.
+func Build(run Run, res *estimate.Result) (*Sheet, error) {
+	spec, err := json.Marshal(run)
+	if err != nil {
+		return nil, fmt.Errorf("storing the run's settings: %w", err)
+	}
+	s := &Sheet{Name: "Results", Spec: spec}
+	b := sheetBuilder{run: run, res: res, sheet: s}
+	b.asked()
+	b.data()
+	b.effects()
+	b.differences()
+	s.Blocks = append(s.Blocks,
+		Block{Title: "In plain words", Rows: [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}}},
+	)
+	var cautions [][]Cell
+	for _, c := range Cautions(run, res) {
+		cautions = append(cautions, []Cell{ParagraphCell(c, tableWidth)})
+	}
+	s.Blocks = append(s.Blocks, Block{Title: "Keep in mind", Rows: cautions})
+	b.coefficients()
+	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
+	if err != nil {
+		return nil, fmt.Errorf("drawing the chart: %w", err)
+	}
+	s.Blocks = append(s.Blocks, Block{Title: "Chart", Image: &Image{
+		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
+		PNG:   png, Width: chartWidth, Height: chartHeight,
+	}})
+	b.dropped()
+	s.Settings = settings(run, res)
+	return s, nil
+}
+
+type sheetBuilder struct {
+	run   Run
+	res   *estimate.Result
+	sheet *Sheet
+}
+
+func (b *sheetBuilder) add(title string, rows [][]Cell) {
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Title: title, Rows: rows})
+}
+
+func pair(label, value string) []Cell { return []Cell{HeadingCell(label), TextCell(value)} }
+
+// asked is block 1: the question, in the words of the columns.
+func (b *sheetBuilder) asked() {
+	s := b.res.Spec
+	controls := "none"
+	if len(s.Controls) > 0 {
+		controls = strings.Join(s.Controls, ", ")
+	}
+	rows := [][]Cell{
+		pair("Outcome", s.Outcome),
+		pair("Treatment", treatmentWords(s.Treatment)),
+		pair("Moderator", moderatorWords(b.res)),
+		pair("Controls", controls),
+		pair("Cluster", orNone(s.Cluster)),
+		pair("Weights", orNone(s.Weights)),
+		pair("Treatment randomly assigned", yesNo(b.run.Randomized)),
+		pair("Moderator named before seeing the data", yesNo(b.run.Planned)),
+		pair("Model", modelWords(b.res)),
+	}
+	b.add("What was asked", rows)
+}
+
+func treatmentWords(t estimate.Treatment) string {
+	switch t.Kind {
+	case estimate.TreatmentLabels:
+		return fmt.Sprintf("%s (treated: %q)", t.Column, t.Treated)
+	case estimate.TreatmentContinuous:
+		return fmt.Sprintf("%s (an amount; effects are per unit)", t.Column)
+	}
+	return fmt.Sprintf("%s (1 = treated, 0 = not)", t.Column)
+}
+
+func moderatorWords(res *estimate.Result) string {
+	m := res.Moderator
+	if m.Kind == estimate.ModeratorContinuous {
+		w := fmt.Sprintf("%s (a number, observed from %s to %s", m.Column, readable(m.Min), readable(m.Max))
+		if m.Centre != 0 {
+			w += fmt.Sprintf("; centred at %s", readable(m.Centre))
+		}
+		return w + ")"
+	}
+	return fmt.Sprintf("%s (%d groups; compared with %q)", m.Column, len(m.Levels), m.Reference)
+}
+
+// modelWords writes the model as an equation in words (METHODS §1).
+func modelWords(res *estimate.Result) string {
+	s := res.Spec
+	t := treatmentName(s.Treatment)
+	terms := []string{"a baseline level", t, s.Moderator.Column, t + " × " + s.Moderator.Column}
+	terms = append(terms, s.Controls...)
+	return fmt.Sprintf("%s = %s + error", s.Outcome, strings.Join(terms, " + "))
+}
+
+func orNone(s string) string {
+	if s == "" {
+		return "none"
+	}
+	return s
+}
+
+func yesNo(b bool) string {
+	if b {
+		return "yes"
+	}
+	return "no"
+}
+
+// data is block 2: where the rows came from and which were used.
+func (b *sheetBuilder) data() {
+	r := b.res.Rows
+	rows := [][]Cell{pair("File", b.run.File)}
+	if b.run.Sheet != "" {
+		rows = append(rows, pair("Sheet", b.run.Sheet))
+	}
+	if b.run.HeaderRow > 0 {
+		rows = append(rows, []Cell{HeadingCell("Header row"), NumberCell(float64(b.run.HeaderRow), "0")})
+	}
+	rows = append(rows,
+		[]Cell{HeadingCell("Rows read"), NumberCell(float64(r.Read), "#,##0")},
+		[]Cell{HeadingCell("Rows used"), NumberCell(float64(r.Used), "#,##0")},
+		[]Cell{HeadingCell("Rows left out"), NumberCell(float64(r.Dropped), "#,##0")},
+	)
+	for _, c := range r.Reasons {
+		rows = append(rows, []Cell{TextCell("  " + c.Reason), NumberCell(float64(c.Rows), "#,##0")})
+	}
+	if r.Dropped > 0 {
+		rows = append(rows, []Cell{TextCell("Each row left out is listed at the end of this sheet.")})
+	}
+	b.add("The data", rows)
+}
+
+// effects is block 3: the effect of the treatment in each group.
+func (b *sheetBuilder) effects() {
+	res := b.res
+	ci := level(res.Model.Alpha) + " CI"
+	continuous := res.Moderator.Kind == estimate.ModeratorContinuous
+	binaryT := res.Spec.Treatment.Kind != estimate.TreatmentContinuous
+	head := []Cell{HeadingCell("Group"), HeadingCell("Rows")}
+	if continuous {
+		head = []Cell{HeadingCell(res.Moderator.Column), HeadingCell("Rows nearby")}
+	}
+	if binaryT {
+		head = append(head, HeadingCell("Treated"), HeadingCell("Untreated"))
+	}
+	effect := "Effect"
+	if !b.run.Randomized {
+		effect = "Difference associated"
+	}
+	head = append(head, HeadingCell(effect), HeadingCell("Std. error"), HeadingCell(ci+" low"), HeadingCell(ci+" high"), HeadingCell("p-value"))
+	var vals []float64
+	for _, e := range res.Effects {
+		vals = append(vals, e.Estimate, e.SE, e.CILow, e.CIHigh)
+	}
+	f := numberFormat(vals)
+	rows := [][]Cell{head}
+	for _, e := range res.Effects {
+		label := e.Group
+		if continuous {
+			label = probeLabel(e)
+		} else if e.Reference {
+			label += " (reference)"
+		}
+		row := []Cell{TextCell(label), NumberCell(float64(e.Rows), "#,##0")}
+		if binaryT {
+			row = append(row, NumberCell(float64(e.Treated), "#,##0"), NumberCell(float64(e.Untreated), "#,##0"))
+		}
+		row = append(row, NumberCell(e.Estimate, f), NumberCell(e.SE, f), NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
+		rows = append(rows, row)
+	}
+	if continuous {
+		rows = append(rows, []Cell{TextCell(fmt.Sprintf("Rows nearby: rows whose %s lies within 10%% of the observed range of the value.", res.Moderator.Column))})
+	}
+	title := fmt.Sprintf("%s in each group of %s", capitalise(subjectWords(b.run, res)), res.Moderator.Column)
+	if continuous {
+		title = fmt.Sprintf("%s at chosen values of %s", capitalise(subjectWords(b.run, res)), res.Moderator.Column)
+	}
+	b.add(title, rows)
+}
+
+// probeLabel names a probe value for the table: "8.78 (90th percentile)".
+func probeLabel(e estimate.GroupEffect) string {
+	label := formatValue(e.Value)
+	if len(e.Group) > 1 && e.Group[0] == 'p' {
+		label += fmt.Sprintf(" (%s percentile)", ordinal(e.Group[1:]))
+	}
+	if e.Extrapolated {
+		label += " — outside the data"
+	}
+	return label
+}
+
+// differences is block 4: the differences between groups and the tests.
+func (b *sheetBuilder) differences() {
+	res := b.res
+	ci := level(res.Model.Alpha) + " CI"
+	power := strconv100(res.Model.Power)
+	head := []Cell{HeadingCell("Comparison"), HeadingCell("Difference"), HeadingCell("Std. error"),
+		HeadingCell(ci + " low"), HeadingCell(ci + " high"), HeadingCell("p-value"),
+		HeadingCell("Smallest difference detectable (" + power + "% power)")}
+	var vals []float64
+	for _, d := range res.Differences {
+		vals = append(vals, d.Estimate, d.SE, d.CILow, d.CIHigh, d.MDD)
+	}
+	f := numberFormat(vals)
+	rows := [][]Cell{head}
+	for _, d := range res.Differences {
+		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)})
+	}
+	if h := res.Heterogeneity; h != nil {
+		rows = append(rows, []Cell{}, []Cell{HeadingCell("Same effect in every group?"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")},
+			[]Cell{TextCell(fmt.Sprintf("test of all %d interaction terms", h.DF1)), NumberCell(h.F, "0.000"), NumberCell(float64(h.DF1), "0"), NumberCell(float64(h.DF2), "0"), PValueCell(h.P)})
+	}
+	if jn := res.JohnsonNeyman; jn != nil {
+		rows = append(rows, []Cell{}, []Cell{HeadingCell("Where the effect is distinguishable from zero")},
+			[]Cell{ParagraphCell(capitalise(significantWhere(jn, res.Moderator.Column))+" (Johnson–Neyman interval, "+level(res.Model.Alpha)+" confidence).", tableWidth)})
+	}
+	b.add("Differences between groups", rows)
+}
+
+// comparisonLabel names a difference: "urban vs rural", or for a
+// continuous moderator "per 1 unit of baseline" and "8.78 vs 1.34".
+func comparisonLabel(res *estimate.Result, d estimate.Difference) string {
+	if d.PerUnit {
+		return "per 1 unit of " + res.Moderator.Column
+	}
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		return formatValue(valueOf(res.Effects, d.To)) + " vs " + formatValue(valueOf(res.Effects, d.From))
+	}
+	return d.To + " vs " + d.From
+}
+
+// coefficients is block 7: every term of the model.
+func (b *sheetBuilder) coefficients() {
+	res := b.res
+	ci := level(res.Model.Alpha) + " CI"
+	rows := [][]Cell{{HeadingCell("Term"), HeadingCell("Role"), HeadingCell("Estimate"), HeadingCell("Std. error"),
+		HeadingCell("t"), HeadingCell("p-value"), HeadingCell(ci + " low"), HeadingCell(ci + " high")}}
+	for _, c := range res.Coefficients {
+		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, "0.000000"), NumberCell(c.SE, "0.000000"),
+			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, "0.000000"), NumberCell(c.CIHigh, "0.000000")})
+	}
+	b.add("All terms of the model", rows)
+}
+
+// dropped lists each row left out and why, at the end of the sheet.
+func (b *sheetBuilder) dropped() {
+	list := b.res.Rows.List
+	if len(list) == 0 {
+		return
+	}
+	rows := [][]Cell{{HeadingCell("Row"), HeadingCell("Column"), HeadingCell("Why it was left out")}}
+	for _, d := range list {
+		rows = append(rows, []Cell{NumberCell(float64(d.Row), "0"), TextCell(d.Column), TextCell(d.Reason)})
+	}
+	b.add("Rows left out", rows)
+}
+
+// settings is the readable settings block: how the numbers were made.
+func settings(run Run, res *estimate.Result) []Setting {
+	m := res.Model
+	out := []Setting{
+		{"Standard errors", seWords(res)},
+		{"Degrees of freedom", fmt.Sprint(m.DF)},
+		{"Significance level", fmt.Sprint(m.Alpha)},
+		{"Power for detectable differences", fmt.Sprint(m.Power)},
+		{"Residual standard deviation", fmt.Sprint(m.Sigma)},
+		{"R²", fmt.Sprint(m.R2)},
+		{"Condition number (scaled)", readable(m.Condition)},
+		{"SHA-256 of the values used", m.DataSHA256},
+		{"Program", "Slopewise " + run.Version},
+		{"Run at", run.Time.UTC().Format("2006-01-02 15:04 UTC")},
+	}
+	return out
+}
+
+// numberFormat picks a display format with about four significant digits
+// for the largest magnitude among the values; the cells keep every digit.
+func numberFormat(vals []float64) string {
+	big := 0.0
+	for _, v := range vals {
+		if !math.IsNaN(v) && !math.IsInf(v, 0) {
+			big = math.Max(big, math.Abs(v))
+		}
+	}
+	if big == 0 {
+		return "0.000"
+	}
+	decimals := 3 - int(math.Floor(math.Log10(big)))
+	switch {
+	case decimals <= 0:
+		return "#,##0"
+	case decimals > 8:
+		return "0.000E+00"
+	}
+	return "0." + strings.Repeat("0", decimals)
+}
+
+// formatValue writes a moderator value exactly as JSON labels do.
+func formatValue(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
