@@ -107,7 +107,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 		o.Groups = append(o.Groups, g)
 	}
 	for _, d := range res.Differences {
-		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d), Estimate: d.Estimate, SE: d.SE,
+		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d, formatValue), Estimate: d.Estimate, SE: d.SE,
 			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD})
 	}
 	if h := res.Heterogeneity; h != nil {

@@ -144,10 +144,11 @@ func (b *sheetBuilder) data() {
 		[]Cell{HeadingCell("Rows used"), NumberCell(float64(r.Used), "#,##0")},
 		[]Cell{HeadingCell("Rows left out"), NumberCell(float64(r.Dropped), "#,##0")},
 	)
-	for _, c := range r.Reasons {
-		rows = append(rows, []Cell{TextCell("  " + c.Reason), NumberCell(float64(c.Rows), "#,##0")})
-	}
 	if r.Dropped > 0 {
+		rows = append(rows, []Cell{HeadingCell("Rows"), HeadingCell("left out because of")})
+		for _, c := range r.Reasons {
+			rows = append(rows, []Cell{NumberCell(float64(c.Rows), "#,##0"), TextCell(c.Reason)})
+		}
 		rows = append(rows, []Cell{TextCell("Each row left out is listed at the end of this sheet.")})
 	}
 	b.add("The data", rows)
@@ -203,7 +204,7 @@ func (b *sheetBuilder) effects() {
 
 // probeLabel names a probe value for the table: "8.78 (90th percentile)".
 func probeLabel(e estimate.GroupEffect) string {
-	label := formatValue(e.Value)
+	label := shortValue(e.Value)
 	if len(e.Group) > 1 && e.Group[0] == 'p' {
 		label += fmt.Sprintf(" (%s percentile)", ordinal(e.Group[1:]))
 	}
@@ -228,7 +229,7 @@ func (b *sheetBuilder) differences() {
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
 	for _, d := range res.Differences {
-		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
 			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)})
 	}
 	if h := res.Heterogeneity; h != nil {
@@ -243,13 +244,14 @@ func (b *sheetBuilder) differences() {
 }
 
 // comparisonLabel names a difference: "urban vs rural", or for a
-// continuous moderator "per 1 unit of baseline" and "8.78 vs 1.34".
-func comparisonLabel(res *estimate.Result, d estimate.Difference) string {
+// continuous moderator "per 1 unit of baseline" and "8.78 vs 1.34" with the
+// values written by value.
+func comparisonLabel(res *estimate.Result, d estimate.Difference, value func(float64) string) string {
 	if d.PerUnit {
 		return "per 1 unit of " + res.Moderator.Column
 	}
 	if res.Moderator.Kind == estimate.ModeratorContinuous {
-		return formatValue(valueOf(res.Effects, d.To)) + " vs " + formatValue(valueOf(res.Effects, d.From))
+		return value(valueOf(res.Effects, d.To)) + " vs " + value(valueOf(res.Effects, d.From))
 	}
 	return d.To + " vs " + d.From
 }
@@ -319,6 +321,10 @@ func numberFormat(vals []float64) string {
 	}
 	return "0." + strings.Repeat("0", decimals)
 }
+
+// shortValue writes a moderator value for a person: four significant
+// digits (the cells and the JSON keep the exact value).
+func shortValue(v float64) string { return sigDigits(v, 4) }
 
 // formatValue writes a moderator value exactly as JSON labels do.
 func formatValue(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }

@@ -47,12 +47,15 @@ type placedImage struct {
 }
 
 // Character widths of the columns: at least minWidth, at most maxWidth
-// (in the spreadsheet's unit, the width of a digit).
+// (in the spreadsheet's unit, the width of a digit). Text that ends its
+// row spills into the empty cells to its right, so it widens its column
+// only up to spillWidth.
 const (
-	minWidth  = 9
-	maxWidth  = 60
-	lineHight = 15 // points per line of 11-point text
-	rowPixels = 20 // pixels a default row takes on screen
+	minWidth   = 9
+	maxWidth   = 60
+	spillWidth = 24
+	lineHight  = 15 // points per line of 11-point text
+	rowPixels  = 20 // pixels a default row takes on screen
 )
 
 // layOut places the blocks top to bottom, a blank row between blocks,
@@ -86,7 +89,11 @@ func layOut(s *report.Sheet) *layout {
 					}
 					paragraphs = append(paragraphs, p)
 				case report.Text, report.Heading:
-					widen(c, float64(utf8.RuneCountInString(cell.Text))+2)
+					w := float64(utf8.RuneCountInString(cell.Text)) + 2
+					if c == len(cells)-1 {
+						w = math.Min(w, spillWidth)
+					}
+					widen(c, w)
 				case report.Number, report.Percent, report.PValue:
 					widen(c, 12)
 				}
@@ -110,7 +117,7 @@ func layOut(s *report.Sheet) *layout {
 				placed{row: r, col: 0, cell: report.HeadingCell(st.Label)},
 				placed{row: r, col: 1, cell: report.TextCell(st.Value)})
 			widen(0, float64(utf8.RuneCountInString(st.Label))+2)
-			widen(1, float64(utf8.RuneCountInString(st.Value))+2)
+			widen(1, math.Min(spillWidth, float64(utf8.RuneCountInString(st.Value))+2))
 			r++
 		}
 	}
