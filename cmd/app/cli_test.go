@@ -1,0 +1,436 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"crypto/sha256"
+	"encoding/json"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+
+	"github.com/xuri/excelize/v2"
+
+	demodata "slopewise/internal/demo"
+	"slopewise/internal/report"
+)
+
+// runCLI runs the command line in-process and returns its exit code and
+// both outputs.
+func runCLI(t *testing.T, args ...string) (int, string, string) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	code := cli(context.Background(), args, &out, &errb)
+	if strings.Contains(errb.String(), "goroutine ") || strings.Contains(errb.String(), "panic") {
+		t.Fatalf("a stack trace reached the user:\n%s", errb.String())
+	}
+	return code, out.String(), errb.String()
+}
+
+// copyFile copies a fixture into a temporary folder so that tests never
+// write next to the committed fixtures.
+func copyFile(t *testing.T, src string) string {
+	t.Helper()
+	b, err := os.ReadFile(src)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dst := filepath.Join(t.TempDir(), filepath.Base(src))
+	if err := os.WriteFile(dst, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return dst
+}
+
+func hashFile(t *testing.T, path string) [32]byte {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sha256.Sum256(b)
+}
+
+const rDir = "../../testdata/r"
+
+// TestUsageErrors checks that every malformed command line exits with 2
+// and a message that says what to fix.
+func TestUsageErrors(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "warp_cat.csv"))
+	base := []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension"}
+	with := func(extra ...string) []string { return append(append([]string{}, base...), extra...) }
+	cases := []struct {
+		name  string
+		args  []string
+		words string
+	}{
+		{"no command", nil, "Usage"},
+		{"unknown command", []string{"analyse"}, `no command "analyse"`},
+		{"help for unknown command", []string{"help", "fit"}, `no command "fit"`},
+		{"no file", []string{"analyze", "--outcome", "y"}, "give the workbook"},
+		{"two files", with(csv), "one file at a time"},
+		{"missing outcome", []string{"analyze", csv, "--treatment", "wool", "--moderator", "tension"}, "--outcome is required"},
+		{"missing treatment", []string{"analyze", csv, "--outcome", "breaks", "--moderator", "tension"}, "--treatment is required"},
+		{"missing moderator", []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool"}, "--moderator is required"},
+		{"unknown flag", with("--colour", "red"), "flag provided but not defined: -colour"},
+		{"bad moderator type", with("--moderator-type", "ordinal"), "binary, category or number"},
+		{"reference with number", with("--moderator-type", "number", "--reference", "L"), "cannot go with --moderator-type number"},
+		{"values with category", with("--moderator-type", "category", "--moderator-values", "1,2"), "are for a number moderator"},
+		{"center with reference", with("--reference", "L", "--center", "2"), "are for a number moderator"},
+		{"values not numbers", with("--moderator-values", "1,two"), `"two" is not a number`},
+		{"center not a number", with("--center", "middle"), `--center must be a number`},
+		{"bad se", with("--se", "hc4"), "classical, hc0, hc1, hc2, hc3 or cluster"},
+		{"cluster se without cluster", with("--se", "cluster"), "needs --cluster"},
+		{"cluster with other se", with("--cluster", "wool", "--se", "hc1"), "ignores it"},
+		{"alpha too large", with("--alpha", "0.7"), "--alpha must be between 0 and 0.5"},
+		{"alpha not a number", with("--alpha", "five"), "invalid value"},
+		{"negative header row", with("--header-row", "-3"), "--header-row must be a row number"},
+		{"dry run with out", with("--dry-run", "--out", "x.xlsx"), "--dry-run writes nothing"},
+		{"demo without folder", []string{"demo"}, "give one folder"},
+		{"demo with two folders", []string{"demo", "a", "b"}, "give one folder"},
+		{"demo unknown flag", []string{"demo", "--force", "x"}, "flag provided but not defined"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, errs := runCLI(t, c.args...)
+			if code != exitUsage {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, exitUsage, errs)
+			}
+			if !strings.Contains(errs, c.words) {
+				t.Errorf("stderr does not say %q:\n%s", c.words, errs)
+			}
+		})
+	}
+}
+
+// TestHelp checks the help texts and the version.
+func TestHelp(t *testing.T) {
+	for _, c := range []struct {
+		args  []string
+		words string
+	}{
+		{[]string{"help"}, "slopewise analyze FILE"},
+		{[]string{"--help"}, "slopewise analyze FILE"},
+		{[]string{"-h"}, "slopewise demo DIR"},
+		{[]string{"help", "analyze"}, "--moderator-values"},
+		{[]string{"analyze", "--help"}, "--moderator-values"},
+		{[]string{"help", "demo"}, "known"},
+		{[]string{"demo", "-h"}, "known"},
+		{[]string{"version"}, "slopewise " + version},
+		{[]string{"--version"}, "slopewise " + version},
+	} {
+		code, out, errs := runCLI(t, c.args...)
+		if code != exitOK || !strings.Contains(out, c.words) {
+			t.Errorf("%v: exit %d, stdout %q, stderr %q; want 0 and %q", c.args, code, out, errs, c.words)
+		}
+	}
+}
+
+// TestDataErrors checks that problems with the data exit with 1 and a
+// message that names the file, column or sheet.
+func TestDataErrors(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "warp_cat.csv"))
+	dir := t.TempDir()
+	xls := filepath.Join(dir, "old.xls")
+	if err := os.WriteFile(xls, []byte{0xD0, 0xCF, 0x11, 0xE0, 0xA1, 0xB1, 0x1A, 0xE1, 0, 0, 0, 0}, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	cases := []struct {
+		name  string
+		args  []string
+		words []string
+	}{
+		{"no such column", []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tensoin"},
+			[]string{`no column "tensoin"`, `"tension"`}},
+		{"labels without --treated", []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--moderator", "tension"},
+			[]string{"--treated LABEL", "A, B"}},
+		{"treated label absent", []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "C", "--moderator", "tension"},
+			[]string{`"C"`, "does not appear"}},
+		{"no such file", []string{"analyze", filepath.Join(dir, "gone.xlsx"), "--outcome", "y", "--treatment", "t", "--moderator", "m"},
+			[]string{"gone.xlsx"}},
+		{"old format", []string{"analyze", xls, "--outcome", "y", "--treatment", "t", "--moderator", "m"},
+			[]string{"old.xls"}},
+		{"no such sheet", []string{"analyze", writeDemo(t), "--sheet", "Visits", "--outcome", "y", "--treatment", "t", "--moderator", "m"},
+			[]string{`"Visits"`}},
+		{"text outcome", []string{"analyze", csv, "--outcome", "tension", "--treatment", "wool", "--treated", "B", "--moderator", "breaks"},
+			[]string{`"tension"`, "holds text"}},
+		{"demo into an existing file", []string{"demo", filepath.Dir(writeDemo(t))}, []string{"already exists"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, errs := runCLI(t, c.args...)
+			if code != exitData {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, exitData, errs)
+			}
+			for _, w := range c.words {
+				if !strings.Contains(errs, w) {
+					t.Errorf("stderr does not say %q:\n%s", w, errs)
+				}
+			}
+		})
+	}
+}
+
+// writeDemo writes the demo workbook with the demo command and returns
+// its path.
+func writeDemo(t *testing.T) string {
+	t.Helper()
+	dir := t.TempDir()
+	if code, _, errs := runCLI(t, "demo", dir); code != exitOK {
+		t.Fatalf("demo: exit %d: %s", code, errs)
+	}
+	return filepath.Join(dir, "slopewise-demo.xlsx")
+}
+
+// TestDryRunAndOut checks that --dry-run writes nothing and --out writes a
+// copy, leaving the source's bytes as they were.
+func TestDryRunAndOut(t *testing.T) {
+	path := writeDemo(t)
+	before := hashFile(t, path)
+	args := []string{"analyze", path, "--outcome", "earnings_6m", "--treatment", "coached", "--moderator", "first_time", "--randomized"}
+	code, out, errs := runCLI(t, append(args, "--dry-run")...)
+	if code != exitOK || !strings.Contains(out, "nothing was written") {
+		t.Fatalf("dry run: exit %d\n%s\n%s", code, out, errs)
+	}
+	entries, _ := os.ReadDir(filepath.Dir(path))
+	if hashFile(t, path) != before || len(entries) != 1 {
+		t.Fatalf("dry run changed the folder: %d entries", len(entries))
+	}
+	copyPath := filepath.Join(t.TempDir(), "copy.xlsx")
+	code, out, errs = runCLI(t, append(args, "--out", copyPath)...)
+	if code != exitOK || !strings.Contains(out, copyPath) {
+		t.Fatalf("--out: exit %d\n%s\n%s", code, out, errs)
+	}
+	if hashFile(t, path) != before {
+		t.Error("--out changed the source")
+	}
+	if _, err := os.Stat(copyPath); err != nil {
+		t.Error(err)
+	}
+}
+
+// TestJSONAgainstR runs analyze --json on the R reference cases and
+// compares the printed numbers with R 4.2.2 lm + sandwich 3.0.2
+// (testdata/r/reference.txt, produced by testdata/r/make_reference.R).
+func TestJSONAgainstR(t *testing.T) {
+	ref := readReference(t)
+	cases := []struct {
+		name, file, vtype string
+		args              []string
+	}{
+		{"warp_cat", "warp_cat.csv", "HC3", []string{"--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension"}},
+		{"warp_cat", "warp_cat.csv", "HC1", []string{"--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension", "--se", "hc1"}},
+		{"mtcars_bin", "mtcars_bin.csv", "classical", []string{"--outcome", "mpg", "--treatment", "am", "--moderator", "vs", "--controls", "wt,hp", "--se", "classical"}},
+		{"mtcars_cont", "mtcars_cont.csv", "HC2", []string{"--outcome", "mpg", "--treatment", "am", "--moderator", "wt", "--moderator-type", "number", "--center", "3", "--controls", "hp", "--se", "hc2"}},
+		{"co2_cluster", "co2_cluster.csv", "CR1", []string{"--outcome", "uptake", "--treatment", "Treatment", "--treated", "chilled", "--moderator", "Type", "--controls", "conc", "--cluster", "Plant"}},
+		{"airq_weighted78", "airq_weighted78.csv", "HC3", []string{"--outcome", "Ozone", "--treatment", "hot", "--moderator", "Month", "--moderator-type", "category", "--controls", "Wind,Solar.R", "--weights", "w"}},
+	}
+	for _, c := range cases {
+		t.Run(c.name+" "+c.vtype, func(t *testing.T) {
+			csv := copyFile(t, filepath.Join(rDir, c.file))
+			code, out, errs := runCLI(t, append([]string{"analyze", csv, "--json", "--dry-run"}, c.args...)...)
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			var o report.Output
+			if err := json.Unmarshal([]byte(out), &o); err != nil {
+				t.Fatalf("stdout is not the JSON contract: %v\n%s", err, out)
+			}
+			want := ref[c.name]
+			near := func(what string, got float64, key string) {
+				w, ok := want[c.vtype+" "+key]
+				if !ok {
+					w, ok = want["- "+key]
+				}
+				if !ok {
+					t.Errorf("no reference for %s", key)
+					return
+				}
+				if math.Abs(got-w) > 1e-8*math.Abs(w) {
+					t.Errorf("%s: %.17g, R gives %.17g", what, got, w)
+				}
+			}
+			near("n_used", float64(o.NUsed), "n")
+			near("df", o.DF, "df")
+			probe := map[string]string{}
+			for _, p := range []string{"p10", "p25", "p50", "p75", "p90"} {
+				if v, ok := want["- probe["+p+"].value"]; ok {
+					probe[strconv.FormatFloat(v, 'g', -1, 64)] = p
+				}
+			}
+			key := func(label string) string {
+				if p, ok := probe[label]; ok {
+					return p
+				}
+				return label
+			}
+			for _, g := range o.Groups {
+				k := "effect[" + key(g.Label) + "]"
+				near(g.Label+" estimate", g.Estimate, k+".est")
+				near(g.Label+" se", g.SE, k+".se")
+				near(g.Label+" ci_low", g.CILow, k+".lo")
+				near(g.Label+" ci_high", g.CIHigh, k+".hi")
+				near(g.Label+" p", g.P, k+".p")
+			}
+			for _, d := range o.Differences {
+				var k string
+				if strings.HasPrefix(d.Label, "per 1 unit") {
+					k = "diff[unit]"
+				} else {
+					to, from, _ := strings.Cut(d.Label, " vs ")
+					k = "diff[" + key(from) + "|" + key(to) + "]"
+				}
+				near(d.Label+" estimate", d.Estimate, k+".est")
+				near(d.Label+" se", d.SE, k+".se")
+				near(d.Label+" p", d.P, k+".p")
+				near(d.Label+" mdd", d.MDD, k+".mdd")
+			}
+			near("F", o.Heterogeneity.F, "het.F")
+			near("F p", o.Heterogeneity.P, "het.p")
+			if o.JN != nil {
+				lo, hi := want["- mod.min"], want["- mod.max"]
+				var inside []float64
+				for _, r := range []string{"jn.root1", "jn.root2"} {
+					if v, ok := want[c.vtype+" "+r]; ok && v > lo && v < hi {
+						inside = append(inside, v)
+					}
+				}
+				if len(o.JN.Bounds) != len(inside) {
+					t.Errorf("JN bounds %v, R's roots inside the range %v", o.JN.Bounds, inside)
+				}
+				for i := range inside {
+					near("JN bound", o.JN.Bounds[i], "jn.root"+strconv.Itoa(i+1))
+				}
+			}
+			if o.Note == "" || len(o.Cautions) == 0 {
+				t.Error("the JSON lacks the note or the cautions")
+			}
+		})
+	}
+}
+
+// readReference reads testdata/r/reference.txt into case → "vtype key" → value.
+func readReference(t *testing.T) map[string]map[string]float64 {
+	t.Helper()
+	fh, err := os.Open(filepath.Join(rDir, "reference.txt"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fh.Close()
+	ref := map[string]map[string]float64{}
+	sc := bufio.NewScanner(fh)
+	for sc.Scan() {
+		f := strings.Fields(sc.Text())
+		if len(f) != 4 || strings.HasPrefix(f[0], "#") {
+			continue
+		}
+		v, err := strconv.ParseFloat(f[3], 64)
+		if err != nil {
+			continue
+		}
+		if ref[f[0]] == nil {
+			ref[f[0]] = map[string]float64{}
+		}
+		ref[f[0]][f[1]+" "+f[2]] = v
+	}
+	return ref
+}
+
+// TestDemoEndToEnd writes the demo, analyzes it for each of its three
+// moderators, reads the results sheet back from the saved workbook and
+// checks that its numbers are the engine's (as printed in the JSON) and
+// that the demo's known true effects lie inside the reported intervals.
+func TestDemoEndToEnd(t *testing.T) {
+	cases := []struct {
+		moderator string
+		truth     func(label string) float64
+	}{
+		{demodata.ColFirstTime, func(l string) float64 { return demodata.TrueEffects(demodata.ColFirstTime)[l] }},
+		{demodata.ColRegion, func(l string) float64 { return demodata.TrueEffects(demodata.ColRegion)[l] }},
+		{demodata.ColBaselineScore, func(l string) float64 {
+			v, _ := strconv.ParseFloat(l, 64)
+			return demodata.TrueEffectAt(v)
+		}},
+	}
+	for _, c := range cases {
+		t.Run(c.moderator, func(t *testing.T) {
+			path := writeDemo(t)
+			code, out, errs := runCLI(t, "analyze", path, "--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached,
+				"--moderator", c.moderator, "--controls", demodata.ColAge, "--cluster", demodata.ColSite, "--randomized", "--planned", "--json")
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			var o report.Output
+			if err := json.Unmarshal([]byte(out), &o); err != nil {
+				t.Fatal(err)
+			}
+			// 7 unusable outcomes and 1 unusable age (assets/README.md); the
+			// 2 error values in baseline_score count only when it is used.
+			want := 8
+			if c.moderator == demodata.ColBaselineScore {
+				want = 10
+			}
+			if o.NDropped != want {
+				t.Errorf("%d rows left out, want %d", o.NDropped, want)
+			}
+			for _, g := range o.Groups {
+				if truth := c.truth(g.Label); truth < g.CILow || truth > g.CIHigh {
+					t.Errorf("group %s: true effect %g outside the reported CI %g to %g", g.Label, truth, g.CILow, g.CIHigh)
+				}
+			}
+			sheetEffects := readEffects(t, path)
+			if len(sheetEffects) != len(o.Groups) {
+				t.Fatalf("sheet has %d effect rows, JSON %d", len(sheetEffects), len(o.Groups))
+			}
+			for i, g := range o.Groups {
+				got := sheetEffects[i]
+				for j, want := range []float64{g.Estimate, g.SE, g.CILow, g.CIHigh, g.P} {
+					if got[j] != want {
+						t.Errorf("group %s column %d: sheet %.17g, engine %.17g", g.Label, j, got[j], want)
+					}
+				}
+			}
+		})
+	}
+}
+
+// readEffects reads the effect table of the results sheet back from the
+// saved workbook: estimate, SE, CI low, CI high and p of each row, as
+// stored (not as displayed).
+func readEffects(t *testing.T, path string) [][5]float64 {
+	t.Helper()
+	f, err := excelize.OpenFile(path, excelize.Options{RawCellValue: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := f.GetRows("Results", excelize.Options{RawCellValue: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	var out [][5]float64
+	for i, r := range rows {
+		if len(r) < 9 || (r[4] != "Effect" && r[4] != "Difference associated") {
+			continue
+		}
+		for _, row := range rows[i+1:] {
+			if len(row) < 9 {
+				break
+			}
+			var v [5]float64
+			for j := range v {
+				v[j], err = strconv.ParseFloat(row[4+j], 64)
+				if err != nil {
+					t.Fatalf("row %v: %v", row, err)
+				}
+			}
+			out = append(out, v)
+		}
+		break
+	}
+	return out
+}
