@@ -4,7 +4,7 @@
 GO ?= go
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui
 
-.PHONY: test deps go-test crosscheck-r bench vet
+.PHONY: test deps build-deps build demo go-test crosscheck-r bench vet
 
 test: deps vet go-test
 
@@ -20,6 +20,24 @@ deps:
 	  DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
 	fi
 	$(GO) mod download
+
+# What building the program needs (Go modules only, for now).
+build-deps:
+	$(GO) mod download
+
+build: build-deps
+	$(GO) build -o bin/slopewise ./cmd/app
+
+# The demo: write the invented job-coaching workbook and analyze it, leaving
+# an annotated workbook in demo-output/.
+demo: build
+	rm -rf demo-output
+	./bin/slopewise demo demo-output
+	./bin/slopewise analyze demo-output/slopewise-demo.xlsx \
+	  --outcome earnings_6m --treatment coached --moderator region \
+	  --controls age,baseline_score --cluster site --randomized --planned
+	@echo
+	@echo "Open demo-output/slopewise-demo.xlsx and look at the sheet \"Results\"."
 
 vet:
 	$(GO) vet ./...
