@@ -434,3 +434,48 @@ func readEffects(t *testing.T, path string) [][5]float64 {
 	}
 	return out
 }
+
+// TestRemainingFlags exercises the options the other tests only refuse:
+// --sheet, --header-row, --reference, --alpha and --moderator-values.
+func TestRemainingFlags(t *testing.T) {
+	path := writeDemo(t)
+	base := []string{"analyze", path, "--dry-run", "--json", "--sheet", "Participants", "--header-row", "3",
+		"--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached, "--controls", demodata.ColAge}
+	get := func(extra ...string) report.Output {
+		t.Helper()
+		code, out, errs := runCLI(t, append(append([]string{}, base...), extra...)...)
+		if code != exitOK {
+			t.Fatalf("%v: exit %d: %s", extra, code, errs)
+		}
+		var o report.Output
+		if err := json.Unmarshal([]byte(out), &o); err != nil {
+			t.Fatal(err)
+		}
+		return o
+	}
+	o95 := get("--moderator", demodata.ColRegion, "--reference", "North")
+	if o95.Groups[0].Label != "North" || o95.Differences[0].Label != "Harbour vs North" {
+		t.Errorf("--reference North: groups start %q, differences %q", o95.Groups[0].Label, o95.Differences[0].Label)
+	}
+	o90 := get("--moderator", demodata.ColRegion, "--reference", "North", "--alpha", "0.1")
+	w95 := o95.Groups[0].CIHigh - o95.Groups[0].CILow
+	w90 := o90.Groups[0].CIHigh - o90.Groups[0].CILow
+	if o90.Groups[0].Estimate != o95.Groups[0].Estimate || !(w90 < w95) {
+		t.Errorf("--alpha 0.1: interval width %g, want narrower than the 95%% one %g", w90, w95)
+	}
+	probes := get("--moderator", demodata.ColBaselineScore, "--moderator-values", "20,50,80")
+	var labels []string
+	for _, g := range probes.Groups {
+		labels = append(labels, g.Label)
+	}
+	if strings.Join(labels, ",") != "20,50,80" || probes.JN == nil {
+		t.Errorf("--moderator-values: groups %v, JN %v", labels, probes.JN)
+	}
+	if want := demodata.TrueEffectAt(50); want < probes.Groups[1].CILow || want > probes.Groups[1].CIHigh {
+		t.Errorf("true effect at 50 (%g) outside the CI %g to %g", want, probes.Groups[1].CILow, probes.Groups[1].CIHigh)
+	}
+	bin := get("--moderator", demodata.ColFirstTime, "--moderator-type", "binary", "--reference", "yes")
+	if bin.Groups[0].Label != "yes" {
+		t.Errorf("binary with --reference yes: first group %q", bin.Groups[0].Label)
+	}
+}
