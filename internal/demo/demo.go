@@ -14,7 +14,7 @@
 //	u_s              ~ Normal(0, 120²)                     (one draw a site)
 //	ε_i              ~ Normal(0, 350²)
 //	θ_i              = 180 + 140·F_i + r_g + 4·(baseline_score_i − 50)
-//	earnings_6m_i    = round₂(900 + 10·(age_i − 35) + 6·(baseline_score_i − 50)
+//	earnings_6m_i    = round₂(2000 + 10·(age_i − 35) + 6·(baseline_score_i − 50)
 //	                          + u_s + coached_i·θ_i + ε_i)
 //
 // with r = {North: 0, Harbour: 80, Valley: −60, Plains: 20}; round₁ and
@@ -102,7 +102,7 @@ const (
 	scoreMax         = 100.0
 	ageMin           = 18
 	ageMax           = 64
-	earningsBase     = 900.0
+	earningsBase     = 2000.0
 	ageCentre        = 35.0
 	ageSlope         = 10.0
 	scoreCentre      = 50.0
@@ -522,9 +522,8 @@ func notes() []string {
 		"How the data were made",
 		"first_time is yes with probability one half; baseline_score is drawn from a normal distribution with mean 50 and standard deviation 15, rounded to one decimal and kept within 0 to 100; age is a whole number from 18 to 64, each equally likely.",
 		"Each site has its own level of earnings, drawn from a normal distribution with mean 0 and standard deviation 120; each participant has a further random part with standard deviation 350.",
-		"earnings_6m = 900 + 10 × (age − 35) + 6 × (baseline_score − 50) + site level + coached × coaching effect + random part, rounded to cents.",
+		"earnings_6m = 2000 + 10 × (age − 35) + 6 × (baseline_score − 50) + site level + coached × coaching effect + random part, rounded to cents.",
 		"coaching effect = 180, plus 140 for a first-time job seeker, plus 80 in Harbour, minus 60 in Valley, plus 20 in Plains (0 in North), plus 4 for each point of baseline_score above 50.",
-		"The linear process can give a few negative earnings; they are kept so that the effects below hold exactly.",
 		"",
 		"True effects of coaching on earnings_6m (of the process; estimates from the 1,200 rows will differ by chance)",
 	}

@@ -300,7 +300,7 @@ func TestCellsFollowProcess(t *testing.T) {
 		checked++
 		first := r[3] == "yes"
 		g := slices.Index(Regions(), r[2])
-		fit := 900 + 10*(age-35) + 6*(score-50) + coached*effect(first, g, score) + p.siteEffect + p.noise
+		fit := earningsBase + 10*(age-35) + 6*(score-50) + coached*effect(first, g, score) + p.siteEffect + p.noise
 		if math.Abs(y-fit) > 0.005+1e-9 {
 			t.Errorf("row %d: earnings %v, the process gives %v", HeaderRow+1+i, y, fit)
 		}
@@ -492,8 +492,8 @@ func TestReadmeRemarks(t *testing.T) {
 	if want := []string{"E59", "E325", "E610", "E742", "E955", "E1197"}; !slices.Equal(clipped, want) {
 		t.Errorf("scores at the bounds in %q, README says %q", clipped, want)
 	}
-	if want := []string{"H442", "H734", "H929", "H1092", "H1106", "H1156"}; !slices.Equal(negative, want) {
-		t.Errorf("negative earnings in %q, README says %q", negative, want)
+	if len(negative) != 0 {
+		t.Errorf("negative earnings in %q, README says there are none", negative)
 	}
 	if firstTime != 601 {
 		t.Errorf("%d first-time job seekers, README says 601", firstTime)
