@@ -1,0 +1,255 @@
+package pipeline
+
+import (
+	"fmt"
+	"math"
+	"sort"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+)
+
+// Severity says how much a check matters.
+type Severity int
+
+const (
+	// Note is worth knowing; nothing is wrong.
+	Note Severity = iota
+	// Warning: the run works, but a result may mislead; the message says
+	// what to do.
+	Warning
+	// Blocking: the run would fail; fix this first.
+	Blocking
+)
+
+// Check is one finding about the chosen roles, in plain words.
+type Check struct {
+	Severity Severity
+	Message  string
+}
+
+// Thresholds of the checks (rules of thumb; common practice unless named).
+const (
+	manyDistinct    = 12 // a "category" with more numeric values than this is likely a measurement
+	fewDistinct     = 5  // a "number" with this many values or fewer may be groups
+	smallGroup      = 30
+	fewClusterLimit = 42 // Cameron & Miller (2015) §VI; the wild bootstrap's threshold
+)
+
+// Precheck looks at the table and the spec before a run and says, in plain
+// words, what would stop it or could mislead: a moderator that looks like
+// the other kind, too few clusters, small groups, groups without both arms,
+// columns that do not vary. It never fits a model.
+func Precheck(t *workbook.Table, s estimate.Spec) []Check {
+	var out []Check
+	add := func(sev Severity, format string, args ...any) {
+		out = append(out, Check{sev, fmt.Sprintf(format, args...)})
+	}
+	cols := map[string]*workbook.Column{}
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+		if name == "" {
+			continue
+		}
+		c := t.Column(name)
+		if c == nil {
+			add(Blocking, "There is no column %q in this sheet.", name)
+			continue
+		}
+		cols[name] = c
+	}
+	if len(out) > 0 || s.Outcome == "" || s.Treatment.Column == "" || s.Moderator.Column == "" {
+		if s.Outcome == "" || s.Treatment.Column == "" || s.Moderator.Column == "" {
+			add(Blocking, "Choose an outcome, a treatment and a moderator.")
+		}
+		return out
+	}
+	d := EngineData(t)
+	col := func(name string) *estimate.Column {
+		for i := range d.Columns {
+			if d.Columns[i].Name == name {
+				return &d.Columns[i]
+			}
+		}
+		return nil
+	}
+	usable := usableRows(d, cols)
+	n := 0
+	for _, u := range usable {
+		if u {
+			n++
+		}
+	}
+	if n == 0 {
+		add(Blocking, "No row has a usable value in every chosen column; check the roles and the cells.")
+		return out
+	}
+	if left := t.Len() - n; left > 0 {
+		add(Note, "%d of %d rows have a missing or unusable value in a chosen column and will be left out; the results list each one.", left, t.Len())
+	}
+
+	outcome := col(s.Outcome)
+	if outcome.Num == nil {
+		add(Blocking, "The outcome %q holds text; choose a column of numbers.", s.Outcome)
+	} else if distinctNum(outcome.Num, usable) < 2 {
+		add(Blocking, "The outcome %q has the same value in every usable row.", s.Outcome)
+	}
+
+	treat := col(s.Treatment.Column)
+	arm := treatmentArms(treat, s.Treatment, usable)
+	if s.Treatment.Kind == estimate.TreatmentLabels && s.Treatment.Treated == "" {
+		add(Blocking, "Say which value of %q means treated.", s.Treatment.Column)
+	}
+
+	mod := col(s.Moderator.Column)
+	mc := cols[s.Moderator.Column]
+	switch s.Moderator.Kind {
+	case estimate.ModeratorContinuous:
+		if mod.Num == nil {
+			add(Blocking, "The moderator %q holds text, so it cannot be treated as a number; treat it as groups.", s.Moderator.Column)
+			break
+		}
+		if k := distinctNum(mod.Num, usable); k <= fewDistinct {
+			add(Warning, "The moderator %q takes only %d different values. Treating it as groups gives an effect for each value without assuming a straight line.", s.Moderator.Column, k)
+		}
+	default:
+		groups := groupRows(mod, usable)
+		if len(groups) > manyDistinct && mc.Kind == workbook.Number {
+			add(Warning, "The moderator %q has %d different numbers. Treat it as a number (one effect that changes along it) rather than %d separate groups?", s.Moderator.Column, len(groups), len(groups))
+		}
+		if s.Moderator.Kind == estimate.ModeratorBinary && len(groups) > 2 {
+			add(Blocking, "The moderator %q was chosen as two groups but has %d; treat it as groups instead.", s.Moderator.Column, len(groups))
+		}
+		if len(groups) < 2 {
+			add(Blocking, "The moderator %q has only one group among the usable rows.", s.Moderator.Column)
+		}
+		checkGroups(groups, arm, s, add)
+	}
+
+	if s.Cluster != "" {
+		g := len(groupRows(col(s.Cluster), usable))
+		switch {
+		case g < 2:
+			add(Blocking, "Every usable row is in the same cluster of %q; cluster-robust errors need several. Remove the cluster column.", s.Cluster)
+		case g < fewClusterLimit:
+			add(Warning, "The cluster column %q has only %d clusters. With fewer than about 40, cluster-robust errors are too optimistic: treat borderline p-values with care, and prefer the wild cluster bootstrap when it is offered.", s.Cluster, g)
+		}
+	}
+	return out
+}
+
+// usableRows marks the rows with a usable value in every chosen column.
+func usableRows(d *estimate.Data, cols map[string]*workbook.Column) []bool {
+	n := 0
+	if len(d.Columns) > 0 {
+		n = d.Columns[0].Len()
+	}
+	ok := make([]bool, n)
+	for i := range ok {
+		ok[i] = true
+	}
+	for i := range d.Columns {
+		c := &d.Columns[i]
+		if _, chosen := cols[c.Name]; !chosen {
+			continue
+		}
+		for r := range ok {
+			if c.Num != nil && (math.IsNaN(c.Num[r]) || math.IsInf(c.Num[r], 0)) || c.Num == nil && c.Text[r] == "" {
+				ok[r] = false
+			}
+		}
+	}
+	return ok
+}
+
+func distinctNum(x []float64, usable []bool) int {
+	seen := map[float64]bool{}
+	for i, v := range x {
+		if usable[i] {
+			seen[v] = true
+		}
+	}
+	return len(seen)
+}
+
+// groupRows returns the usable rows of each value of a column.
+func groupRows(c *estimate.Column, usable []bool) map[string][]int {
+	out := map[string][]int{}
+	for i, u := range usable {
+		if !u {
+			continue
+		}
+		key := ""
+		if c.Num != nil {
+			key = fmt.Sprint(c.Num[i])
+		} else {
+			key = c.Text[i]
+		}
+		out[key] = append(out[key], i)
+	}
+	return out
+}
+
+// treatmentArms returns, per row, 1 for treated, 0 for untreated and −1
+// when unknown; for a continuous treatment, the amount.
+func treatmentArms(c *estimate.Column, t estimate.Treatment, usable []bool) []float64 {
+	arm := make([]float64, len(usable))
+	for i := range arm {
+		switch {
+		case !usable[i]:
+			arm[i] = -1
+		case t.Kind == estimate.TreatmentLabels:
+			v := ""
+			if c.Text != nil {
+				v = c.Text[i]
+			} else {
+				v = fmt.Sprint(c.Num[i])
+			}
+			if v == t.Treated {
+				arm[i] = 1
+			}
+		case c.Num != nil:
+			arm[i] = c.Num[i]
+		default:
+			arm[i] = -1
+		}
+	}
+	return arm
+}
+
+// checkGroups reports small groups and groups where the treatment does not
+// vary.
+func checkGroups(groups map[string][]int, arm []float64, s estimate.Spec, add func(Severity, string, ...any)) {
+	names := make([]string, 0, len(groups))
+	for g := range groups {
+		names = append(names, g)
+	}
+	sort.Strings(names)
+	smallest, smallestN := "", math.MaxInt
+	for _, g := range names {
+		rows := groups[g]
+		if len(rows) < smallestN {
+			smallest, smallestN = g, len(rows)
+		}
+		seen := map[float64]bool{}
+		for _, r := range rows {
+			seen[arm[r]] = true
+		}
+		if len(seen) < 2 {
+			add(Blocking, "In the group %q of %q the treatment never varies (%d rows, all %s), so its effect there cannot be estimated. Merge the group with another or leave it out.",
+				g, s.Moderator.Column, len(rows), armWords(arm[rows[0]], s.Treatment))
+		}
+	}
+	if smallestN < smallGroup {
+		add(Warning, "The smallest group, %q of %q, has only %d rows; its effect will be imprecise.", smallest, s.Moderator.Column, smallestN)
+	}
+}
+
+func armWords(v float64, t estimate.Treatment) string {
+	switch {
+	case t.Kind == estimate.TreatmentContinuous:
+		return fmt.Sprintf("at %g", v)
+	case v == 1:
+		return "treated"
+	}
+	return "untreated"
+}

@@ -1,0 +1,110 @@
+package pipeline
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+)
+
+// table writes rows as a CSV file and reads it with the project's reader.
+func table(t *testing.T, header string, rows []string) *workbook.Table {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "data.csv")
+	if err := os.WriteFile(path, []byte(header+"\n"+strings.Join(rows, "\n")+"\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tb, err := workbook.Read(context.Background(), path, workbook.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	return tb
+}
+
+// study makes n rows: y, t (alternating 0/1), g (groups cycling through
+// groups), m (a number with the given count of distinct values), site.
+func study(t *testing.T, n int, groups []string, distinct, sites int, tweak func(i int, g *string, tr *int)) *workbook.Table {
+	var rows []string
+	for i := 0; i < n; i++ {
+		g := groups[i/2%len(groups)]
+		tr := i % 2
+		if tweak != nil {
+			tweak(i, &g, &tr)
+		}
+		rows = append(rows, fmt.Sprintf("%d,%d,%s,%d,s%d", 10+i%7+tr*2, tr, g, i%distinct, i%sites))
+	}
+	return table(t, "y,t,g,m,site", rows)
+}
+
+func spec(kind estimate.ModeratorKind, mod string) estimate.Spec {
+	return estimate.Spec{Outcome: "y", Treatment: estimate.Treatment{Column: "t", Kind: estimate.TreatmentBinary},
+		Moderator: estimate.Moderator{Column: mod, Kind: kind}}
+}
+
+func find(checks []Check, sev Severity, words string) bool {
+	for _, c := range checks {
+		if c.Severity == sev && strings.Contains(c.Message, words) {
+			return true
+		}
+	}
+	return false
+}
+
+// TestPrecheck checks each message of the checks before running.
+func TestPrecheck(t *testing.T) {
+	cases := []struct {
+		name  string
+		table func(t *testing.T) *workbook.Table
+		spec  estimate.Spec
+		sev   Severity
+		words string
+	}{
+		{"many distinct numbers as groups", func(t *testing.T) *workbook.Table { return study(t, 200, []string{"a", "b"}, 57, 50, nil) },
+			spec(estimate.ModeratorCategorical, "m"), Warning, "has 57 different numbers. Treat it as a number"},
+		{"few values as a number", func(t *testing.T) *workbook.Table { return study(t, 200, []string{"a", "b"}, 3, 50, nil) },
+			spec(estimate.ModeratorContinuous, "m"), Warning, "takes only 3 different values"},
+		{"few clusters", func(t *testing.T) *workbook.Table { return study(t, 200, []string{"a", "b"}, 3, 6, nil) },
+			func() estimate.Spec { s := spec(estimate.ModeratorCategorical, "g"); s.Cluster = "site"; return s }(), Warning, "has only 6 clusters"},
+		{"one cluster", func(t *testing.T) *workbook.Table { return study(t, 200, []string{"a", "b"}, 3, 1, nil) },
+			func() estimate.Spec { s := spec(estimate.ModeratorCategorical, "g"); s.Cluster = "site"; return s }(), Blocking, "same cluster"},
+		{"small group", func(t *testing.T) *workbook.Table {
+			return study(t, 200, []string{"a", "b"}, 3, 50, func(i int, g *string, _ *int) {
+				if i < 4 {
+					*g = "tiny"
+				}
+			})
+		}, spec(estimate.ModeratorCategorical, "g"), Warning, `The smallest group, "tiny" of "g", has only 4 rows`},
+		{"treatment constant in a group", func(t *testing.T) *workbook.Table {
+			return study(t, 200, []string{"a", "b", "c"}, 3, 50, func(_ int, g *string, tr *int) {
+				if *g == "c" {
+					*tr = 1
+				}
+			})
+		}, spec(estimate.ModeratorCategorical, "g"), Blocking, `In the group "c" of "g" the treatment never varies`},
+		{"binary with three groups", func(t *testing.T) *workbook.Table { return study(t, 200, []string{"a", "b", "c"}, 3, 50, nil) },
+			spec(estimate.ModeratorBinary, "g"), Blocking, "chosen as two groups but has 3"},
+		{"missing roles", func(t *testing.T) *workbook.Table { return study(t, 20, []string{"a", "b"}, 3, 5, nil) },
+			estimate.Spec{Outcome: "y"}, Blocking, "Choose an outcome, a treatment and a moderator"},
+		{"text moderator as a number", func(t *testing.T) *workbook.Table { return study(t, 60, []string{"a", "b"}, 3, 5, nil) },
+			spec(estimate.ModeratorContinuous, "g"), Blocking, "holds text"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			checks := Precheck(c.table(t), c.spec)
+			if !find(checks, c.sev, c.words) {
+				t.Errorf("no check of severity %d saying %q in %+v", c.sev, c.words, checks)
+			}
+		})
+	}
+	clean := Precheck(study(t, 200, []string{"a", "b"}, 3, 50, nil), spec(estimate.ModeratorCategorical, "g"))
+	for _, c := range clean {
+		if c.Severity != Note {
+			t.Errorf("a clean study got %+v", c)
+		}
+	}
+}
