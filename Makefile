@@ -6,7 +6,7 @@ APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui
 
 .PHONY: test deps build-deps build demo go-test crosscheck-r bench vet
 
-test: deps vet go-test
+test: deps vet go-test fuzz
 
 # System packages: R and sandwich are the independent check of the engine
 # (testdata/r/). Installed only when missing; needs root or sudo.
@@ -52,3 +52,11 @@ crosscheck-r:
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x
+
+# Fuzz the workbook and text readers briefly, about 20 s a target; a
+# failing input is saved under internal/io/workbook/testdata/fuzz.
+WORKBOOK_FUZZ := FuzzReadText FuzzReadWorkbook FuzzSniff
+fuzz:
+	@for t in $(WORKBOOK_FUZZ); do \
+	  $(GO) test ./internal/io/workbook -run '^$$' -fuzz "^$$t$$" -fuzztime 20s -fuzzminimizetime 5s || exit 1; \
+	done

@@ -6,6 +6,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -112,8 +113,10 @@ func copyTextData(xf *excelize.File, rows rowSource, decimalComma bool) ([]exact
 	if err != nil {
 		return nil, err
 	}
-	var exact []exactCell
-	for {
+	// The rows down to the header row, found as the reader finds it, stay
+	// text, so that a name such as "2024" or "00" keeps its form.
+	var buf []bufRow
+	for len(buf) < headerScanRows {
 		num, cells, err := rows.Next()
 		if err == io.EOF {
 			break
@@ -121,13 +124,23 @@ func copyTextData(xf *excelize.File, rows rowSource, decimalComma bool) ([]exact
 		if err != nil {
 			return nil, err
 		}
+		if !isBlankRow(cells) {
+			buf = append(buf, bufRow{num, slices.Clone(cells)})
+		}
+	}
+	headerRow := 0
+	if hi := detectHeader(buf); hi >= 0 {
+		headerRow = buf[hi].num
+	}
+	var exact []exactCell
+	put := func(num int, cells []rawCell) error {
 		if len(cells) == 0 {
-			continue
+			return nil
 		}
 		values := make([]any, cells[len(cells)-1].Col+1)
 		for _, c := range cells {
 			s := trimSpace(c.Text)
-			if v, ok := parseNumber(s, decimalComma); ok && !strings.HasSuffix(s, "%") {
+			if v, ok := parseNumber(s, decimalComma); ok && num > headerRow && !strings.HasSuffix(s, "%") && !leadingZero(s) {
 				values[c.Col] = v
 				if significantDigits(v) > 15 {
 					exact = append(exact, exactCell{cellName(num-1, c.Col), v})
@@ -136,11 +149,40 @@ func copyTextData(xf *excelize.File, rows rowSource, decimalComma bool) ([]exact
 				values[c.Col] = c.Text
 			}
 		}
-		if err := sw.SetRow(fmt.Sprintf("A%d", num), values); err != nil {
+		return sw.SetRow(fmt.Sprintf("A%d", num), values)
+	}
+	for _, r := range buf {
+		if err := put(r.num, r.cells); err != nil {
+			return nil, err
+		}
+	}
+	for {
+		num, cells, err := rows.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return nil, err
+		}
+		if err := put(num, cells); err != nil {
 			return nil, err
 		}
 	}
 	return exact, sw.Flush()
+}
+
+// leadingZero reports codes such as "007", digits only, whose zeros a
+// number would lose; they are kept as text.
+func leadingZero(s string) bool {
+	if len(s) < 2 || s[0] != '0' {
+		return false
+	}
+	for _, c := range []byte(s) {
+		if c < '0' || c > '9' {
+			return false
+		}
+	}
+	return true
 }
 
 type exactCell struct {
