@@ -8,10 +8,6 @@ import (
 	"strings"
 )
 
-// maxDistinct bounds the distinct texts remembered for a column; past it
-// the column is free text whatever else it holds.
-const maxDistinct = 1000
-
 // colBuilder gathers one column's cells before its kind is decided.
 type colBuilder struct {
 	index int
@@ -20,12 +16,11 @@ type colBuilder struct {
 	miss  []Reason  // Blank, ErrorValue, Marker, NoCachedValue or Present
 
 	numbers, converted, dates, dateTexts, bools int
-	distinct                                    map[string]int
 	distinctNums                                map[float64]struct{}
 }
 
 func newColBuilder(index int) *colBuilder {
-	return &colBuilder{index: index, distinct: map[string]int{}, distinctNums: map[float64]struct{}{}}
+	return &colBuilder{index: index, distinctNums: map[float64]struct{}{}}
 }
 
 // add appends one row's cell (nil for a blank cell).
@@ -67,7 +62,12 @@ func (b *colBuilder) add(c *rawCell, decimalComma bool) {
 			b.nums[row] = v
 			b.converted++
 			b.noteNum(v)
-			b.setText(row, s)
+			// Keep the written form only where it is not the plain one
+			// ("007", "1,5"): for a column that turns out to be text.
+			var buf [32]byte
+			if string(strconv.AppendFloat(buf[:0], v, 'g', -1, 64)) != s {
+				b.setText(row, s)
+			}
 			return
 		}
 		if _, ok := parseDate(s); ok {
@@ -90,13 +90,6 @@ func (b *colBuilder) setText(row int, s string) {
 		b.texts = make([]string, len(b.miss), cap(b.miss))
 	}
 	b.texts[row] = s
-	if len(b.distinct) < maxDistinct {
-		if _, ok := b.distinct[s]; !ok {
-			b.distinct[s] = len(b.distinct)
-		}
-	} else if _, ok := b.distinct[s]; !ok {
-		b.distinct[s] = -1 // marks "too many"; the map grows by one only
-	}
 }
 
 // maxLevels is the most distinct values a text column may have and still
@@ -200,16 +193,19 @@ func (b *colBuilder) finishText(col *Column, present int) {
 	if b.texts == nil {
 		b.texts = make([]string, len(b.miss))
 	}
+	distinct := map[string]bool{}
 	for i, r := range b.miss {
-		if r == Present && b.texts[i] == "" {
-			s := formatNumber(b.nums[i])
-			b.texts[i] = s
-			if _, ok := b.distinct[s]; !ok && len(b.distinct) < maxDistinct {
-				b.distinct[s] = len(b.distinct)
-			}
+		if r != Present {
+			continue
+		}
+		if b.texts[i] == "" {
+			b.texts[i] = formatNumber(b.nums[i])
+		}
+		if len(distinct) <= maxLevels {
+			distinct[b.texts[i]] = true
 		}
 	}
-	n := len(b.distinct)
+	n := len(distinct)
 	switch {
 	case n == 2:
 		col.Kind = YesNo
@@ -220,7 +216,7 @@ func (b *colBuilder) finishText(col *Column, present int) {
 		return
 	}
 	col.Levels = make([]string, 0, n)
-	for s := range b.distinct {
+	for s := range distinct {
 		col.Levels = append(col.Levels, s)
 	}
 	if col.Kind == YesNo {

@@ -75,10 +75,10 @@ func classifyText(s string) Reason {
 	if s == "" {
 		return Blank
 	}
-	if errorValues[strings.ToUpper(s)] {
+	if s[0] == '#' && errorValues[strings.ToUpper(s)] {
 		return ErrorValue
 	}
-	if missingMarkers[strings.ToLower(s)] {
+	if len(s) <= 7 && missingMarkers[strings.ToLower(s)] {
 		return Marker
 	}
 	return Present

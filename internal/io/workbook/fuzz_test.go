@@ -48,6 +48,18 @@ func checkTable(t *testing.T, tab *Table) {
 	}
 }
 
+// readChecked reads path and checks the table or the error.
+func readChecked(t *testing.T, path string) *Table {
+	t.Helper()
+	tab, err := Read(context.Background(), path, Options{})
+	if err != nil {
+		checkError(t, err)
+		return nil
+	}
+	checkTable(t, tab)
+	return tab
+}
+
 // checkError checks that a failure is one of ours.
 func checkError(t *testing.T, err error) {
 	t.Helper()
@@ -80,12 +92,10 @@ func FuzzReadText(f *testing.F) {
 		if err := os.WriteFile(path, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		tab, err := Read(context.Background(), path, Options{})
-		if err != nil {
-			checkError(t, err)
+		tab := readChecked(t, path)
+		if tab == nil {
 			return
 		}
-		checkTable(t, tab)
 		w, err := WriteResults(path, resultsGrid(t), WriteOptions{})
 		if err != nil {
 			t.Fatalf("writing a table that reads: %v", err)
@@ -188,12 +198,7 @@ func FuzzReadWorkbook(f *testing.F) {
 			sheets: []rawSheet{{name: "S", rows: []string{string(data)}}},
 		}
 		path := b.write(t, t.TempDir(), "in.xlsx")
-		tab, err := Read(context.Background(), path, Options{})
-		if err != nil {
-			checkError(t, err)
-			return
-		}
-		checkTable(t, tab)
+		readChecked(t, path)
 	})
 }
 
@@ -209,11 +214,6 @@ func FuzzSniff(f *testing.F) {
 		if err := os.WriteFile(path, data, 0o644); err != nil {
 			t.Fatal(err)
 		}
-		tab, err := Read(context.Background(), path, Options{})
-		if err != nil {
-			checkError(t, err)
-			return
-		}
-		checkTable(t, tab)
+		readChecked(t, path)
 	})
 }
