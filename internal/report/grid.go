@@ -24,6 +24,10 @@ type Sheet struct {
 
 // Block is a titled group of rows, or a picture.
 type Block struct {
+	// Key names the block for programs ("effects", "differences", "note",
+	// "cautions", "chart", …), so a viewer can pick blocks without
+	// reading titles. It is not drawn.
+	Key string
 	// Title is drawn as a heading row above the block when not empty.
 	Title string
 	// Rows are the block's rows of cells, left to right from column A.

@@ -30,19 +30,19 @@ func Build(run Run, res *estimate.Result) (*Sheet, error) {
 	b.effects()
 	b.differences()
 	s.Blocks = append(s.Blocks,
-		Block{Title: "In plain words", Rows: [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}}},
+		Block{Key: "note", Title: "In plain words", Rows: [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}}},
 	)
 	var cautions [][]Cell
 	for _, c := range Cautions(run, res) {
 		cautions = append(cautions, []Cell{ParagraphCell(c, tableWidth)})
 	}
-	s.Blocks = append(s.Blocks, Block{Title: "Keep in mind", Rows: cautions})
+	s.Blocks = append(s.Blocks, Block{Key: "cautions", Title: "Keep in mind", Rows: cautions})
 	b.coefficients()
 	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
 	if err != nil {
 		return nil, fmt.Errorf("drawing the chart: %w", err)
 	}
-	s.Blocks = append(s.Blocks, Block{Title: "Chart", Image: &Image{
+	s.Blocks = append(s.Blocks, Block{Key: "chart", Title: "Chart", Image: &Image{
 		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
 		PNG:   png, Width: chartWidth, Height: chartHeight,
 	}})
@@ -57,8 +57,8 @@ type sheetBuilder struct {
 	sheet *Sheet
 }
 
-func (b *sheetBuilder) add(title string, rows [][]Cell) {
-	b.sheet.Blocks = append(b.sheet.Blocks, Block{Title: title, Rows: rows})
+func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: key, Title: title, Rows: rows})
 }
 
 func pair(label, value string) []Cell { return []Cell{HeadingCell(label), TextCell(value)} }
@@ -81,7 +81,7 @@ func (b *sheetBuilder) asked() {
 		pair("Moderator named before seeing the data", yesNo(b.run.Planned)),
 		pair("Model", modelWords(b.res)),
 	}
-	b.add("What was asked", rows)
+	b.add("asked", "What was asked", rows)
 }
 
 func treatmentWords(t estimate.Treatment) string {
@@ -151,7 +151,7 @@ func (b *sheetBuilder) data() {
 		}
 		rows = append(rows, []Cell{TextCell("Each row left out is listed at the end of this sheet.")})
 	}
-	b.add("The data", rows)
+	b.add("data", "The data", rows)
 }
 
 // effects is block 3: the effect of the treatment in each group.
@@ -199,7 +199,7 @@ func (b *sheetBuilder) effects() {
 	if continuous {
 		title = fmt.Sprintf("%s at chosen values of %s", capitalise(subjectWords(b.run, res)), res.Moderator.Column)
 	}
-	b.add(title, rows)
+	b.add("effects", title, rows)
 }
 
 // probeLabel names a probe value for the table: "8.78 (90th percentile)".
@@ -240,7 +240,7 @@ func (b *sheetBuilder) differences() {
 		rows = append(rows, []Cell{}, []Cell{HeadingCell("Where the effect is distinguishable from zero")},
 			[]Cell{ParagraphCell(capitalise(significantWhere(jn, res.Moderator.Column))+" (Johnson–Neyman interval, "+level(res.Model.Alpha)+" confidence).", tableWidth)})
 	}
-	b.add("Differences between groups", rows)
+	b.add("differences", "Differences between groups", rows)
 }
 
 // comparisonLabel names a difference: "urban vs rural", or for a
@@ -266,7 +266,7 @@ func (b *sheetBuilder) coefficients() {
 		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, "0.000000"), NumberCell(c.SE, "0.000000"),
 			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, "0.000000"), NumberCell(c.CIHigh, "0.000000")})
 	}
-	b.add("All terms of the model", rows)
+	b.add("coefficients", "All terms of the model", rows)
 }
 
 // dropped lists each row left out and why, at the end of the sheet.
@@ -279,7 +279,7 @@ func (b *sheetBuilder) dropped() {
 	for _, d := range list {
 		rows = append(rows, []Cell{NumberCell(float64(d.Row), "0"), TextCell(d.Column), TextCell(d.Reason)})
 	}
-	b.add("Rows left out", rows)
+	b.add("dropped", "Rows left out", rows)
 }
 
 // settings is the readable settings block: how the numbers were made.
