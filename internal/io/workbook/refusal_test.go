@@ -137,7 +137,7 @@ var refusals = []refusal{
 		return b
 	}), opts: Options{Sheet: "Plot"}, cause: ErrNotWorksheet, want: `{path}, sheet "Plot": ` + ErrNotWorksheet.Error()},
 	{name: "workbook past the size limit", make: bookMaker("big.xlsx", simpleBook), opts: Options{UnzipSizeLimit: 1000},
-		cause: ErrTooLarge, want: msg(ErrTooLarge, "the limit is 0 MiB")},
+		cause: ErrTooLarge, want: msg(ErrTooLarge, "the limit is 1000 bytes")},
 	{name: "file of unknown kind", make: fileMaker("blob.bin", bytesOf("\x7fELF\x02\x01\x01\x00")),
 		cause: ErrUnknownFormat, want: msg(ErrUnknownFormat, "")},
 	{name: "broken sheet XML", make: bookMaker("broken.xlsx", func() *rawBook {

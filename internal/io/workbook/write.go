@@ -80,6 +80,9 @@ func (o WriteOptions) limits() (int64, int64) {
 // writeWorkbook adds the sheet to an .xlsx/.xlsm, in place or as a copy.
 func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written, error) {
 	inPlace := opts.CopyTo == ""
+	if real, err := filepath.EvalSymlinks(src); err == nil && inPlace {
+		src = real // replace the file a link points to, not the link
+	}
 	target := src
 	if !inPlace {
 		target = opts.CopyTo

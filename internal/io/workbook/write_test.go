@@ -27,8 +27,8 @@ import (
 // richWorkbook makes, with excelize, a workbook that uses what evaluators'
 // workbooks use: several sheets, styles, merged cells, formulas with saved
 // results, defined names, data validation, comments, a chart, a picture, a
-// table, a protected sheet, cells whose display format hides digits and a
-// macro project.
+// table, a pivot table, a protected sheet, cells whose display format
+// hides digits and a macro project.
 func richWorkbook(t testing.TB, path string) {
 	t.Helper()
 	f := excelize.NewFile()
@@ -77,6 +77,14 @@ func richWorkbook(t testing.TB, path string) {
 	must(f.SetCellValue("Locked", "A1", "Do not edit"))
 	must(f.ProtectSheet("Locked", &excelize.SheetProtectionOptions{Password: "secret", EditScenarios: false}))
 	must(f.SetConditionalFormat("Visits", "C2:C21", []excelize.ConditionalFormatOptions{{Type: "data_bar", Criteria: "=", MinType: "min", MaxType: "max", BarColor: "#638EC6"}}))
+	_, err = f.NewSheet("Pivot")
+	must(err)
+	must(f.AddPivotTable(&excelize.PivotTableOptions{
+		DataRange:       "Visits!A1:C21",
+		PivotTableRange: "Pivot!A1:D10",
+		Rows:            []excelize.PivotTableField{{Data: "Arm"}},
+		Data:            []excelize.PivotTableField{{Data: "Score", Subtotal: "Average", Name: "Mean score"}},
+	}))
 	vba := append(append([]byte{}, oleSignature...), make([]byte, 504)...)
 	must(f.AddVBAProject(vba))
 	must(f.SaveAs(path))
@@ -280,7 +288,7 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 		}
 	}
 	sort.Strings(added)
-	if want := "xl/drawings/_rels/drawing3.xml.rels xl/drawings/drawing3.xml xl/media/image2.png xl/worksheets/_rels/sheet4.xml.rels xl/worksheets/sheet4.xml"; strings.Join(added, " ") != want {
+	if want := "xl/drawings/_rels/drawing3.xml.rels xl/drawings/drawing3.xml xl/media/image2.png xl/worksheets/_rels/sheet5.xml.rels xl/worksheets/sheet5.xml"; strings.Join(added, " ") != want {
 		t.Errorf("added parts %q, want %q", added, want)
 	}
 	rawAfter := rawRows(t, path)
@@ -318,7 +326,7 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 		t.Fatal(err)
 	}
 	sheets, _ := Sheets(path)
-	if w2.Sheet != "Slopewise results" || len(sheets) != 4 || fileHash(t, w2.Backup) != hash1 {
+	if w2.Sheet != "Slopewise results" || len(sheets) != 5 || fileHash(t, w2.Backup) != hash1 {
 		t.Errorf("replace: %+v, %d sheets", w2, len(sheets))
 	}
 	now = now.Add(time.Minute)
@@ -393,5 +401,49 @@ func TestWriteBesideCSV(t *testing.T) {
 	w2, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
 	if err != nil || w2.Backup == "" {
 		t.Errorf("second run with replace: %+v %v", w2, err)
+	}
+}
+
+func TestWriteCopyOfWorkbookWithLostFeature(t *testing.T) {
+	dir := t.TempDir()
+	src := withWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).write(t, dir, "shared.xlsx")
+	h := fileHash(t, src)
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "shared copy.xlsx")})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(w.Lost) != 1 || w.Lost[0] != "a read-only recommendation or a password to modify" || fileHash(t, src) != h {
+		t.Errorf("copy: %+v", w)
+	}
+}
+
+func TestReplaceFailureIsNamed(t *testing.T) {
+	dir := t.TempDir()
+	target := filepath.Join(dir, "book.xlsx")
+	info, err := os.Stat(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	err = replaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
+	if !errors.Is(err, ErrCannotReplace) || !strings.HasPrefix(err.Error(), fmt.Sprintf("%q: ", target)) {
+		t.Errorf("rename failure: %v", err)
+	}
+}
+
+func TestWriteThroughSymlink(t *testing.T) {
+	dir := t.TempDir()
+	real := simpleBook().write(t, dir, "real.xlsx")
+	link := filepath.Join(dir, "link.xlsx")
+	if err := os.Symlink(real, link); err != nil {
+		t.Skip("no symbolic links here")
+	}
+	if _, err := WriteResults(link, resultsGrid(t), WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
+		t.Error("the link was replaced by a file")
+	}
+	if sheets, _ := Sheets(real); len(sheets) != 2 {
+		t.Errorf("the linked file has sheets %v", sheets)
 	}
 }

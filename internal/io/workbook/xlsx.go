@@ -112,6 +112,17 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 	return p, nil
 }
 
+// byteSize writes a size for people.
+func byteSize(n int64) string {
+	switch {
+	case n >= 1<<30:
+		return fmt.Sprintf("%.1f GiB", float64(n)/(1<<30))
+	case n >= 1<<20:
+		return fmt.Sprintf("%.1f MiB", float64(n)/(1<<20))
+	}
+	return fmt.Sprintf("%d bytes", n)
+}
+
 // sizeLimits applies the defaults to the size limits asked for.
 func sizeLimits(limit, limitXML int64) (int64, int64) {
 	if limit <= 0 {
@@ -128,7 +139,7 @@ func excelizeOpenError(path string, err error, limit int64) error {
 	msg := err.Error()
 	switch {
 	case strings.Contains(msg, "unzip size exceeds"):
-		return &Error{Path: path, Cause: ErrTooLarge, Detail: fmt.Sprintf("the limit is %d MiB", limit>>20), Underlying: err}
+		return &Error{Path: path, Cause: ErrTooLarge, Detail: "the limit is " + byteSize(limit), Underlying: err}
 	case errors.Is(err, excelize.ErrWorkbookFileFormat), errors.Is(err, excelize.ErrWorkbookPassword):
 		return &Error{Path: path, Cause: ErrEncrypted, Underlying: err}
 	case errors.Is(err, zip.ErrFormat), errors.Is(err, io.ErrUnexpectedEOF), errors.Is(err, zip.ErrChecksum), errors.Is(err, zip.ErrAlgorithm):
@@ -313,7 +324,7 @@ func (p *xlsxPackage) openPart(name string, limit int64) (io.ReadCloser, error) 
 		return nil, fmt.Errorf("part %s is missing: %w", name, os.ErrNotExist)
 	}
 	if f.UncompressedSize64 > uint64(limit) {
-		return nil, &Error{Path: p.path, Cause: ErrTooLarge, Detail: fmt.Sprintf("part %s unpacks to %d MiB", name, f.UncompressedSize64>>20)}
+		return nil, &Error{Path: p.path, Cause: ErrTooLarge, Detail: fmt.Sprintf("part %s unpacks to %s; the limit is %s", name, byteSize(int64(min(f.UncompressedSize64, 1<<62))), byteSize(limit))}
 	}
 	return f.Open()
 }
