@@ -1,0 +1,50 @@
+// Package workbook reads an evaluator's workbook or text table into a
+// Table of named, typed columns, and writes a results sheet back without
+// damaging anything else in the file.
+//
+// # Reading
+//
+// Read takes .xlsx and .xlsm workbooks and .csv, .tsv and .txt files; every
+// other kind of file is refused with an *Error that says what it is and
+// what to do (an old .xls, a password-protected workbook, an OpenDocument
+// or Numbers file, a zip that is no workbook, a truncated or empty file).
+//
+// A workbook is opened with excelize (stored values, never displayed ones:
+// Options.RawCellValue, and explicit unzip size limits against crafted
+// files), and the chosen worksheet is then streamed row by row from its
+// zip part by sheetStream. excelize's own row iterator is not used for the
+// cells because it drops what the reader needs: whether a cell holds an
+// error value or text, its number format (so that dates are known), and
+// whether a formula has a saved result. Date serials are converted here,
+// minding the 1900 system's phantom 29 February and the 1904 system.
+// Everything format-specific sits behind the small rowSource interface,
+// so a faster reader can replace one implementation.
+//
+// A text file is sniffed for its encoding (UTF-8 with or without a byte
+// order mark, UTF-16 with one, else Windows-1252), its delimiter (',' ';'
+// tab '|'), and its decimal separator; quoted fields may span lines.
+//
+// The header row is found as the first row of mostly text, at least half
+// as wide as the table, above rows with more numbers; the caller may set
+// it. Columns become number, yes/no, category, text, date or empty. Each
+// cell that cannot be used is kept as missing with its Reason (blank, an
+// error value, a hand-typed marker, text among numbers, a formula without
+// a saved result, not a date), and Table.CellRef names any cell as
+// `sheet "Visits", cell D17`. Notes tell a person what the reader found
+// or did.
+//
+// # Writing
+//
+// WriteResults adds a report.Sheet to the workbook as a new sheet with a
+// name of its own. The original is only ever replaced by a rename, after
+// the new file has been written beside it, re-opened and checked sheet by
+// sheet (values and formulas) against the original, and after a
+// timestamped backup of the original has been made and read back. Only
+// the new sheet's parts are added; excelize re-serialises workbook.xml,
+// its relationships, [Content_Types].xml, styles.xml, the theme and
+// calcChain.xml, and every other part is copied byte for byte. Workbooks
+// that use a feature excelize would drop are refused in place with the
+// feature named, and can be written to a copy (WriteOptions.CopyTo). For a
+// text file, a new workbook "<name> results.xlsx" holds the data and the
+// results; the text file is never changed.
+package workbook
