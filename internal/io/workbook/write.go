@@ -167,6 +167,12 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		}
 		return nil, err
 	}
+	if inPlace {
+		// Someone may have saved the workbook while the results were made.
+		if now, err := os.ReadFile(src); err != nil || !bytes.Equal(now, orig) {
+			return nil, &Error{Path: src, Cause: ErrOpenElsewhere, Detail: "the file changed while the results were being written"}
+		}
+	}
 	if inPlace || fileExists(target) {
 		if w.Backup, err = backup(target, opts.Now()); err != nil {
 			return nil, err
