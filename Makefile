@@ -2,9 +2,12 @@
 # (.ci/run calls it); it installs what it needs on a fresh Debian machine.
 
 GO ?= go
-APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui
+# R and sandwich: the engine's independent check; LibreOffice: workbook
+# interop; gcc, GL and X11 headers: building the window (cgo).
+GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
+APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo go-test crosscheck-r bench vet
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet
 
 test: deps vet go-test fuzz
 
@@ -21,8 +24,16 @@ deps:
 	fi
 	$(GO) mod download
 
-# What building the program needs (Go modules only, for now).
+# What building the program needs: the GL and X11 headers, Go modules.
 build-deps:
+	@missing=""; for p in $(GUI_PACKAGES); do \
+	  dpkg -s $$p >/dev/null 2>&1 || missing="$$missing $$p"; done; \
+	if [ -n "$$missing" ]; then \
+	  echo "installing:$$missing"; \
+	  SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
+	  $$SUDO apt-get update -qq && \
+	  DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
+	fi
 	$(GO) mod download
 
 build: build-deps
@@ -38,6 +49,10 @@ demo: build
 	  --controls age,baseline_score --cluster site --randomized --planned
 	@echo
 	@echo "Open demo-output/slopewise-demo.xlsx and look at the sheet \"Results\"."
+
+# Pictures of every screen for the README, from a real window under Xvfb.
+screenshots: build
+	scripts/screenshots.sh bin/slopewise docs/screenshots
 
 vet:
 	$(GO) vet ./...

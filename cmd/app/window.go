@@ -1,0 +1,35 @@
+package main
+
+import (
+	"fmt"
+	"os"
+
+	"fyne.io/fyne/v2/app"
+
+	"slopewise/internal/gui"
+)
+
+// appID is the application's identity for preferences and packaging.
+const appID = "org.slopewise.desktop"
+
+// window opens the desktop program, with a workbook if a path is given.
+// SLOPEWISE_TOUR=DIR instead walks through every screen on the demo,
+// saves a picture of each into DIR and quits (for the README's pictures).
+func window(path string) int {
+	a := app.NewWithID(appID)
+	w := a.NewWindow("Slopewise")
+	u := gui.New(a, w, gui.Options{Version: version})
+	w.Resize(gui.Size(a))
+	if dir := os.Getenv("SLOPEWISE_TOUR"); dir != "" {
+		go u.Tour(dir, func(err error) {
+			if err != nil {
+				fmt.Fprintln(os.Stderr, "slopewise: tour:", err)
+			}
+			a.Quit()
+		})
+	} else if path != "" {
+		u.Open(path)
+	}
+	w.ShowAndRun()
+	return 0
+}

@@ -1,0 +1,319 @@
+package gui
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/dialog"
+	"fyne.io/fyne/v2/storage"
+	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/pipeline"
+)
+
+// findingsScreen is step 5: the results sheet as the workbook will hold
+// it, and saving it.
+type findingsScreen struct {
+	u         *UI
+	saveBtn   *widget.Button
+	copyBtn   *widget.Button
+	undoBtn   *widget.Button
+	savedNote *widget.Label
+	view      fyne.CanvasObject
+}
+
+func newFindingsScreen(u *UI) *findingsScreen {
+	s := &findingsScreen{u: u}
+	s.saveBtn = widget.NewButtonWithIcon("Add the results to the workbook", theme.DocumentSaveIcon(), s.save)
+	s.saveBtn.Importance = widget.HighImportance
+	s.copyBtn = widget.NewButtonWithIcon("Save a copy…", theme.ContentCopyIcon(), s.saveCopy)
+	s.undoBtn = widget.NewButtonWithIcon("Put the original back", theme.ContentUndoIcon(), s.restore)
+	s.savedNote = widget.NewLabel("")
+	s.savedNote.Wrapping = fyne.TextWrapWord
+	return s
+}
+
+// startRun fits the model off the UI thread, with a progress bar and a
+// cancel button.
+func (u *UI) startRun() {
+	spec, err := u.rolesScreen.spec()
+	if err != nil {
+		u.showMessage("Roles", err.Error())
+		return
+	}
+	o := u.optionsScreen
+	spec.Variance = o.variance()
+	spec.Alpha = o.alpha()
+	run := u.run
+	run.Spec = spec
+	run.Randomized = o.randomized.Checked
+	run.Planned = o.planned.Checked
+	run.Version = u.opts.Version
+	run.Time = u.opts.Now()
+
+	ctx, cancel := context.WithCancel(context.Background())
+	u.cancel = cancel
+	o.progress.Start()
+	o.running.Objects = []fyne.CanvasObject{widget.NewLabel("Fitting the model…"), container.NewBorder(nil, nil, nil, o.cancelBtn, o.progress)}
+	o.running.Refresh()
+	u.updateBar()
+	u.setStatus("Fitting the model…")
+	table := u.table
+	var a *pipeline.Analysis
+	u.background(func() error {
+		var err error
+		a, err = pipeline.AnalyzeTable(ctx, run, table)
+		if err == nil && ctx.Err() != nil {
+			err = ctx.Err()
+		}
+		return err
+	}, func(err error) {
+		cancel()
+		u.cancel = nil
+		o.progress.Stop()
+		o.running.Objects = nil
+		o.running.Refresh()
+		switch {
+		case errors.Is(err, context.Canceled):
+			u.setStatus("Cancelled; nothing was changed.")
+			u.updateBar()
+			return
+		case err != nil:
+			u.setStatus("")
+			u.updateBar()
+			u.showError("The model could not be fitted.", err)
+			return
+		}
+		u.analysis, u.written = a, nil
+		u.setStatus(fmt.Sprintf("Done: %d rows used, %d left out.", a.Result.Rows.Used, a.Result.Rows.Dropped))
+		u.findingsScreen.rebuild()
+		u.reach(stepFindings)
+		u.show(stepFindings)
+	})
+}
+
+// rebuild renders the results sheet: the findings in short, the chart,
+// and the whole sheet as the workbook will hold it.
+func (s *findingsScreen) rebuild() {
+	sh := s.u.analysis.Sheet
+	s.view = container.NewAppTabs(
+		container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "cautions")),
+		container.NewTabItem("Chart", sheetView(sh, "chart")),
+		container.NewTabItem("The whole sheet", sheetView(sh)),
+	)
+	s.savedNote.SetText("")
+	s.saveBtn.Enable()
+	s.undoBtn.Hide()
+}
+
+func (s *findingsScreen) content() fyne.CanvasObject {
+	if s.u.analysis == nil {
+		return widget.NewLabel("Run the analysis to see the findings.")
+	}
+	target := filepath.Base(s.u.path)
+	if !isWorkbook(s.u.path) {
+		target = filepath.Base(workbook.ResultsPathFor(s.u.path))
+	}
+	where := widget.NewLabel(fmt.Sprintf("This is the sheet that will be added to %s. Nothing has been written yet.", target))
+	where.Wrapping = fyne.TextWrapWord
+	if s.u.written != nil {
+		where.SetText("Saved.")
+	}
+	actions := container.NewHBox(s.saveBtn, s.copyBtn, s.undoBtn)
+	top := container.NewVBox(heading("What we found"), where, actions, s.savedNote)
+	return container.NewBorder(top, nil, nil, nil, s.view)
+}
+
+func isWorkbook(path string) bool {
+	ext := strings.ToLower(filepath.Ext(path))
+	return ext == ".xlsx" || ext == ".xlsm"
+}
+
+// save adds the results sheet to the workbook (or writes the workbook
+// beside a text file).
+func (s *findingsScreen) save() { s.write("") }
+
+// saveCopy asks where, then writes the workbook with the results there.
+func (s *findingsScreen) saveCopy() {
+	u := s.u
+	suggested := strings.TrimSuffix(filepath.Base(u.path), filepath.Ext(u.path)) + " with results.xlsx"
+	if u.opts.ChooseSave != nil {
+		u.opts.ChooseSave(suggested, s.write)
+		return
+	}
+	d := dialog.NewFileSave(func(w fyne.URIWriteCloser, err error) {
+		if err != nil {
+			u.showError("The place for the copy could not be chosen.", err)
+			return
+		}
+		if w == nil {
+			return
+		}
+		path := w.URI().Path()
+		w.Close()
+		os.Remove(path) // the writer creates the file itself, atomically
+		s.write(path)
+	}, u.win)
+	d.SetFileName(suggested)
+	d.SetFilter(storage.NewExtensionFileFilter([]string{".xlsx"}))
+	if l, err := storage.ListerForURI(storage.NewFileURI(filepath.Dir(u.path))); err == nil {
+		d.SetLocation(l)
+	}
+	d.Resize(fyne.NewSize(800, 560))
+	d.Show()
+}
+
+// write saves in place (copyTo empty) or to a copy, off the UI thread.
+func (s *findingsScreen) write(copyTo string) {
+	u := s.u
+	a := u.analysis
+	u.setStatus("Saving…")
+	s.saveBtn.Disable()
+	var w *workbook.Written
+	u.background(func() error {
+		var err error
+		w, err = a.Save(workbook.WriteOptions{CopyTo: copyTo, Now: u.opts.Now})
+		return err
+	}, func(err error) {
+		if err != nil {
+			s.saveBtn.Enable()
+			u.setStatus("")
+			s.saveFailed(err)
+			return
+		}
+		u.written = w
+		msg := fmt.Sprintf("The results are in %s, sheet %q.", w.Path, w.Sheet)
+		if w.Backup != "" {
+			msg += fmt.Sprintf(" The file as it was is kept as %s.", filepath.Base(w.Backup))
+			s.undoBtn.Show()
+		}
+		if len(w.Lost) > 0 {
+			msg += " The copy does not keep: " + strings.Join(w.Lost, "; ") + "."
+		}
+		s.savedNote.SetText(msg)
+		u.setStatus("Saved.")
+		dialog.ShowInformation("Saved", msg, u.win)
+	})
+}
+
+// saveFailed explains a failed save and, when writing in place cannot
+// work, offers the copy.
+func (s *findingsScreen) saveFailed(err error) {
+	u := s.u
+	inPlace := errors.Is(err, workbook.ErrOpenElsewhere) || errors.Is(err, workbook.ErrCannotReplace) ||
+		errors.Is(err, workbook.ErrWouldLose) || errors.Is(err, workbook.ErrFolderReadOnly)
+	if !inPlace {
+		u.showError("The results could not be saved. Your workbook is unchanged.", err)
+		return
+	}
+	msg := widget.NewLabel("The results could not be added to the workbook. Your workbook is unchanged.\n\n" + plain(err))
+	msg.Wrapping = fyne.TextWrapWord
+	d := dialog.NewCustomConfirm("Not saved", "Save a copy instead", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(copy bool) {
+		if copy {
+			s.saveCopy()
+		}
+	}, u.win)
+	d.Show()
+}
+
+// restore puts the backup back in place of the workbook, after asking.
+func (s *findingsScreen) restore() {
+	u := s.u
+	w := u.written
+	if w == nil || w.Backup == "" {
+		return
+	}
+	dialog.ShowConfirm("Put the original back?",
+		fmt.Sprintf("This replaces %s with the copy kept before Slopewise wrote to it (%s). The results sheet will be gone from the workbook.", filepath.Base(w.Path), filepath.Base(w.Backup)),
+		func(ok bool) {
+			if !ok {
+				return
+			}
+			if err := restoreBackup(w.Backup, w.Path); err != nil {
+				u.showError("The original could not be put back. Both files are as they were.", err)
+				return
+			}
+			s.undoBtn.Hide()
+			s.savedNote.SetText(fmt.Sprintf("%s is back as it was before the results were added.", filepath.Base(w.Path)))
+			u.written = nil
+		}, u.win)
+}
+
+// chooseRestore picks any backup Slopewise made and puts it back.
+func (u *UI) chooseRestore() {
+	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
+		if err != nil || r == nil {
+			return
+		}
+		backup := r.URI().Path()
+		r.Close()
+		target, ok := backupTarget(backup)
+		if !ok {
+			u.showMessage("Not a backup", "Choose a file whose name contains “(before Slopewise …)”: that is how Slopewise names the copies it keeps.")
+			return
+		}
+		dialog.ShowConfirm("Put this backup back?", fmt.Sprintf("This replaces %s with %s.", filepath.Base(target), filepath.Base(backup)), func(ok bool) {
+			if !ok {
+				return
+			}
+			if err := restoreBackup(backup, target); err != nil {
+				u.showError("The backup could not be put back. Both files are as they were.", err)
+				return
+			}
+			u.showMessage("Put back", filepath.Base(target)+" is as it was when the backup was made.")
+		}, u.win)
+	}, u.win)
+	if dir := u.app.Preferences().String(prefFolder); dir != "" {
+		if l, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
+			d.SetLocation(l)
+		}
+	}
+	d.Show()
+}
+
+// backupTarget is the workbook a backup was made of: "name (before
+// Slopewise 2026-01-02 10.11.12).xlsx" belongs to "name.xlsx".
+func backupTarget(backup string) (string, bool) {
+	dir, base := filepath.Split(backup)
+	i := strings.Index(base, " (before Slopewise ")
+	j := strings.LastIndex(base, ")")
+	if i < 0 || j < i {
+		return "", false
+	}
+	return filepath.Join(dir, base[:i]+base[j+1:]), true
+}
+
+// restoreBackup copies the backup over the target through a temporary
+// file and a rename, so the target is never half-written; the backup stays.
+func restoreBackup(backup, target string) error {
+	in, err := os.Open(backup)
+	if err != nil {
+		return err
+	}
+	defer in.Close()
+	tmp, err := os.CreateTemp(filepath.Dir(target), ".slopewise-restore-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(tmp.Name())
+	if _, err := io.Copy(tmp, in); err != nil {
+		tmp.Close()
+		return err
+	}
+	if err := tmp.Close(); err != nil {
+		return err
+	}
+	if info, err := os.Stat(target); err == nil {
+		os.Chmod(tmp.Name(), info.Mode().Perm())
+	}
+	return os.Rename(tmp.Name(), target)
+}

@@ -1,0 +1,366 @@
+package gui
+
+import (
+	"flag"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"testing"
+	"time"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+	"github.com/xuri/excelize/v2"
+
+	"slopewise/internal/pipeline"
+)
+
+var update = flag.Bool("update", false, "rewrite the golden renders in testdata/")
+
+// harness is a window with the UI on the test driver, and a channel that
+// receives when a background job has finished.
+type harness struct {
+	t    *testing.T
+	u    *UI
+	w    fyne.Window
+	idle chan struct{}
+}
+
+// fixedDir is a folder with the same path on every run, so that the
+// golden renders (which show file names) do not change.
+func fixedDir(t *testing.T, name string) string {
+	dir := filepath.Join(os.TempDir(), "slopewise-gui-test", name)
+	os.RemoveAll(dir)
+	if err := os.MkdirAll(dir, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { os.RemoveAll(dir) })
+	return dir
+}
+
+func newHarness(t *testing.T, opts Options) *harness {
+	a := test.NewTempApp(t)
+	w := test.NewTempWindow(t, nil)
+	if opts.DemoDir == "" {
+		opts.DemoDir = fixedDir(t, "demo")
+	}
+	if opts.Version == "" {
+		opts.Version = "test"
+	}
+	opts.Now = func() time.Time { return time.Date(2026, 3, 2, 10, 0, 0, 0, time.UTC) }
+	u := New(a, w, opts)
+	h := &harness{t: t, u: u, w: w, idle: make(chan struct{}, 4)}
+	u.onIdle = func() { h.idle <- struct{}{} }
+	w.Resize(fyne.NewSize(1100, 760))
+	return h
+}
+
+// wait blocks until the next background job has finished.
+func (h *harness) wait() {
+	h.t.Helper()
+	select {
+	case <-h.idle:
+	case <-time.After(30 * time.Second):
+		h.t.Fatal("a background job did not finish")
+	}
+}
+
+// golden compares the window with testdata/<name>.xml, or rewrites it
+// with -update.
+func (h *harness) golden(name string) {
+	h.t.Helper()
+	file := name + ".xml"
+	if *update {
+		if err := os.WriteFile(filepath.Join("testdata", file), []byte(test.RenderToMarkup(h.w.Canvas())), 0o644); err != nil {
+			h.t.Fatal(err)
+		}
+		return
+	}
+	test.AssertRendersToMarkup(h.t, file, h.w.Canvas())
+}
+
+// overlayText is all the text of the dialog on top, or "".
+func (h *harness) overlayText() string {
+	top := h.w.Canvas().Overlays().Top()
+	if top == nil {
+		return ""
+	}
+	var b strings.Builder
+	for _, o := range test.LaidOutObjects(top) {
+		switch l := o.(type) {
+		case *widget.Label:
+			b.WriteString(l.Text + "\n")
+		case *widget.Button:
+			b.WriteString("[" + l.Text + "]\n")
+		}
+	}
+	return b.String()
+}
+
+func (h *harness) tapButton(label string) {
+	h.t.Helper()
+	top := h.w.Canvas().Overlays().Top()
+	if top == nil {
+		h.t.Fatalf("no dialog with a %q button", label)
+	}
+	for _, o := range test.LaidOutObjects(top) {
+		if b, ok := o.(*widget.Button); ok && b.Text == label {
+			test.Tap(b)
+			return
+		}
+	}
+	h.t.Fatalf("no %q button in the dialog:\n%s", label, h.overlayText())
+}
+
+// TestWholePath drives the real widgets from "Try the demo" to the saved
+// workbook and checks the saved results sheet against the analysis, with
+// a golden render of every screen.
+func TestWholePath(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.golden("1-workbook")
+
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	if u.current != stepRows || u.table == nil || u.table.Len() != 1200 {
+		t.Fatalf("after opening the demo: step %d, table %v", u.current, u.table != nil)
+	}
+	if got := u.rowsScreen.sheet.Selected; got != "Participants" {
+		t.Errorf("sheet %q, want Participants", got)
+	}
+	if u.table.HeaderRow != 3 || u.rowsScreen.header.Text != "3" {
+		t.Errorf("header row %d / %q, want 3", u.table.HeaderRow, u.rowsScreen.header.Text)
+	}
+	h.golden("2-rows")
+
+	test.Tap(u.next)
+	if u.current != stepRoles {
+		t.Fatalf("Next from rows went to step %d", u.current)
+	}
+	r := u.rolesScreen
+	if r.treatment.Selected != "coached" || r.outcome.Selected != "earnings_6m" {
+		t.Errorf("defaults: treatment %q, outcome %q", r.treatment.Selected, r.outcome.Selected)
+	}
+	r.moderator.SetSelected("region")
+	if r.modKind.Selected != kindGroups {
+		t.Errorf("region read as %q, want groups", r.modKind.Selected)
+	}
+	r.cluster.SetSelected("site")
+	r.controls.SetSelected([]string{"age", "baseline_score"})
+	if !strings.Contains(checksText(r), "only 24 clusters") {
+		t.Errorf("no few-clusters check:\n%s", checksText(r))
+	}
+	h.golden("3-roles")
+
+	test.Tap(u.next)
+	o := u.optionsScreen
+	if o.se.Selected != "Clustered by site (CR1)" {
+		t.Errorf("default standard errors %q with a cluster, want CR1", o.se.Selected)
+	}
+	test.Tap(o.randomized)
+	test.Tap(o.planned)
+	h.golden("4-judging")
+
+	test.Tap(u.next) // run
+	h.wait()
+	if u.current != stepFindings || u.analysis == nil {
+		t.Fatalf("after running: step %d", u.current)
+	}
+	res := u.analysis.Result
+	if res.Model.Clusters != 24 || len(res.Effects) != 4 || !u.analysis.Run.Randomized {
+		t.Errorf("the run: %d clusters, %d effects, randomized %v", res.Model.Clusters, len(res.Effects), u.analysis.Run.Randomized)
+	}
+	h.golden("5-findings")
+
+	test.Tap(u.findingsScreen.saveBtn)
+	h.wait()
+	if u.written == nil || u.written.Backup == "" {
+		t.Fatalf("not saved: %s", h.overlayText())
+	}
+	if !strings.Contains(h.overlayText(), "kept as") {
+		t.Errorf("the saved dialog does not mention the backup:\n%s", h.overlayText())
+	}
+	checkSavedSheet(t, u.written.Path, u.written.Sheet, u.analysis)
+
+	// Put the original back: the backup's bytes return.
+	backup, _ := os.ReadFile(u.written.Backup)
+	h.tapButton("OK")
+	test.Tap(u.findingsScreen.undoBtn)
+	h.tapButton("Yes")
+	after, _ := os.ReadFile(filepath.Join(u.opts.DemoDir, "slopewise-demo.xlsx"))
+	if string(after) != string(backup) {
+		t.Error("putting the original back did not restore the backup's bytes")
+	}
+}
+
+func checksText(r *rolesScreen) string {
+	var b strings.Builder
+	for _, c := range r.lastChecks {
+		b.WriteString(c.Message + "\n")
+	}
+	return b.String()
+}
+
+// checkSavedSheet reads the saved workbook and compares the effect table
+// with the analysis, value by value as stored.
+func checkSavedSheet(t *testing.T, path, sheet string, a *pipeline.Analysis) {
+	t.Helper()
+	f, err := excelize.OpenFile(path, excelize.Options{RawCellValue: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := f.GetRows(sheet, excelize.Options{RawCellValue: true})
+	if err != nil {
+		t.Fatal(err)
+	}
+	found := 0
+	for _, e := range a.Result.Effects {
+		label := e.Group
+		if e.Reference {
+			label += " (reference)"
+		}
+		for _, row := range rows {
+			if len(row) >= 9 && row[0] == label {
+				v, _ := strconv.ParseFloat(row[4], 64)
+				lo, _ := strconv.ParseFloat(row[6], 64)
+				if v != e.Estimate || lo != e.CILow {
+					t.Errorf("group %s: sheet %v %v, analysis %v %v", label, v, lo, e.Estimate, e.CILow)
+				}
+				found++
+				break
+			}
+		}
+	}
+	if found != len(a.Result.Effects) {
+		t.Errorf("found %d of %d effect rows in the saved sheet", found, len(a.Result.Effects))
+	}
+}
+
+// TestChecksBeforeRunning shows each kind of check on the roles screen.
+func TestChecksBeforeRunning(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(u.next)
+	r := u.rolesScreen
+	cases := []struct {
+		name  string
+		set   func()
+		words string
+		block bool
+	}{
+		// Hundreds of one-row groups: a warning about the kind, and groups
+		// where the treatment cannot vary block the run.
+		{"number read as groups", func() { r.moderator.SetSelected("baseline_score"); r.modKind.SetSelected(kindGroups) }, "different numbers. Treat it as a number", true},
+		{"treatment constant in a group", func() { r.moderator.SetSelected("baseline_score"); r.modKind.SetSelected(kindGroups) }, "the treatment never varies", true},
+		{"few clusters", func() { r.moderator.SetSelected("region"); r.cluster.SetSelected("site") }, "only 24 clusters", false},
+		{"small group", func() { r.cluster.SetSelected(none); r.moderator.SetSelected("age"); r.modKind.SetSelected(kindGroups) }, "The smallest group", false},
+		{"two groups that are more", func() { r.moderator.SetSelected("region"); r.modKind.SetSelected(kindTwo) }, "chosen as two groups but has 4", true},
+		{"bad values to report at", func() {
+			r.moderator.SetSelected("baseline_score")
+			r.modKind.SetSelected(kindNumber)
+			r.probes.SetText("20, fifty")
+		}, `"fifty" is not a number`, true},
+		{"a clean choice", func() { r.probes.SetText("20, 50"); r.moderator.SetSelected("first_time") }, "will be left out", false},
+	}
+	for _, c := range cases {
+		c.set()
+		if !strings.Contains(checksText(r), c.words) {
+			t.Errorf("%s: the checks do not say %q:\n%s", c.name, c.words, checksText(r))
+		}
+		if c.block != u.next.Disabled() {
+			t.Errorf("%s: Next disabled = %v, want %v", c.name, u.next.Disabled(), c.block)
+		}
+	}
+}
+
+// TestUnreadableFile shows the error dialog for a file that is not a
+// workbook, in plain words, and stays on the first step.
+func TestUnreadableFile(t *testing.T) {
+	dir := fixedDir(t, "bad")
+	bad := filepath.Join(dir, "notes.xlsx")
+	if err := os.WriteFile(bad, []byte("not a workbook at all"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	h := newHarness(t, Options{ChooseOpen: func(done func(string)) { done(bad) }})
+	test.Tap(h.u.openScreen.openBtn)
+	h.wait()
+	text := h.overlayText()
+	if !strings.Contains(text, "This file could not be opened.") || !strings.Contains(text, "notes.xlsx") {
+		t.Errorf("dialog:\n%s", text)
+	}
+	if h.u.current != stepWorkbook || h.u.table != nil {
+		t.Errorf("moved on after a failed open")
+	}
+}
+
+// TestLockedWorkbook: a workbook open in a spreadsheet program (its lock
+// file beside it) is not written; the dialog offers a copy, and the copy
+// is written where chosen.
+func TestLockedWorkbook(t *testing.T) {
+	copyDir := fixedDir(t, "copy")
+	copyPath := filepath.Join(copyDir, "with results.xlsx")
+	h := newHarness(t, Options{ChooseSave: func(_ string, done func(string)) { done(copyPath) }})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	path := filepath.Join(u.opts.DemoDir, "slopewise-demo.xlsx")
+	before, _ := os.ReadFile(path)
+	if err := os.WriteFile(filepath.Join(u.opts.DemoDir, "~$slopewise-demo.xlsx"), []byte("lock"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	test.Tap(u.next)
+	u.rolesScreen.moderator.SetSelected("first_time")
+	test.Tap(u.next)
+	test.Tap(u.next)
+	h.wait()
+	test.Tap(u.findingsScreen.saveBtn)
+	h.wait()
+	text := h.overlayText()
+	if !strings.Contains(text, "Your workbook is unchanged") || !strings.Contains(text, "[Save a copy instead]") {
+		t.Fatalf("dialog:\n%s", text)
+	}
+	if after, _ := os.ReadFile(path); string(after) != string(before) {
+		t.Error("the locked workbook changed")
+	}
+	h.tapButton("Save a copy instead")
+	h.wait()
+	if u.written == nil || u.written.Path != copyPath {
+		t.Fatalf("the copy was not written: %+v\n%s", u.written, h.overlayText())
+	}
+}
+
+// TestBackupTarget checks how a backup's name leads back to its workbook.
+func TestBackupTarget(t *testing.T) {
+	got, ok := backupTarget("/data/visits (before Slopewise 2026-01-02 10.11.12).xlsx")
+	if !ok || got != "/data/visits.xlsx" {
+		t.Errorf("got %q %v", got, ok)
+	}
+	if _, ok := backupTarget("/data/visits.xlsx"); ok {
+		t.Error("a plain workbook taken for a backup")
+	}
+}
+
+// TestFormatNumber checks the display formats the report uses (the same
+// notation as the spreadsheet's; common practice).
+func TestFormatNumber(t *testing.T) {
+	for _, c := range []struct {
+		v      float64
+		format string
+		want   string
+	}{
+		{1234.5678, "0.000", "1234.568"},
+		{1234567, "#,##0", "1,234,567"},
+		{-1234.5, "#,##0.00", "-1,234.50"},
+		{0.000012346, "0.000E+00", "1.235E-05"},
+		{3, "0", "3"},
+	} {
+		if got := formatNumber(c.v, c.format); got != c.want {
+			t.Errorf("formatNumber(%v, %q) = %q, want %q", c.v, c.format, got, c.want)
+		}
+	}
+}

@@ -1,0 +1,142 @@
+package gui
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+
+	"slopewise/assets"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/pipeline"
+	"slopewise/internal/report"
+)
+
+// openScreen is step 1: choose the workbook.
+type openScreen struct {
+	u        *UI
+	openBtn  *widget.Button
+	demoBtn  *widget.Button
+	recent   *fyne.Container
+	fileInfo *widget.Label
+}
+
+func newOpenScreen(u *UI) *openScreen {
+	s := &openScreen{u: u}
+	s.openBtn = widget.NewButtonWithIcon("Open a workbook…", theme.FolderOpenIcon(), u.chooseOpen)
+	s.openBtn.Importance = widget.HighImportance
+	s.demoBtn = widget.NewButtonWithIcon("Try the demo", theme.MediaPlayIcon(), u.openDemo)
+	s.recent = container.NewVBox()
+	s.fileInfo = widget.NewLabel("")
+	s.fileInfo.Wrapping = fyne.TextWrapWord
+	return s
+}
+
+func (s *openScreen) content() fyne.CanvasObject {
+	s.recent.Objects = nil
+	for _, p := range s.u.recentFiles() {
+		p := p
+		b := widget.NewButtonWithIcon(filepath.Base(p)+"  —  "+filepath.Dir(p), theme.DocumentIcon(), func() { s.u.open(p) })
+		b.Alignment = widget.ButtonAlignLeading
+		s.recent.Add(b)
+	}
+	if len(s.recent.Objects) == 0 {
+		none := widget.NewLabel("Workbooks you open will be listed here.")
+		none.Importance = widget.LowImportance
+		s.recent.Add(none)
+	}
+	s.fileInfo.SetText(s.describe())
+	intro := widget.NewLabel("Which workbook holds your data? Slopewise reads Excel workbooks (.xlsx, .xlsm) and text tables (.csv, .tsv, .txt). It only adds a results sheet, and keeps a backup of the file as it was.")
+	intro.Wrapping = fyne.TextWrapWord
+	drop := widget.NewLabel("You can also drop a file onto this window.")
+	drop.Importance = widget.LowImportance
+	return container.NewVScroll(container.NewVBox(
+		heading("Choose a workbook"),
+		intro,
+		container.NewHBox(s.openBtn, s.demoBtn),
+		drop,
+		s.fileInfo,
+		widget.NewSeparator(),
+		subheading("Recently opened"),
+		s.recent,
+	))
+}
+
+func (s *openScreen) describe() string {
+	u := s.u
+	if u.table == nil {
+		return ""
+	}
+	return fmt.Sprintf("Open: %s — %d rows of data, %d columns.", u.path, u.table.Len(), len(u.table.Columns))
+}
+
+// open reads a workbook's sheet list and its first sheet, off the UI
+// thread, then moves to the rows step.
+func (u *UI) open(path string) {
+	u.setStatus("Reading " + filepath.Base(path) + "…")
+	var sheets []workbook.SheetInfo
+	var table *workbook.Table
+	u.background(func() error {
+		var err error
+		if sheets, err = workbook.Sheets(path); err != nil {
+			return err
+		}
+		table, err = pipeline.Read(context.Background(), report.Run{File: path, Sheet: firstWorksheet(sheets)}, nil)
+		return err
+	}, func(err error) {
+		if err != nil {
+			u.setStatus("")
+			u.showError("This file could not be opened.", err)
+			return
+		}
+		u.path, u.sheets, u.table = path, sheets, table
+		u.run = report.Run{File: path, Sheet: table.Sheet, HeaderRow: table.HeaderRow, Version: u.opts.Version}
+		u.remember(path)
+		u.forget(stepWorkbook)
+		u.rowsScreen.reset()
+		u.rolesScreen.reset()
+		u.setStatus(fmt.Sprintf("%s: %d rows, %d columns", filepath.Base(path), table.Len(), len(table.Columns)))
+		u.reach(stepRows)
+		u.show(stepRows)
+	})
+}
+
+// firstWorksheet is the first visible worksheet's name ("" for text files).
+func firstWorksheet(sheets []workbook.SheetInfo) string {
+	for _, s := range sheets {
+		if s.Worksheet && !s.Hidden {
+			return s.Name
+		}
+	}
+	return ""
+}
+
+// openDemo writes the demonstration workbook to a folder of its own and
+// opens it.
+func (u *UI) openDemo() {
+	dir := u.opts.DemoDir
+	if dir == "" {
+		base, err := os.UserHomeDir()
+		if err != nil {
+			base = os.TempDir()
+		}
+		dir = filepath.Join(base, "Slopewise demo")
+	}
+	path := filepath.Join(dir, "slopewise-demo.xlsx")
+	if _, err := os.Stat(path); err != nil {
+		if err := os.MkdirAll(dir, 0o755); err != nil {
+			u.showError("The demo workbook could not be written.", err)
+			return
+		}
+		if err := os.WriteFile(path, assets.DemoWorkbook, 0o644); err != nil {
+			u.showError("The demo workbook could not be written.", err)
+			return
+		}
+	}
+	u.open(path)
+}

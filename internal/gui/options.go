@@ -1,0 +1,136 @@
+package gui
+
+import (
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/widget"
+
+	"slopewise/internal/estimate"
+)
+
+// seChoice is one standard-error type with its explanation.
+type seChoice struct {
+	label string
+	vt    estimate.VarianceType
+	why   string
+}
+
+var seChoices = []seChoice{
+	{"Robust (HC3)", estimate.HC3, "Allows the outcome to vary more in some groups than others; the safest choice for most data, especially under a few hundred rows."},
+	{"Robust (HC2)", estimate.HC2, "Like HC3 but a little less cautious."},
+	{"Robust (HC1)", estimate.HC1, "The common robust choice in large samples; scaled for the number of terms."},
+	{"Robust (HC0)", estimate.HC0, "The original robust formula; too optimistic in small samples."},
+	{"Classical", estimate.Classical, "Assumes the outcome varies equally everywhere; only when you have reason to believe that."},
+	{"Clustered by site (CR1)", estimate.CR1, "Rows of the same site or group are alike; needs a cluster column and, ideally, 40 or more clusters."},
+}
+
+// Confidence levels offered, as α.
+var alphaChoices = []struct {
+	label string
+	alpha float64
+}{
+	{"95% (α = 0.05)", 0.05},
+	{"90% (α = 0.10)", 0.10},
+	{"99% (α = 0.01)", 0.01},
+}
+
+// optionsScreen is step 4: how to judge the results.
+type optionsScreen struct {
+	u          *UI
+	se         *widget.RadioGroup
+	seWhy      *widget.Label
+	randomized *widget.Check
+	planned    *widget.Check
+	level      *widget.Select
+	progress   *widget.ProgressBarInfinite
+	cancelBtn  *widget.Button
+	running    *fyne.Container
+}
+
+func newOptionsScreen(u *UI) *optionsScreen {
+	s := &optionsScreen{u: u}
+	var labels []string
+	for _, c := range seChoices {
+		labels = append(labels, c.label)
+	}
+	s.seWhy = widget.NewLabel("")
+	s.seWhy.Wrapping = fyne.TextWrapWord
+	s.se = widget.NewRadioGroup(labels, func(string) { s.explain() })
+	s.randomized = widget.NewCheck("The treatment was randomly assigned (a lottery, not a choice)", func(bool) { u.forget(stepOptions) })
+	s.planned = widget.NewCheck("I chose this moderator before looking at the results", func(bool) { u.forget(stepOptions) })
+	var levels []string
+	for _, a := range alphaChoices {
+		levels = append(levels, a.label)
+	}
+	s.level = widget.NewSelect(levels, func(string) { u.forget(stepOptions) })
+	s.level.SetSelectedIndex(0)
+	s.progress = widget.NewProgressBarInfinite()
+	s.progress.Stop()
+	s.cancelBtn = widget.NewButton("Cancel", func() {
+		if u.cancel != nil {
+			u.cancel()
+		}
+	})
+	s.running = container.NewVBox()
+	return s
+}
+
+// defaultSE is the recommended type for the current roles.
+func (s *optionsScreen) defaultSE() string {
+	spec, _ := s.u.rolesScreen.spec()
+	if spec.Cluster != "" {
+		return seChoices[5].label
+	}
+	return seChoices[0].label
+}
+
+func (s *optionsScreen) explain() {
+	for _, c := range seChoices {
+		if c.label == s.se.Selected {
+			words := c.why
+			if c.label == s.defaultSE() {
+				words += " (Chosen for you.)"
+			}
+			s.seWhy.SetText(words)
+		}
+	}
+	s.u.forget(stepOptions)
+	s.u.updateBar()
+}
+
+// variance is the chosen type, or the default for the roles.
+func (s *optionsScreen) variance() estimate.VarianceType {
+	for _, c := range seChoices {
+		if c.label == s.se.Selected {
+			return c.vt
+		}
+	}
+	return ""
+}
+
+func (s *optionsScreen) alpha() float64 {
+	return alphaChoices[max(s.level.SelectedIndex(), 0)].alpha
+}
+
+func (s *optionsScreen) content() fyne.CanvasObject {
+	spec, _ := s.u.rolesScreen.spec()
+	// The clustered type needs a cluster; the others ignore one.
+	if spec.Cluster == "" && s.se.Selected == seChoices[5].label || spec.Cluster != "" && s.se.Selected != seChoices[5].label || s.se.Selected == "" {
+		s.se.SetSelected(s.defaultSE())
+	}
+	intro := widget.NewLabel("How should the results be judged? The defaults suit most evaluations.")
+	intro.Wrapping = fyne.TextWrapWord
+	return container.NewVScroll(container.NewVBox(
+		heading("How to judge"),
+		intro,
+		subheading("Standard errors"),
+		s.se,
+		s.seWhy,
+		widget.NewSeparator(),
+		subheading("About the study"),
+		s.randomized,
+		s.planned,
+		widget.NewForm(widget.NewFormItem("Confidence intervals", s.level)),
+		s.running,
+	))
+}

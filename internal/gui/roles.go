@@ -1,0 +1,377 @@
+package gui
+
+import (
+	"fmt"
+	"strconv"
+	"strings"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/theme"
+	"fyne.io/fyne/v2/widget"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/pipeline"
+)
+
+const none = "(none)"
+
+// Words for the moderator's kinds in the window.
+const (
+	kindGroups = "Groups"
+	kindTwo    = "Two groups"
+	kindNumber = "A number"
+)
+
+// rolesScreen is step 3: which column is what.
+type rolesScreen struct {
+	u         *UI
+	outcome   *widget.Select
+	treatment *widget.Select
+	treated   *widget.Select
+	moderator *widget.Select
+	modKind   *widget.RadioGroup
+	reference *widget.Select
+	probes    *widget.Entry
+	centre    *widget.Entry
+	controls  *widget.CheckGroup
+	cluster   *widget.Select
+	weights   *widget.Select
+	checks    *fyne.Container
+	form      *fyne.Container // holds the current form; rebuilt as choices change
+
+	filling    bool
+	lastChecks []pipeline.Check
+}
+
+func newRolesScreen(u *UI) *rolesScreen {
+	s := &rolesScreen{u: u}
+	changed := func(string) { s.changed() }
+	s.outcome = widget.NewSelect(nil, changed)
+	s.treatment = widget.NewSelect(nil, func(string) { s.treatmentChanged(); s.changed() })
+	s.treated = widget.NewSelect(nil, changed)
+	s.moderator = widget.NewSelect(nil, func(string) { s.moderatorChanged(); s.changed() })
+	s.modKind = widget.NewRadioGroup([]string{kindGroups, kindTwo, kindNumber}, func(string) { s.kindChanged(); s.changed() })
+	s.modKind.Horizontal = true
+	s.reference = widget.NewSelect(nil, changed)
+	s.probes = widget.NewEntry()
+	s.probes.SetPlaceHolder("e.g. 20, 50, 80 — empty: the 10th to 90th percentiles")
+	s.probes.OnChanged = changed
+	s.centre = widget.NewEntry()
+	s.centre.SetPlaceHolder("empty: no centring")
+	s.centre.OnChanged = changed
+	s.controls = widget.NewCheckGroup(nil, func([]string) { s.changed() })
+	s.cluster = widget.NewSelect(nil, changed)
+	s.weights = widget.NewSelect(nil, changed)
+	s.checks = container.NewVBox()
+	s.form = container.NewStack()
+	s.layoutForm()
+	return s
+}
+
+// layoutForm shows the rows that apply to the current choices: which value
+// means treated for a treatment of labels, the comparison group for
+// groups, the values and centre for a number.
+func (s *rolesScreen) layoutForm() {
+	items := []*widget.FormItem{
+		widget.NewFormItem("Outcome — the result measured", s.outcome),
+		widget.NewFormItem("Treatment — who received the programme", s.treatment),
+	}
+	if tc := s.column(s.treatment.Selected); tc != nil && pipeline.TreatmentKind(tc, "") == estimate.TreatmentLabels {
+		items = append(items, widget.NewFormItem("Which value means treated?", s.treated))
+	}
+	items = append(items,
+		widget.NewFormItem("Moderator — compare the effect across", s.moderator),
+		widget.NewFormItem("The moderator is", s.modKind),
+	)
+	if s.column(s.moderator.Selected) != nil {
+		if s.modKind.Selected == kindNumber {
+			items = append(items,
+				widget.NewFormItem("Report the effect at", s.probes),
+				widget.NewFormItem("Centre at", s.centre))
+		} else {
+			items = append(items, widget.NewFormItem("Compare each group with", s.reference))
+		}
+	}
+	items = append(items,
+		widget.NewFormItem("Sites or groups whose rows are alike", s.cluster),
+		widget.NewFormItem("Weight of each row", s.weights),
+	)
+	// A new form each time: a form reuses its rows by position, so
+	// changing its items in place would show widgets under wrong labels.
+	s.form.Objects = []fyne.CanvasObject{widget.NewForm(items...)}
+	s.form.Refresh()
+}
+
+// reset offers the new table's columns and picks sensible defaults.
+func (s *rolesScreen) reset() {
+	t := s.u.table
+	s.filling = true
+	defer func() { s.filling = false; s.changed() }()
+	var all, numeric []string
+	for _, c := range t.Columns {
+		all = append(all, c.Name)
+		if isNumeric(c) {
+			numeric = append(numeric, c.Name)
+		}
+	}
+	s.outcome.Options = numeric
+	s.treatment.Options = all
+	s.moderator.Options = all
+	s.cluster.Options = append([]string{none}, all...)
+	s.weights.Options = append([]string{none}, numeric...)
+	s.outcome.ClearSelected()
+	s.treatment.ClearSelected()
+	s.moderator.ClearSelected()
+	s.cluster.SetSelected(none)
+	s.weights.SetSelected(none)
+	s.controls.Options = nil
+	s.controls.Selected = nil
+	s.probes.SetText("")
+	s.centre.SetText("")
+	// Defaults: a 0/1 column as the treatment, the last numeric column
+	// with many values as the outcome, a column of groups as the moderator.
+	for _, c := range t.Columns {
+		if c.Kind == workbook.YesNo && len(c.Levels) == 2 && c.Levels[0] == "0" && c.Levels[1] == "1" {
+			s.treatment.SetSelected(c.Name)
+			break
+		}
+	}
+	for i := len(t.Columns) - 1; i >= 0; i-- {
+		c := t.Columns[i]
+		if c.Kind == workbook.Number && c.Name != s.treatment.Selected {
+			s.outcome.SetSelected(c.Name)
+			break
+		}
+	}
+	for _, c := range t.Columns {
+		if (c.Kind == workbook.Category || c.Kind == workbook.YesNo) && c.Name != s.treatment.Selected && len(c.Levels) <= 12 {
+			s.moderator.SetSelected(c.Name)
+			break
+		}
+	}
+	s.treatmentChanged()
+	s.moderatorChanged()
+}
+
+func isNumeric(c *workbook.Column) bool {
+	return c.Kind == workbook.Number || c.Kind == workbook.YesNo && c.Levels[0] == "0" && c.Levels[1] == "1"
+}
+
+func (s *rolesScreen) column(name string) *workbook.Column {
+	if s.u.table == nil || name == "" {
+		return nil
+	}
+	return s.u.table.Column(name)
+}
+
+// treatmentChanged offers the treated label when the treatment holds labels.
+func (s *rolesScreen) treatmentChanged() {
+	c := s.column(s.treatment.Selected)
+	if c != nil && pipeline.TreatmentKind(c, "") == estimate.TreatmentLabels {
+		s.treated.Options = c.Levels
+		if len(c.Levels) == 2 {
+			s.treated.SetSelected(c.Levels[1])
+		}
+	} else {
+		s.treated.ClearSelected()
+	}
+	s.layoutForm()
+	s.refreshControls()
+}
+
+// moderatorChanged guesses the moderator's kind and offers its groups.
+func (s *rolesScreen) moderatorChanged() {
+	c := s.column(s.moderator.Selected)
+	if c == nil {
+		return
+	}
+	switch pipeline.ModeratorKind(c) {
+	case estimate.ModeratorContinuous:
+		s.modKind.SetSelected(kindNumber)
+	case estimate.ModeratorBinary:
+		s.modKind.SetSelected(kindTwo)
+	default:
+		s.modKind.SetSelected(kindGroups)
+	}
+	s.kindChanged()
+	s.refreshControls()
+}
+
+// kindChanged shows the reference group or the number settings.
+func (s *rolesScreen) kindChanged() {
+	c := s.column(s.moderator.Selected)
+	if c != nil && s.modKind.Selected != kindNumber {
+		s.reference.Options = append([]string{"(the largest group)"}, groupsOf(c)...)
+		s.reference.SetSelectedIndex(0)
+	}
+	s.layoutForm()
+}
+
+// groupsOf lists a column's groups as the engine will name them.
+func groupsOf(c *workbook.Column) []string {
+	if c.Levels != nil {
+		return c.Levels
+	}
+	seen := map[string]bool{}
+	var out []string
+	for i := range c.Missing {
+		v := cellText(c, i)
+		if v != "" && !strings.HasPrefix(v, "(") && !seen[v] {
+			seen[v] = true
+			out = append(out, v)
+		}
+		if len(out) > 50 {
+			break
+		}
+	}
+	return out
+}
+
+// refreshControls offers every column not already given a role.
+func (s *rolesScreen) refreshControls() {
+	t := s.u.table
+	if t == nil {
+		return
+	}
+	taken := map[string]bool{s.outcome.Selected: true, s.treatment.Selected: true, s.moderator.Selected: true, s.weights.Selected: true}
+	var opts []string
+	for _, c := range t.Columns {
+		if !taken[c.Name] && c.Kind != workbook.Text && c.Kind != workbook.Empty {
+			opts = append(opts, c.Name)
+		}
+	}
+	var keep []string
+	for _, sel := range s.controls.Selected {
+		if !taken[sel] {
+			keep = append(keep, sel)
+		}
+	}
+	s.controls.Options = opts
+	s.controls.Selected = keep
+	s.controls.Refresh()
+}
+
+// changed re-runs the checks after any choice.
+func (s *rolesScreen) changed() {
+	if s.filling || s.u.table == nil {
+		return
+	}
+	s.refreshControls()
+	s.u.forget(stepRoles)
+	spec, err := s.spec()
+	s.checks.Objects = nil
+	if err != nil {
+		s.lastChecks = []pipeline.Check{{Severity: pipeline.Blocking, Message: err.Error()}}
+	} else {
+		s.lastChecks = pipeline.Precheck(s.u.table, spec)
+	}
+	for _, c := range s.lastChecks {
+		s.checks.Add(checkRow(c))
+	}
+	if len(s.lastChecks) == 0 {
+		s.checks.Add(checkRow(pipeline.Check{Severity: pipeline.Note, Message: "Nothing to warn about: every group has treated and untreated rows."}))
+	}
+	s.checks.Refresh()
+	s.u.updateBar()
+}
+
+// checkRow shows one check with an icon for its severity.
+func checkRow(c pipeline.Check) fyne.CanvasObject {
+	icon := theme.InfoIcon()
+	switch c.Severity {
+	case pipeline.Warning:
+		icon = theme.WarningIcon()
+	case pipeline.Blocking:
+		icon = theme.ErrorIcon()
+	}
+	l := widget.NewLabel(c.Message)
+	l.Wrapping = fyne.TextWrapWord
+	if c.Severity == pipeline.Blocking {
+		l.Importance = widget.DangerImportance
+	}
+	return container.NewBorder(nil, nil, widget.NewIcon(icon), nil, l)
+}
+
+// ready is true when the roles are complete and no check blocks the run.
+func (s *rolesScreen) ready() bool {
+	if s.u.table == nil {
+		return false
+	}
+	if _, err := s.spec(); err != nil {
+		return false
+	}
+	for _, c := range s.lastChecks {
+		if c.Severity == pipeline.Blocking {
+			return false
+		}
+	}
+	return true
+}
+
+// spec builds the engine's spec from the choices.
+func (s *rolesScreen) spec() (estimate.Spec, error) {
+	var sp estimate.Spec
+	sp.Outcome = s.outcome.Selected
+	if sp.Outcome == "" || s.treatment.Selected == "" || s.moderator.Selected == "" {
+		return sp, fmt.Errorf("Choose an outcome, a treatment and a moderator.")
+	}
+	tc := s.column(s.treatment.Selected)
+	sp.Treatment = estimate.Treatment{Column: s.treatment.Selected, Treated: s.treated.Selected}
+	sp.Treatment.Kind = pipeline.TreatmentKind(tc, s.treated.Selected)
+	if sp.Treatment.Kind == estimate.TreatmentLabels && sp.Treatment.Treated == "" {
+		return sp, fmt.Errorf("Say which value of %q means treated.", sp.Treatment.Column)
+	}
+	m := estimate.Moderator{Column: s.moderator.Selected}
+	switch s.modKind.Selected {
+	case kindNumber:
+		m.Kind = estimate.ModeratorContinuous
+		if txt := strings.TrimSpace(s.probes.Text); txt != "" {
+			for _, p := range strings.Split(txt, ",") {
+				v, err := strconv.ParseFloat(strings.TrimSpace(p), 64)
+				if err != nil {
+					return sp, fmt.Errorf("The values to report at must be numbers separated by commas; %q is not a number.", strings.TrimSpace(p))
+				}
+				m.Probes = append(m.Probes, v)
+			}
+		}
+		if txt := strings.TrimSpace(s.centre.Text); txt != "" {
+			v, err := strconv.ParseFloat(txt, 64)
+			if err != nil {
+				return sp, fmt.Errorf("The centre must be a number; %q is not.", txt)
+			}
+			m.Centre = &v
+		}
+	case kindTwo:
+		m.Kind = estimate.ModeratorBinary
+	default:
+		m.Kind = estimate.ModeratorCategorical
+	}
+	if m.Kind != estimate.ModeratorContinuous && s.reference.SelectedIndex() > 0 {
+		m.Reference = s.reference.Selected
+	}
+	sp.Moderator = m
+	sp.Controls = append([]string(nil), s.controls.Selected...)
+	if v := s.cluster.Selected; v != none && v != "" {
+		sp.Cluster = v
+	}
+	if v := s.weights.Selected; v != none && v != "" {
+		sp.Weights = v
+	}
+	return sp, nil
+}
+
+func (s *rolesScreen) content() fyne.CanvasObject {
+	intro := widget.NewLabel("Say which column plays which part. The checks on the right update as you choose.")
+	intro.Wrapping = fyne.TextWrapWord
+	form := container.NewVBox(
+		s.form,
+		subheading("Adjust for (optional)"),
+		s.controls,
+	)
+	checks := container.NewBorder(subheading("Before running"), nil, nil, nil, container.NewVScroll(s.checks))
+	split := container.NewHSplit(container.NewVScroll(form), checks)
+	split.Offset = 0.6
+	return container.NewBorder(container.NewVBox(heading("Who is who"), intro), nil, nil, nil, split)
+}

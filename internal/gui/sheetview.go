@@ -1,0 +1,240 @@
+package gui
+
+import (
+	"bytes"
+	"math"
+	"strconv"
+	"strings"
+
+	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/canvas"
+	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/layout"
+	"fyne.io/fyne/v2/widget"
+
+	"slopewise/internal/report"
+)
+
+// sheetView shows a results sheet block by block, the same grid the
+// workbook receives, so the screen and the file never disagree. With keys,
+// only the blocks of those keys, in the sheet's order; without, all blocks
+// and the settings.
+func sheetView(s *report.Sheet, keys ...string) fyne.CanvasObject {
+	blocks := s.Blocks
+	if len(keys) > 0 {
+		blocks = nil
+		for _, k := range keys {
+			for _, b := range s.Blocks {
+				if b.Key == k {
+					blocks = append(blocks, b)
+				}
+			}
+		}
+	}
+	box := container.NewVBox()
+	for _, b := range blocks {
+		if b.Title != "" {
+			box.Add(subheading(b.Title))
+		}
+		if grid := blockGrid(b.Rows); grid != nil {
+			box.Add(grid)
+		}
+		if b.Image != nil && len(b.Image.PNG) > 0 {
+			img := canvas.NewImageFromReader(bytes.NewReader(b.Image.PNG), "chart.png")
+			img.FillMode = canvas.ImageFillContain
+			w := float32(min(b.Image.Width, 820))
+			img.SetMinSize(fyne.NewSize(w, w*float32(b.Image.Height)/float32(max(b.Image.Width, 1))))
+			box.Add(container.NewHBox(img, layout.NewSpacer()))
+		}
+	}
+	if len(s.Settings) > 0 && len(keys) == 0 {
+		box.Add(subheading("Settings of this run"))
+		var rows [][]report.Cell
+		for _, st := range s.Settings {
+			rows = append(rows, []report.Cell{report.HeadingCell(st.Label), report.TextCell(st.Value)})
+		}
+		box.Add(blockGrid(rows))
+	}
+	return container.NewVScroll(box)
+}
+
+// blockGrid lays out a block's rows: paragraphs across the width, label
+// and value pairs as a form, wider rows as an aligned grid.
+func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
+	if len(rows) == 0 {
+		return nil
+	}
+	width := 0
+	for _, r := range rows {
+		if len(r) == 1 && r[0].Kind == report.Paragraph {
+			continue
+		}
+		width = max(width, len(r))
+	}
+	if width <= 2 {
+		return pairs(rows)
+	}
+	out := container.NewVBox()
+	cols := &columns{n: width, first: 2}
+	for _, r := range rows {
+		if len(r) == 1 && r[0].Kind == report.Paragraph {
+			l := widget.NewLabel(r[0].Text)
+			l.Wrapping = fyne.TextWrapWord
+			out.Add(l)
+			continue
+		}
+		row := container.New(cols)
+		for c := 0; c < width; c++ {
+			var cell report.Cell
+			if c < len(r) {
+				cell = r[c]
+			}
+			row.Add(cellWidget(cell, false))
+		}
+		out.Add(row)
+	}
+	return out
+}
+
+// columns lays out one table row: the first column `first` times as wide
+// as the others, every row of a table sharing the same proportions so the
+// columns line up, and each row only as tall as its own cells.
+type columns struct {
+	n     int
+	first float32
+}
+
+func (c *columns) widths(total float32) []float32 {
+	unit := total / (c.first + float32(c.n-1))
+	w := make([]float32, c.n)
+	for i := range w {
+		w[i] = unit
+	}
+	w[0] = unit * c.first
+	return w
+}
+
+func (c *columns) Layout(objects []fyne.CanvasObject, size fyne.Size) {
+	x := float32(0)
+	for i, o := range objects {
+		w := c.widths(size.Width)[i]
+		o.Move(fyne.NewPos(x, 0))
+		o.Resize(fyne.NewSize(w, size.Height))
+		x += w
+	}
+}
+
+func (c *columns) MinSize(objects []fyne.CanvasObject) fyne.Size {
+	h := float32(0)
+	for _, o := range objects {
+		h = max(h, o.MinSize().Height)
+	}
+	return fyne.NewSize(float32(c.n)*70, h)
+}
+
+// pairs shows label and value rows as a form: the labels in a column of
+// their own width, the values wrapping beside them.
+func pairs(rows [][]report.Cell) fyne.CanvasObject {
+	f := widget.NewForm()
+	out := container.NewVBox()
+	for _, r := range rows {
+		if len(r) == 1 && r[0].Kind == report.Paragraph {
+			l := widget.NewLabel(r[0].Text)
+			l.Wrapping = fyne.TextWrapWord
+			out.Add(l)
+			continue
+		}
+		label, value := "", report.Cell{}
+		if len(r) > 0 {
+			label = cellString(r[0])
+		}
+		if len(r) > 1 {
+			value = r[1]
+		}
+		v := widget.NewLabel(cellString(value))
+		v.Wrapping = fyne.TextWrapWord
+		if value.Kind == report.Number {
+			v.Wrapping = fyne.TextWrapOff
+		}
+		f.Append(label, v)
+	}
+	if len(f.Items) > 0 {
+		out.Objects = append([]fyne.CanvasObject{f}, out.Objects...)
+	}
+	return out
+}
+
+// cellWidget shows one cell as its display format says.
+func cellWidget(c report.Cell, last bool) fyne.CanvasObject {
+	l := widget.NewLabel(cellString(c))
+	switch c.Kind {
+	case report.Heading:
+		l.TextStyle.Bold = true
+		l.Wrapping = fyne.TextWrapWord
+	case report.Number, report.Percent, report.PValue:
+		l.Alignment = fyne.TextAlignTrailing
+	default:
+		if last {
+			l.Wrapping = fyne.TextWrapWord
+		} else {
+			l.Truncation = fyne.TextTruncateEllipsis
+		}
+	}
+	return l
+}
+
+// cellString writes a cell the way its spreadsheet display format shows it.
+func cellString(c report.Cell) string {
+	switch c.Kind {
+	case report.Text, report.Heading, report.Paragraph:
+		return c.Text
+	case report.PValue:
+		if c.Value < 0.001 {
+			return "<0.001"
+		}
+		return strconv.FormatFloat(c.Value, 'f', 3, 64)
+	case report.Percent:
+		return strconv.FormatFloat(100*c.Value, 'f', c.Decimals, 64) + "%"
+	case report.Number:
+		return formatNumber(c.Value, c.Format)
+	}
+	return ""
+}
+
+// formatNumber applies the spreadsheet formats the report uses: "0",
+// "0.000", "#,##0", "#,##0.00", "0.000E+00"; anything else is general.
+func formatNumber(v float64, format string) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return ""
+	}
+	if strings.Contains(format, "E+") {
+		return strconv.FormatFloat(v, 'E', strings.Count(format, "0")-3, 64)
+	}
+	if format == "" {
+		return strconv.FormatFloat(v, 'g', 10, 64)
+	}
+	decimals := 0
+	if i := strings.IndexByte(format, '.'); i >= 0 {
+		decimals = strings.Count(format[i:], "0")
+	}
+	s := strconv.FormatFloat(v, 'f', decimals, 64)
+	if !strings.Contains(format, ",") {
+		return s
+	}
+	sign := ""
+	if strings.HasPrefix(s, "-") {
+		sign, s = "-", s[1:]
+	}
+	intPart, frac, _ := strings.Cut(s, ".")
+	var b strings.Builder
+	for i, ch := range intPart {
+		if i > 0 && (len(intPart)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(ch)
+	}
+	if frac != "" {
+		return sign + b.String() + "." + frac
+	}
+	return sign + b.String()
+}
