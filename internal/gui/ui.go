@@ -321,9 +321,9 @@ func (u *UI) shortcuts() {
 // desktopShortcut is Ctrl (Cmd on macOS) with a key.
 type desktopShortcut struct{ key fyne.KeyName }
 
-func (s *desktopShortcut) ShortcutName() string   { return "Ctrl+" + string(s.key) }
-func (s *desktopShortcut) Key() fyne.KeyName      { return s.key }
-func (s *desktopShortcut) Mod() fyne.KeyModifier  { return fyne.KeyModifierShortcutDefault }
+func (s *desktopShortcut) ShortcutName() string    { return "Ctrl+" + string(s.key) }
+func (s *desktopShortcut) Key() fyne.KeyName       { return s.key }
+func (s *desktopShortcut) Mod() fyne.KeyModifier   { return fyne.KeyModifierShortcutDefault }
 func (s *desktopShortcut) Shortcut() fyne.Shortcut { return s }
 
 // chooseOpen asks for a workbook and opens it.
