@@ -358,10 +358,14 @@ func detectHeader(rows []bufRow) int {
 	for _, r := range rows {
 		width = max(width, nonBlank(r.cells))
 	}
+	firstWide := -1
 	for i, r := range rows {
 		n := nonBlank(r.cells)
 		if n == 0 || n*2 < width {
 			continue
+		}
+		if firstWide < 0 {
+			firstWide = i
 		}
 		text, num := shares(r.cells)
 		if text < 0.5 {
@@ -372,7 +376,11 @@ func detectHeader(rows []bufRow) int {
 			below = below[:10]
 		}
 		if len(below) == 0 {
-			return i
+			// A sheet of one wide row: a header with no data below it.
+			if i == firstWide {
+				return i
+			}
+			break
 		}
 		var sum float64
 		for _, b := range below {

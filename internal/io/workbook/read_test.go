@@ -301,3 +301,54 @@ func TestSerialDates(t *testing.T) {
 		t.Errorf("timeToSerial = %v", got)
 	}
 }
+
+func TestDetectHeader(t *testing.T) {
+	textRow := func(n int, vals ...string) bufRow {
+		var cells []rawCell
+		for i, v := range vals {
+			if v != "" {
+				cells = append(cells, rawCell{Col: i, Type: cellText, Text: v})
+			}
+		}
+		return bufRow{num: n, cells: cells}
+	}
+	cases := []struct {
+		name string
+		rows []bufRow
+		want int // index of the header row, -1 for none
+	}{
+		{"names above numbers", []bufRow{textRow(1, "id", "score"), textRow(2, "1", "2"), textRow(3, "3", "4")}, 0},
+		{"title, blank line, header", []bufRow{textRow(1, "Spring visits"), textRow(3, "id", "site", "score"), textRow(4, "1", "North", "2"), textRow(5, "2", "South", "5")}, 1},
+		{"numbers only", []bufRow{textRow(1, "1", "2"), textRow(2, "3", "4")}, -1},
+		{"text table", []bufRow{textRow(1, "name", "town"), textRow(2, "Ann", "Oslo"), textRow(3, "Bo", "Lund")}, 0},
+		{"data rows with text and numbers", []bufRow{textRow(1, "Ann", "Oslo", "3"), textRow(2, "Bo", "Lund", "4")}, -1},
+		{"header only", []bufRow{textRow(2, "id", "score")}, 0},
+	}
+	for _, c := range cases {
+		if got := detectHeader(c.rows); got != c.want {
+			t.Errorf("%s: header at %d, want %d", c.name, got, c.want)
+		}
+	}
+}
+
+func TestReadCancelledAndProgress(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("id,score\n")
+	for i := 0; i < 10000; i++ {
+		fmt.Fprintf(&b, "%d,%d\n", i, i%7)
+	}
+	path := writeFile(t, t.TempDir(), "long.csv", []byte(b.String()))
+	var seen []int
+	tab, err := Read(context.Background(), path, Options{Progress: func(n int) { seen = append(seen, n) }})
+	if err != nil || tab.Len() != 10000 {
+		t.Fatalf("%v %v", tab, err)
+	}
+	if len(seen) == 0 || seen[len(seen)-1] > 10000 {
+		t.Errorf("progress %v", seen)
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	if _, err := Read(ctx, path, Options{}); !errors.Is(err, ErrCancelled) || !errors.Is(err, context.Canceled) {
+		t.Errorf("cancelled read: %v", err)
+	}
+}

@@ -167,6 +167,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		}
 		return nil, err
 	}
+	beforeReplace(src)
 	if inPlace {
 		// Someone may have saved the workbook while the results were made.
 		if now, err := os.ReadFile(src); err != nil || !bytes.Equal(now, orig) {
@@ -183,6 +184,10 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 	}
 	return w, nil
 }
+
+// beforeReplace runs just before the check that the original is as it
+// was read; tests use it to change the file at that moment.
+var beforeReplace = func(string) {}
 
 // checkCopyTarget refuses a copy that would overwrite the source, or an
 // existing file the caller did not allow to replace.

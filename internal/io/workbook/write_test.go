@@ -447,3 +447,23 @@ func TestWriteThroughSymlink(t *testing.T) {
 		t.Errorf("the linked file has sheets %v", sheets)
 	}
 }
+
+func TestWorkbookChangedMeanwhile(t *testing.T) {
+	dir := t.TempDir()
+	path := simpleBook().write(t, dir, "busy.xlsx")
+	saved := visitsBook().bytes(t) // what another program saved meanwhile
+	beforeReplace = func(p string) {
+		if err := os.WriteFile(p, saved, 0o644); err != nil {
+			t.Error(err)
+		}
+	}
+	defer func() { beforeReplace = func(string) {} }()
+	_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	want := fmt.Sprintf("%q: %s (the file changed while the results were being written)", path, ErrOpenElsewhere)
+	if !errors.Is(err, ErrOpenElsewhere) || err.Error() != want {
+		t.Errorf("got %v\nwant %s", err, want)
+	}
+	if fileHash(t, path) != sha(saved) {
+		t.Error("the other program's save was overwritten")
+	}
+}
