@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"time"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -86,7 +87,7 @@ func (u *UI) open(path string) {
 		if sheets, err = workbook.Sheets(path); err != nil {
 			return err
 		}
-		table, err = pipeline.Read(context.Background(), report.Run{File: path, Sheet: firstWorksheet(sheets)}, nil)
+		table, err = pipeline.Read(context.Background(), report.Run{File: path, Sheet: firstWorksheet(sheets)}, u.readProgress(path))
 		return err
 	}, func(err error) {
 		if err != nil {
@@ -104,6 +105,19 @@ func (u *UI) open(path string) {
 		u.reach(stepRows)
 		u.show(stepRows)
 	})
+}
+
+// readProgress reports rows read in the status line, at most a few times
+// a second, so that a large file visibly moves and the window stays free.
+func (u *UI) readProgress(path string) func(rows int) {
+	var last time.Time
+	name := filepath.Base(path)
+	return func(rows int) {
+		if now := time.Now(); now.Sub(last) > 200*time.Millisecond {
+			last = now
+			fyne.Do(func() { u.setStatus(fmt.Sprintf("Reading %s… %d rows so far", name, rows)) })
+		}
+	}
 }
 
 // firstWorksheet is the first visible worksheet's name ("" for text files).
