@@ -89,6 +89,9 @@ var refusals = []refusal{
 	{name: "Apple Numbers file", make: fileMaker("budget.numbers", func(t *testing.T) []byte {
 		return zipOf(t, "Index/Document.iwa", "\x00\x01", "Metadata/Properties.plist", "x")
 	}), cause: ErrNumbers, want: msg(ErrNumbers, "")},
+	{name: "binary workbook", make: fileMaker("fast.xlsb", func(t *testing.T) []byte {
+		return zipOf(t, "[Content_Types].xml", "<Types/>", "xl/workbook.bin", "\x83\x01")
+	}), cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "it is an Excel binary workbook (.xlsb); open it in a spreadsheet program and save it as an Excel workbook (.xlsx)")},
 	{name: "zip archive of photos", make: fileMaker("photos.xlsx", func(t *testing.T) []byte { return zipOf(t, "a.jpg", "jpeg") }),
 		cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "")},
 	{name: "Word document named as a workbook", make: fileMaker("report.xlsx", func(t *testing.T) []byte {
