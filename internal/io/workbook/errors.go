@@ -18,6 +18,7 @@ var (
 	ErrEncrypted       = errors.New("this workbook is protected with a password to open; open it in a spreadsheet program, remove the password (or save an unprotected copy) and open that copy")
 	ErrOpenDocument    = errors.New("this is an OpenDocument spreadsheet (.ods), which Slopewise does not read; save it as an Excel workbook (.xlsx) or as CSV and open that")
 	ErrNumbers         = errors.New("this is an Apple Numbers file, which Slopewise does not read; export it from Numbers as an Excel workbook (.xlsx) or as CSV and open that")
+	ErrBinaryWorkbook  = errors.New("this is an Excel binary workbook (.xlsb), which Slopewise does not read; open it in a spreadsheet program and save it as an Excel workbook (.xlsx)")
 	ErrNotWorkbook     = errors.New("this is a zip archive but not an Excel workbook; check that you chose the right file")
 	ErrDamaged         = errors.New("the workbook is damaged or incomplete (it may be truncated or only partly downloaded); open it in a spreadsheet program, or copy it again from where it came from")
 	ErrUnknownFormat   = errors.New("Slopewise cannot tell what kind of file this is; it reads Excel workbooks (.xlsx, .xlsm) and text tables (.csv, .tsv, .txt)")

@@ -153,7 +153,7 @@ func classifyZip(path string, r io.ReaderAt, size int64) (format, error) {
 		case name == "index/document.iwa" || strings.HasPrefix(name, "index/") && strings.HasSuffix(name, ".iwa"):
 			return formatUnknown, fail(path, ErrNumbers, "")
 		case name == "xl/workbook.bin":
-			return formatUnknown, fail(path, ErrNotWorkbook, "it is an Excel binary workbook (.xlsb); open it in a spreadsheet program and save it as an Excel workbook (.xlsx)")
+			return formatUnknown, fail(path, ErrBinaryWorkbook, "")
 		}
 	}
 	if !hasContentTypes || !hasWorkbook {

@@ -91,7 +91,7 @@ var refusals = []refusal{
 	}), cause: ErrNumbers, want: msg(ErrNumbers, "")},
 	{name: "binary workbook", make: fileMaker("fast.xlsb", func(t *testing.T) []byte {
 		return zipOf(t, "[Content_Types].xml", "<Types/>", "xl/workbook.bin", "\x83\x01")
-	}), cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "it is an Excel binary workbook (.xlsb); open it in a spreadsheet program and save it as an Excel workbook (.xlsx)")},
+	}), cause: ErrBinaryWorkbook, want: msg(ErrBinaryWorkbook, "")},
 	{name: "zip archive of photos", make: fileMaker("photos.xlsx", func(t *testing.T) []byte { return zipOf(t, "a.jpg", "jpeg") }),
 		cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "")},
 	{name: "Word document named as a workbook", make: fileMaker("report.xlsx", func(t *testing.T) []byte {
