@@ -29,9 +29,10 @@ type harness struct {
 }
 
 // fixedDir is a folder with the same path on every run, so that the
-// golden renders (which show file names) do not change.
+// golden renders (which show file names) do not change; each test has its
+// own, so tests never share files.
 func fixedDir(t *testing.T, name string) string {
-	dir := filepath.Join(os.TempDir(), "slopewise-gui-test", name)
+	dir := filepath.Join(os.TempDir(), "slopewise-gui-test", t.Name(), name)
 	os.RemoveAll(dir)
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		t.Fatal(err)
