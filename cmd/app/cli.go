@@ -70,6 +70,13 @@ Options:
                            speaks of effects rather than associations)
   --planned                the moderator was named before looking at the data
   --alpha A                significance level (default 0.05: 95% intervals)
+  --no-bootstrap           do not run the wild cluster bootstrap, which otherwise
+                           runs when --cluster has fewer than 42 clusters and
+                           gives the p-values and intervals the note relies on
+  --draws B                bootstrap draws (default 9999; when every possible
+                           draw fits in B, each is used once instead)
+  --seed N                 seed of the bootstrap draws (default 0); the same
+                           seed gives the same answer
   --sheet NAME             the sheet to read (default: the first)
   --header-row N           the row holding the column names (default: found)
   --out PATH               write the results into a copy at PATH instead
@@ -155,6 +162,11 @@ type analyzeFlags struct {
 	json, dryRun                  bool
 	alpha                         float64
 	headerRow                     int
+	noBootstrap                   bool
+	draws                         int
+	seed                          uint64
+	// set holds the names of the options given on the command line.
+	set map[string]bool
 }
 
 func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
@@ -182,6 +194,9 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.BoolVar(&f.dryRun, "dry-run", false, "")
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "")
 	fs.IntVar(&f.headerRow, "header-row", 0, "")
+	fs.BoolVar(&f.noBootstrap, "no-bootstrap", false, "")
+	fs.IntVar(&f.draws, "draws", 0, "")
+	fs.Uint64Var(&f.seed, "seed", 0, "")
 
 	// The file may come before or after the options.
 	var positional []string
@@ -199,6 +214,8 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 			args = args[1:]
 		}
 	}
+	f.set = map[string]bool{}
+	fs.Visit(func(fl *flag.Flag) { f.set[fl.Name] = true })
 	switch len(positional) {
 	case 0:
 		return nil, usagef("give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …")
@@ -253,6 +270,24 @@ func (f *analyzeFlags) check() error {
 	}
 	if f.dryRun && f.out != "" {
 		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
+	}
+	return f.checkBootstrap()
+}
+
+// checkBootstrap rejects bootstrap options that cannot take effect.
+func (f *analyzeFlags) checkBootstrap() error {
+	for _, name := range []string{"no-bootstrap", "draws", "seed"} {
+		if f.set[name] && f.cluster == "" {
+			return usagef("--%s is about the wild cluster bootstrap, which needs --cluster COL", name)
+		}
+	}
+	for _, name := range []string{"draws", "seed"} {
+		if f.set[name] && f.noBootstrap {
+			return usagef("--%s has no effect with --no-bootstrap; leave one of them out", name)
+		}
+	}
+	if f.set["draws"] && (f.draws < 99 || f.draws > estimate.MaxDraws) {
+		return usagef("--draws must be a whole number from 99 to %d (the usual choice is %d), not %d", estimate.MaxDraws, estimate.DefaultDraws, f.draws)
 	}
 	return nil
 }
@@ -317,6 +352,7 @@ func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
 		Controls: splitList(f.controls),
 		Cluster:  f.cluster, Weights: f.weights,
 		Variance: seTypes[f.se], Alpha: f.alpha,
+		Bootstrap: estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
 	}
 	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
 		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
@@ -405,16 +441,34 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	fmt.Fprintf(w, "%d rows used, %d left out; standard errors %s, %d df.\n\n", out.NUsed, out.NDropped, out.SEType, res.Model.DF)
 	fmt.Fprintf(w, "Effect of %s on %s by %s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column)
 	for _, g := range out.Groups {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P)
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
 	}
 	fmt.Fprintln(w, "Differences:")
 	for _, d := range out.Differences {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g\n", d.Label, d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD)
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", d.Label, d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
 	}
 	if h := out.Heterogeneity; h != nil {
-		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g\n", h.F, h.DF1, h.DF2, h.P)
+		boot := ""
+		if h.PBoot != nil {
+			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
+		}
+		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g%s\n", h.F, h.DF1, h.DF2, h.P, boot)
+	}
+	if b := out.Bootstrap; b != nil {
+		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)
 	}
 	fmt.Fprintf(w, "\n%s\n", out.Note)
+}
+
+// bootText writes the bootstrap's p-value and interval for a terminal.
+func bootText(b report.OutBoot) string {
+	switch {
+	case b.PBoot == nil:
+		return ""
+	case b.CIBootLow == nil:
+		return fmt.Sprintf("   bootstrap p = %.3g, interval unbounded", *b.PBoot)
+	}
+	return fmt.Sprintf("   bootstrap p = %.3g, CI %.4g to %.4g", *b.PBoot, *b.CIBootLow, *b.CIBootHigh)
 }
 
 // demo writes the demonstration workbook into a folder.

@@ -90,6 +90,15 @@ func TestUsageErrors(t *testing.T) {
 		{"alpha not a number", with("--alpha", "five"), "invalid value"},
 		{"negative header row", with("--header-row", "-3"), "--header-row must be a row number"},
 		{"dry run with out", with("--dry-run", "--out", "x.xlsx"), "--dry-run writes nothing"},
+		{"no bootstrap without cluster", with("--no-bootstrap"), "--no-bootstrap is about the wild cluster bootstrap, which needs --cluster"},
+		{"draws without cluster", with("--draws", "999"), "--draws is about the wild cluster bootstrap"},
+		{"seed without cluster", with("--seed", "4"), "--seed is about the wild cluster bootstrap"},
+		{"draws with no bootstrap", with("--cluster", "wool", "--no-bootstrap", "--draws", "999"), "--draws has no effect with --no-bootstrap"},
+		{"seed with no bootstrap", with("--cluster", "wool", "--no-bootstrap", "--seed", "3"), "--seed has no effect with --no-bootstrap"},
+		{"too few draws", with("--cluster", "wool", "--draws", "10"), "--draws must be a whole number from 99 to 999999"},
+		{"too many draws", with("--cluster", "wool", "--draws", "1000000"), "--draws must be a whole number from 99"},
+		{"draws not a number", with("--cluster", "wool", "--draws", "many"), "invalid value"},
+		{"negative seed", with("--cluster", "wool", "--seed", "-1"), "invalid value"},
 		{"demo without folder", []string{"demo"}, "give one folder"},
 		{"demo with two folders", []string{"demo", "a", "b"}, "give one folder"},
 		{"demo unknown flag", []string{"demo", "--force", "x"}, "flag provided but not defined"},
@@ -118,6 +127,9 @@ func TestHelp(t *testing.T) {
 		{[]string{"-h"}, "slopewise demo DIR"},
 		{[]string{"help", "analyze"}, "--moderator-values"},
 		{[]string{"analyze", "--help"}, "--moderator-values"},
+		{[]string{"help", "analyze"}, "--no-bootstrap"},
+		{[]string{"help", "analyze"}, "--draws B"},
+		{[]string{"help", "analyze"}, "--seed N"},
 		{[]string{"help", "demo"}, "known"},
 		{[]string{"demo", "-h"}, "known"},
 		{[]string{"version"}, "slopewise " + version},
@@ -477,5 +489,70 @@ func TestRemainingFlags(t *testing.T) {
 	bin := get("--moderator", demodata.ColFirstTime, "--moderator-type", "binary", "--reference", "yes")
 	if bin.Groups[0].Label != "yes" {
 		t.Errorf("binary with --reference yes: first group %q", bin.Groups[0].Label)
+	}
+}
+
+// TestBootstrapFlags runs analyze on data with 12 clusters (R's CO2, 12
+// plants): the wild cluster bootstrap is on by default and shows in the
+// JSON; --seed and --draws change it, the same seed repeats it exactly,
+// and --no-bootstrap turns it off.
+func TestBootstrapFlags(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "co2_cluster.csv"))
+	base := []string{"analyze", csv, "--json", "--dry-run", "--outcome", "uptake", "--treatment", "Treatment", "--treated", "chilled",
+		"--moderator", "Type", "--controls", "conc", "--cluster", "Plant"}
+	run := func(extra ...string) (string, map[string]any) {
+		t.Helper()
+		code, out, errs := runCLI(t, append(append([]string{}, base...), extra...)...)
+		if code != exitOK {
+			t.Fatalf("%v: exit %d: %s", extra, code, errs)
+		}
+		var m map[string]any
+		if err := json.Unmarshal([]byte(out), &m); err != nil {
+			t.Fatal(err)
+		}
+		return out, m
+	}
+	_, def := run()
+	boot, _ := def["bootstrap"].(map[string]any)
+	if boot == nil || boot["draws"] != 9999.0 || boot["weights"] != "webb" || boot["enumerated"] != false || boot["seed"] != 0.0 {
+		t.Errorf("default bootstrap %v; want 9999 Webb draws, seed 0", def["bootstrap"])
+	}
+	for _, key := range []string{"groups", "differences"} {
+		for _, it := range def[key].([]any) {
+			row := it.(map[string]any)
+			lo, okLo := row["ci_boot_low"].(float64)
+			hi, okHi := row["ci_boot_high"].(float64)
+			p, okP := row["p_boot"].(float64)
+			if !okLo || !okHi || !okP || !(lo < row["estimate"].(float64) && row["estimate"].(float64) < hi) || p <= 0 || p > 1 {
+				t.Errorf("%s %v: bootstrap fields missing or wrong", key, row["label"])
+			}
+		}
+	}
+	if h := def["heterogeneity"].(map[string]any); h["p_boot"] == nil {
+		t.Error("heterogeneity lacks p_boot")
+	}
+	if note := def["note"].(string); !strings.Contains(note, "wild cluster bootstrap") || !strings.Contains(note, "bootstrap p") {
+		t.Errorf("the note does not say the bootstrap was used:\n%s", note)
+	}
+
+	a, seeded := run("--seed", "5", "--draws", "999")
+	b, _ := run("--seed", "5", "--draws", "999")
+	if a != b {
+		t.Error("the same seed gave different output")
+	}
+	if sb := seeded["bootstrap"].(map[string]any); sb["draws"] != 999.0 || sb["seed"] != 5.0 {
+		t.Errorf("--seed 5 --draws 999: bootstrap %v", sb)
+	}
+	if seeded["groups"].([]any)[0].(map[string]any)["p_boot"] == def["groups"].([]any)[0].(map[string]any)["p_boot"] &&
+		seeded["differences"].([]any)[0].(map[string]any)["ci_boot_low"] == def["differences"].([]any)[0].(map[string]any)["ci_boot_low"] {
+		t.Error("another seed and number of draws gave the same bootstrap answers")
+	}
+
+	raw, off := run("--no-bootstrap")
+	if off["bootstrap"] != nil || strings.Contains(raw, "p_boot") || !strings.Contains(raw, `"bootstrap": null`) {
+		t.Errorf("--no-bootstrap: bootstrap %v, p_boot in output: %v", off["bootstrap"], strings.Contains(raw, "p_boot"))
+	}
+	if note := off["note"].(string); strings.Contains(note, "bootstrap") {
+		t.Errorf("--no-bootstrap: the note speaks of the bootstrap:\n%s", note)
 	}
 }

@@ -61,6 +61,10 @@ type design struct {
 
 	cluster       []int
 	clusterLabels []string
+
+	// effectA and diffA are the combinations a of the coefficients that
+	// give each effect and difference of the result, in its order.
+	effectA, diffA [][]float64
 }
 
 // roleColumn pairs a column with the words used for its role in messages.

@@ -16,5 +16,5 @@
 // The fit is a pivoted Householder QR with iterative refinement (qr.go);
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
-// adjustments in adjust.go.
+// adjustments in adjust.go, the wild cluster bootstrap in bootstrap.go.
 package estimate

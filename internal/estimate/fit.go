@@ -1,6 +1,7 @@
 package estimate
 
 import (
+	"context"
 	"fmt"
 	"math"
 	"strconv"
@@ -10,6 +11,14 @@ import (
 // Fit fits the model of METHODS §1 to the data and returns the effects by
 // group, their differences and tests. Bad data returns an *Error.
 func Fit(d *Data, s Spec) (*Result, error) {
+	return FitContext(context.Background(), d, s, nil)
+}
+
+// FitContext is Fit for long work: the wild cluster bootstrap (METHODS §8)
+// stops when ctx is done, returning ctx's error, and progress, when not
+// nil, is called after each quantity it has finished, with how many are
+// done of how many in all.
+func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total int)) (*Result, error) {
 	s, err := s.withDefaults()
 	if err != nil {
 		return nil, err
@@ -36,7 +45,13 @@ func Fit(d *Data, s Spec) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	return ds.result(s, f, v, used, df, notes), nil
+	res := ds.result(s, f, v, used, df, notes)
+	if used == CR1 && !s.Bootstrap.Off && len(ds.clusterLabels) < BootstrapClusters {
+		if err := ds.bootstrap(ctx, f, s, res, progress); err != nil {
+			return nil, err
+		}
+	}
+	return res, nil
 }
 
 // weighted returns √w·X and √w·y (METHODS §2).

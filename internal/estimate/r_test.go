@@ -142,6 +142,13 @@ func TestAgainstR(t *testing.T) {
 // the engine with what R computes now. In CI (CI=true) a missing R is a
 // failure, not a skip.
 func TestAgainstRLive(t *testing.T) {
+	compareWithR(t, runRScript(t, "make_reference.R"))
+}
+
+// runRScript runs an R script of testdata/r into a temporary folder and
+// returns the folder. In CI (CI=true) a missing R is a failure, not a skip.
+func runRScript(t *testing.T, script string) string {
+	t.Helper()
 	rscript, err := exec.LookPath("Rscript")
 	if err != nil {
 		if os.Getenv("CI") == "true" {
@@ -150,11 +157,10 @@ func TestAgainstRLive(t *testing.T) {
 		t.Skip("Rscript not found; install r-base-core and r-cran-sandwich to run the live cross-check")
 	}
 	out := t.TempDir()
-	cmd := exec.Command(rscript, filepath.Join(rDir, "make_reference.R"), out)
-	if msg, err := cmd.CombinedOutput(); err != nil {
-		t.Fatalf("R script failed: %v\n%s", err, msg)
+	if msg, err := exec.Command(rscript, filepath.Join(rDir, script), out).CombinedOutput(); err != nil {
+		t.Fatalf("R script %s failed: %v\n%s", script, err, msg)
 	}
-	compareWithR(t, out)
+	return out
 }
 
 func compareWithR(t *testing.T, dir string) {

@@ -20,6 +20,9 @@ type Result struct {
 	Differences   []Difference   `json:"differences"`
 	Heterogeneity *WaldTest      `json:"heterogeneity,omitempty"`
 	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	// Bootstrap says how the wild cluster bootstrap ran; nil when it did
+	// not, and then no Boot field below is set.
+	Bootstrap *BootstrapInfo `json:"bootstrap,omitempty"`
 
 	// Notes are facts about this fit a reader should know (a fallback
 	// variance type, probes outside the data).
@@ -121,6 +124,8 @@ type GroupEffect struct {
 	// Extrapolated marks a probe outside the observed range.
 	Extrapolated bool `json:"extrapolated,omitempty"`
 	Inference
+	// Boot is the wild cluster bootstrap's p-value and interval.
+	Boot *BootInference `json:"boot,omitempty"`
 }
 
 // Difference is the difference of the effects in two groups, To − From,
@@ -136,6 +141,8 @@ type Difference struct {
 	// MDD is the minimum detectable difference at the spec's α and power
 	// (Bloom 1995).
 	MDD float64 `json:"mdd"`
+	// Boot is the wild cluster bootstrap's p-value and interval.
+	Boot *BootInference `json:"boot,omitempty"`
 }
 
 // WaldTest is an F test of several linear restrictions.
@@ -144,6 +151,8 @@ type WaldTest struct {
 	DF1 int     `json:"df1"`
 	DF2 int     `json:"df2"`
 	P   float64 `json:"p"`
+	// PBoot is the wild cluster bootstrap's p-value of the same test.
+	PBoot *float64 `json:"p_boot,omitempty"`
 }
 
 // EffectAt returns the treatment's effect at moderator value m of a

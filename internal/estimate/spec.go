@@ -88,6 +88,9 @@ type Spec struct {
 	Alpha float64 `json:"alpha,omitempty"`
 	// Power is the power of the minimum detectable difference; 0 means 0.8.
 	Power float64 `json:"power,omitempty"`
+	// Bootstrap steers the wild cluster bootstrap, which runs by default
+	// when the cluster column has fewer than BootstrapClusters clusters.
+	Bootstrap Bootstrap `json:"bootstrap"`
 }
 
 // withDefaults returns the spec with every default filled in, or an error
@@ -104,6 +107,9 @@ func (s Spec) withDefaults() (Spec, error) {
 		if s.Cluster != "" {
 			s.Variance = CR1
 		}
+	}
+	if s.Bootstrap.Draws == 0 {
+		s.Bootstrap.Draws = DefaultDraws
 	}
 	if s.Treatment.Kind == "" {
 		s.Treatment.Kind = TreatmentBinary
@@ -126,6 +132,10 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", "Cluster-robust errors (CR1) need a cluster column. Pick the column that names each site or group, or choose HC3.")
 	case s.Cluster != "" && s.Variance != CR1:
 		return s, fail(ErrSpec, s.Cluster, fmt.Sprintf("A cluster column (%q) is chosen but the variance type is %s, which ignores it. Choose CR1, or remove the cluster column.", s.Cluster, s.Variance))
+	case s.Bootstrap.Draws < 1 || s.Bootstrap.Draws > MaxDraws:
+		return s, fail(ErrSpec, "", fmt.Sprintf("The number of bootstrap draws %d is outside 1 to %d. The usual choice is %d.", s.Bootstrap.Draws, MaxDraws, DefaultDraws))
+	case s.Bootstrap.Weights != "" && s.Bootstrap.Weights != Rademacher && s.Bootstrap.Weights != Webb:
+		return s, fail(ErrSpec, "", fmt.Sprintf("Unknown bootstrap weights %q; choose rademacher or webb, or leave it empty.", s.Bootstrap.Weights))
 	case s.Treatment.Kind == TreatmentLabels && s.Treatment.Treated == "":
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which label in %q means treated.", s.Treatment.Column))
 	}

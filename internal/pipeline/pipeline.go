@@ -45,7 +45,7 @@ func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Anal
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
-	res, err := estimate.Fit(EngineData(t), run.Spec)
+	res, err := estimate.FitContext(ctx, EngineData(t), run.Spec, nil)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
 	}

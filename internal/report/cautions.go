@@ -17,9 +17,9 @@ const (
 	// (common practice).
 	smallArmRows = 10
 	// fewClusters: cluster-robust tests over-reject below roughly this many
-	// clusters (Cameron & Miller 2015, J. Human Resources 50(2), §VI; the
-	// figure 42 is the number at which the engine's wild bootstrap starts).
-	fewClusters = 42
+	// clusters (Cameron & Miller 2015, J. Human Resources 50(2), §VI); the
+	// engine's wild cluster bootstrap runs below the same number.
+	fewClusters = estimate.BootstrapClusters
 	// droppedShare: above this share of rows left out, say so.
 	droppedShare = 0.10
 )
@@ -45,7 +45,11 @@ func Cautions(run Run, res *estimate.Result) []string {
 		add("%s of %s rows (%s) were left out for missing or unusable values; if those rows differ from the rest, the results may not hold for everyone.", count(r.Dropped), count(r.Read), pct(float64(r.Dropped)/float64(r.Read)))
 	}
 	if res.Model.Variance == estimate.CR1 && res.Model.Clusters < fewClusters {
-		add("There are only %d clusters of %s; with fewer than about 40, cluster-robust p-values tend to be too small and intervals too narrow (Cameron & Miller 2015). Read borderline results with care.", res.Model.Clusters, quoted(res.Spec.Cluster))
+		if res.Bootstrap != nil {
+			add("There are only %d clusters of %s; with fewer than about 40, cluster-robust p-values tend to be too small and intervals too narrow (Cameron & Miller 2015), so the note relies on the wild cluster bootstrap (Cameron, Gelbach & Miller 2008), which holds its error rate better. Read borderline results with care all the same.", res.Model.Clusters, quoted(res.Spec.Cluster))
+		} else {
+			add("There are only %d clusters of %s; with fewer than about 40, cluster-robust p-values tend to be too small and intervals too narrow (Cameron & Miller 2015). The wild cluster bootstrap, which corrects much of this, was turned off. Read borderline results with care.", res.Model.Clusters, quoted(res.Spec.Cluster))
+		}
 	}
 	if res.Moderator.Kind != estimate.ModeratorContinuous {
 		small := smallest(res.Effects, func(e estimate.GroupEffect) int { return e.Rows })

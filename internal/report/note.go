@@ -25,6 +25,7 @@ func Note(run Run, res *estimate.Result) string {
 		w.groups()
 	}
 	w.precision()
+	w.bootstrapSentences()
 	w.moderatorWords()
 	return strings.Join(w.sentences, " ")
 }
@@ -34,6 +35,31 @@ type noteWriter struct {
 	res       *estimate.Result
 	u         units
 	sentences []string
+	// open is set when the note shows a cluster-robust interval because
+	// the bootstrap could not bound its own.
+	open bool
+}
+
+// evidence is what the note reports of an estimate: its p-value and
+// interval, taken from the wild cluster bootstrap when it ran, since with
+// few clusters that is the one that keeps its stated error rate (METHODS
+// §3, §8).
+type evidence struct {
+	p, lo, hi float64
+	boot      bool
+}
+
+func (w *noteWriter) evidence(inf estimate.Inference, b *estimate.BootInference) evidence {
+	ev := evidence{p: inf.P, lo: inf.CILow, hi: inf.CIHigh}
+	if b != nil {
+		ev.p, ev.boot = b.P, true
+		if b.Bounded {
+			ev.lo, ev.hi = b.CILow, b.CIHigh
+		} else {
+			w.open = true
+		}
+	}
+	return ev
 }
 
 func (w *noteWriter) say(format string, args ...any) {
@@ -79,7 +105,8 @@ func treatmentName(t estimate.Treatment) string {
 }
 
 func (w *noteWriter) effectText(e estimate.GroupEffect) string {
-	return fmt.Sprintf("%s (%s)", w.u.amount(e.Estimate), w.u.interval(w.res.Model.Alpha, e.CILow, e.CIHigh))
+	ev := w.evidence(e.Inference, e.Boot)
+	return fmt.Sprintf("%s (%s)", w.u.amount(e.Estimate), w.u.interval(w.res.Model.Alpha, ev.lo, ev.hi))
 }
 
 // groups covers a binary or categorical moderator.
@@ -102,20 +129,22 @@ func (w *noteWriter) groups() {
 		return
 	}
 	if h := res.Heterogeneity; h != nil {
+		p, boot := heterogeneityP(h)
 		verdict := "the data cannot tell whether it differs between them"
-		if h.P < res.Model.Alpha && !(w.exploratory() && w.run.AdjustedP >= res.Model.Alpha) {
+		if p < res.Model.Alpha && !(w.exploratory() && w.run.AdjustedP >= res.Model.Alpha) {
 			verdict = "the data show that it differs between at least some of them"
 		}
-		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(h.P), verdict)
+		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(p, boot), verdict)
 	}
 	d := largest(res.Differences)
+	ev := w.evidence(d.Inference, d.Boot)
 	more := d.To
-	lo, hi := d.CILow, d.CIHigh
+	lo, hi := ev.lo, ev.hi
 	if d.Estimate < 0 {
-		more, lo, hi = d.From, -d.CIHigh, -d.CILow
+		more, lo, hi = d.From, -ev.hi, -ev.lo
 	}
 	w.say("The largest gap is between %q and %q: the %s in %q is larger by %s (%s, %s).", d.From, d.To, w.what(), more, w.u.amount(math.Abs(d.Estimate)),
-		w.u.interval(res.Model.Alpha, lo, hi), w.pWords(d.P))
+		w.u.interval(res.Model.Alpha, lo, hi), w.pWords(ev.p, ev.boot))
 	w.say("With %d groups there are %d pairwise comparisons, so one of them can look clear by chance; the table lists them all.", len(res.Effects), len(res.Differences))
 }
 
@@ -132,40 +161,50 @@ func (w *noteWriter) what() string {
 func (w *noteWriter) difference(d estimate.Difference) {
 	alpha := w.res.Model.Alpha
 	m := w.res.Moderator.Column
-	ci := w.u.interval(alpha, d.CILow, d.CIHigh)
+	ev := w.evidence(d.Inference, d.Boot)
+	ci := w.u.interval(alpha, ev.lo, ev.hi)
 	bigger, smaller := d.To, d.From
 	if d.Estimate < 0 {
 		bigger, smaller = d.From, d.To
-	}
-	lo, hi := d.CILow, d.CIHigh
-	if d.Estimate < 0 {
-		lo, hi = -d.CIHigh, -d.CILow
-		ci = w.u.interval(alpha, lo, hi)
+		ci = w.u.interval(alpha, -ev.hi, -ev.lo)
 	}
 	switch {
-	case d.P < alpha && w.exploratory() && w.run.AdjustedP >= alpha:
+	case ev.p < alpha && w.exploratory() && w.run.AdjustedP >= alpha:
 		w.say("The %s is larger in %s %q than in %q by %s (%s, %s), but once the moderators tried are allowed for the data cannot confirm that it differs between these groups.",
-			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(d.P))
-	case d.P < alpha:
+			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(ev.p, ev.boot))
+	case ev.p < alpha:
 		w.say("The %s is larger in %s %q than in %q by %s (%s, %s): the data show that it differs between these groups.",
-			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(d.P))
+			w.what(), m, bigger, smaller, w.u.amount(math.Abs(d.Estimate)), ci, w.pWords(ev.p, ev.boot))
 	default:
 		w.say("The data cannot tell whether the %s differs between %s %q and %q: the estimated gap is %s, but anything from %s to %s is consistent with the data (%s).",
-			w.what(), m, d.To, d.From, w.u.amount(d.Estimate), readable(w.u.scale*d.CILow), readable(w.u.scale*d.CIHigh), w.pWords(d.P))
+			w.what(), m, d.To, d.From, w.u.amount(d.Estimate), readable(w.u.scale*ev.lo), readable(w.u.scale*ev.hi), w.pWords(ev.p, ev.boot))
 	}
+}
+
+// heterogeneityP is the p-value of the test that the effect is the same
+// everywhere: the bootstrap's when it ran.
+func heterogeneityP(h *estimate.WaldTest) (p float64, boot bool) {
+	if h.PBoot != nil {
+		return *h.PBoot, true
+	}
+	return h.P, false
 }
 
 // exploratory is true for a moderator chosen after looking at the data
 // among several tried: its p-values are reported with the adjusted one.
 func (w *noteWriter) exploratory() bool { return !w.run.Planned && w.run.tried() > 1 }
 
-// pWords writes a p-value, with the adjusted one beside it for an
-// exploratory moderator (METHODS §6).
-func (w *noteWriter) pWords(p float64) string {
-	if !w.exploratory() {
-		return pText(p)
+// pWords writes a p-value, the bootstrap's when boot is set, with the
+// adjusted one beside it for an exploratory moderator (METHODS §6).
+func (w *noteWriter) pWords(p float64, boot bool) string {
+	text := pText(p)
+	if boot {
+		text = "bootstrap " + text
 	}
-	return fmt.Sprintf("%s before and %s after allowing for the %d moderators tried", pText(p), pText(w.run.AdjustedP), w.run.tried())
+	if !w.exploratory() {
+		return text
+	}
+	return fmt.Sprintf("%s before and %s after allowing for the %d moderators tried", text, pText(w.run.AdjustedP), w.run.tried())
 }
 
 // continuous covers a continuous moderator: effects at the outer probes,
@@ -187,12 +226,13 @@ func (w *noteWriter) continuous() {
 	if unit.Estimate < 0 {
 		change = "falls"
 	}
-	if unit.P < alpha {
+	ev := w.evidence(unit.Inference, unit.Boot)
+	if ev.p < alpha {
 		w.say("The %s %s by %s for each unit of %s (%s, %s): the data show that it changes with %s.",
-			w.what(), change, w.u.amount(math.Abs(unit.Estimate)), m, w.u.interval(alpha, unit.CILow, unit.CIHigh), w.pWords(unit.P), m)
+			w.what(), change, w.u.amount(math.Abs(unit.Estimate)), m, w.u.interval(alpha, ev.lo, ev.hi), w.pWords(ev.p, ev.boot), m)
 	} else {
 		w.say("The data cannot tell whether the %s changes with %s: the estimated change per unit is %s, but anything from %s to %s is consistent with the data (%s).",
-			w.what(), m, w.u.amount(unit.Estimate), readable(w.u.scale*unit.CILow), readable(w.u.scale*unit.CIHigh), w.pWords(unit.P))
+			w.what(), m, w.u.amount(unit.Estimate), readable(w.u.scale*ev.lo), readable(w.u.scale*ev.hi), w.pWords(ev.p, ev.boot))
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		w.say("%s", capitalise(significantWhere(jn, m))+".")
@@ -270,7 +310,7 @@ func (w *noteWriter) precision() {
 	}
 	sentence := fmt.Sprintf("With these data, %s would be detected reliably (%s%% power) only if it were about %s or more",
 		what, power, w.u.amount(d.MDD))
-	if d.P >= res.Model.Alpha && d.MDD > typical {
+	if w.evidence(d.Inference, d.Boot).p >= res.Model.Alpha && d.MDD > typical {
 		sentence += fmt.Sprintf(", which is larger than the typical %s itself (%s); so the absence of a clear difference is not evidence that %s works equally well for everyone", w.what(), w.u.amount(typical), treatmentName(res.Spec.Treatment))
 	}
 	w.say("%s.", sentence)
@@ -321,6 +361,39 @@ func seWords(res *estimate.Result) string {
 		return fmt.Sprintf("Standard errors allow for rows of the same %s to be alike (cluster-robust, CR1, %d clusters)", res.Spec.Cluster, res.Model.Clusters)
 	}
 	return fmt.Sprintf("Standard errors are robust to unequal spread of the outcome (%s)", res.Model.Variance)
+}
+
+// bootstrapSentences say that the p-values and intervals come from the
+// wild cluster bootstrap, how it was run, and why (METHODS §3, §8).
+func (w *noteWriter) bootstrapSentences() {
+	b := w.res.Bootstrap
+	if b == nil {
+		return
+	}
+	draws, weights := bootDraws(b), "Rademacher weights of −1 or 1 per cluster"
+	if b.Weights == estimate.Webb {
+		weights = "Webb's six-point weights"
+	}
+	if !b.Enumerated {
+		weights += fmt.Sprintf(", seed %d", b.Seed)
+	}
+	w.say("With only %d clusters, cluster-robust tests on their own make results look clearer than they are, so the p-values and intervals in this note come from a wild cluster bootstrap that imposes each hypothesis in turn (%s with %s); the tables give both.",
+		w.res.Model.Clusters, draws, weights)
+	if w.open {
+		w.say("Where the bootstrap cannot bound an interval, because so few clusters allow few distinct draws, the note shows the cluster-robust interval instead.")
+	}
+	if w.res.JohnsonNeyman != nil {
+		w.say("Where along %s the effect is distinguishable from zero is judged by the cluster-robust test.", w.res.Moderator.Column)
+	}
+}
+
+// bootDraws says how many draws the bootstrap used: "9999 draws", or "all
+// 4,096 possible draws".
+func bootDraws(b *estimate.BootstrapInfo) string {
+	if b.Enumerated {
+		return "all " + count(b.Draws) + " possible draws"
+	}
+	return count(b.Draws) + " draws"
 }
 
 // moderatorWords keeps the moderator from being read as a cause, and says

@@ -36,6 +36,8 @@ type scenario struct {
 	planned    bool
 	tried      int
 	probes     []float64
+	// noBootstrap turns the wild cluster bootstrap off.
+	noBootstrap bool
 }
 
 func (s scenario) data() *estimate.Data {
@@ -106,6 +108,7 @@ func (s scenario) run() Run {
 	if s.clusters > 0 {
 		spec.Cluster = "site"
 	}
+	spec.Bootstrap.Off = s.noBootstrap
 	r := Run{File: "coaching.xlsx", Sheet: "Participants", Spec: spec, Randomized: s.randomized,
 		Planned: s.planned, ModeratorsTried: s.tried, Version: "test",
 		Time: time.Date(2026, 3, 1, 9, 0, 0, 0, time.UTC)}
@@ -128,8 +131,8 @@ func (s scenario) fit(t *testing.T) (Run, *estimate.Result) {
 // noteScenarios are the situations the note must read right in: binary,
 // categorical and continuous moderators; binary and continuous treatments;
 // randomised or not; a clear difference, an unclear one, and an unclear
-// one the data could not have detected; a 0/1 outcome; few clusters; many
-// moderators tried.
+// one the data could not have detected; a 0/1 outcome; few clusters, with
+// the wild cluster bootstrap on and off; many moderators tried.
 var noteScenarios = map[string]scenario{
 	"binary-clear-randomized":         {n: 800, seed: 1, groups: []string{"rural", "urban"}, effects: []float64{1, 4}, noise: 3, randomized: true, planned: true},
 	"binary-unclear-precise":          {n: 20000, seed: 2, groups: []string{"rural", "urban"}, effects: []float64{2, 2.05}, noise: 3, randomized: true, planned: true},
@@ -145,6 +148,8 @@ var noteScenarios = map[string]scenario{
 	"binary-outcome-points":           {n: 3000, seed: 12, groups: []string{"rural", "urban"}, effects: []float64{0.05, 0.15}, binaryY: true, randomized: true, planned: true},
 	"few-clusters-labels":             {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true},
 	"many-moderators-tried":           {n: 800, seed: 14, groups: []string{"rural", "urban"}, effects: []float64{1, 2.5}, noise: 3, randomized: true, tried: 6},
+	"few-clusters-no-bootstrap":       {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true, noBootstrap: true},
+	"continuous-few-clusters":         {n: 700, seed: 15, effects: []float64{0.5, 0.3}, noise: 4, modMean: 5, modSD: 2, clusters: 13, randomized: true, planned: true},
 }
 
 // TestNoteGolden compares each note and its cautions with the reviewed text

@@ -22,6 +22,36 @@ type Output struct {
 	Note          string         `json:"note"`
 	Cautions      []string       `json:"cautions"`
 	Dropped       []OutDropCount `json:"dropped_reasons,omitempty"`
+	// Bootstrap says how the wild cluster bootstrap ran; null when it did
+	// not (no cluster column, 42 clusters or more, or turned off).
+	Bootstrap *OutBootstrap `json:"bootstrap"`
+}
+
+// OutBootstrap describes the wild cluster bootstrap of a run.
+type OutBootstrap struct {
+	Draws      int    `json:"draws"`
+	Weights    string `json:"weights"`
+	Enumerated bool   `json:"enumerated"`
+	Seed       uint64 `json:"seed"`
+}
+
+// OutBoot is the bootstrap's p-value and interval of an effect or a
+// difference; the interval is left out when the bootstrap cannot bound it.
+type OutBoot struct {
+	PBoot      *float64 `json:"p_boot,omitempty"`
+	CIBootLow  *float64 `json:"ci_boot_low,omitempty"`
+	CIBootHigh *float64 `json:"ci_boot_high,omitempty"`
+}
+
+func outBoot(b *estimate.BootInference) OutBoot {
+	if b == nil {
+		return OutBoot{}
+	}
+	o := OutBoot{PBoot: &b.P}
+	if b.Bounded {
+		o.CIBootLow, o.CIBootHigh = &b.CILow, &b.CIHigh
+	}
+	return o
 }
 
 // OutGroup is the effect in one group, or at one value of a continuous
@@ -34,6 +64,7 @@ type OutGroup struct {
 	CILow    float64 `json:"ci_low"`
 	CIHigh   float64 `json:"ci_high"`
 	P        float64 `json:"p"`
+	OutBoot
 }
 
 // OutDiff is one difference between groups.
@@ -45,14 +76,16 @@ type OutDiff struct {
 	CIHigh   float64 `json:"ci_high"`
 	P        float64 `json:"p"`
 	MDD      float64 `json:"mdd"`
+	OutBoot
 }
 
 // OutWald is the test that the effect is the same in every group.
 type OutWald struct {
-	F   float64 `json:"F"`
-	DF1 int     `json:"df1"`
-	DF2 float64 `json:"df2"`
-	P   float64 `json:"p"`
+	F     float64  `json:"F"`
+	DF1   int      `json:"df1"`
+	DF2   float64  `json:"df2"`
+	P     float64  `json:"p"`
+	PBoot *float64 `json:"p_boot,omitempty"`
 }
 
 // OutJN is the Johnson–Neyman result of a continuous moderator: the
@@ -98,7 +131,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 	}
 	continuous := res.Moderator.Kind == estimate.ModeratorContinuous
 	for _, e := range res.Effects {
-		g := OutGroup{Label: e.Group, Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P}
+		g := OutGroup{Label: e.Group, Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P, OutBoot: outBoot(e.Boot)}
 		if continuous {
 			g.Label = formatValue(e.Value)
 		}
@@ -108,10 +141,13 @@ func Summarize(run Run, res *estimate.Result) Output {
 	}
 	for _, d := range res.Differences {
 		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d, formatValue), Estimate: d.Estimate, SE: d.SE,
-			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD})
+			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD, OutBoot: outBoot(d.Boot)})
 	}
 	if h := res.Heterogeneity; h != nil {
-		o.Heterogeneity = &OutWald{F: h.F, DF1: h.DF1, DF2: float64(h.DF2), P: h.P}
+		o.Heterogeneity = &OutWald{F: h.F, DF1: h.DF1, DF2: float64(h.DF2), P: h.P, PBoot: h.PBoot}
+	}
+	if b := res.Bootstrap; b != nil {
+		o.Bootstrap = &OutBootstrap{Draws: b.Draws, Weights: string(b.Weights), Enumerated: b.Enumerated, Seed: b.Seed}
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		bounds := []float64{}

@@ -172,6 +172,10 @@ func (b *sheetBuilder) effects() {
 		effect = "Difference associated"
 	}
 	head = append(head, HeadingCell(effect), HeadingCell("Std. error"), HeadingCell(ci+" low"), HeadingCell(ci+" high"), HeadingCell("p-value"))
+	boot := res.Bootstrap != nil
+	if boot {
+		head = append(head, bootHeadings(res)...)
+	}
 	var vals []float64
 	for _, e := range res.Effects {
 		vals = append(vals, e.Estimate, e.SE, e.CILow, e.CIHigh)
@@ -190,7 +194,13 @@ func (b *sheetBuilder) effects() {
 			row = append(row, NumberCell(float64(e.Treated), "#,##0"), NumberCell(float64(e.Untreated), "#,##0"))
 		}
 		row = append(row, NumberCell(e.Estimate, f), NumberCell(e.SE, f), NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
+		if boot {
+			row = append(row, bootCells(e.Boot, f)...)
+		}
 		rows = append(rows, row)
+	}
+	if boot {
+		rows = append(rows, bootFootnote(res)...)
 	}
 	if continuous {
 		rows = append(rows, []Cell{TextCell(fmt.Sprintf("Rows nearby: rows whose %s lies within 10%% of the observed range of the value.", res.Moderator.Column))})
@@ -222,6 +232,10 @@ func (b *sheetBuilder) differences() {
 	head := []Cell{HeadingCell("Comparison"), HeadingCell("Difference"), HeadingCell("Std. error"),
 		HeadingCell(ci + " low"), HeadingCell(ci + " high"), HeadingCell("p-value"),
 		HeadingCell("Smallest difference detectable (" + power + "% power)")}
+	boot := res.Bootstrap != nil
+	if boot {
+		head = append(head, bootHeadings(res)...)
+	}
 	var vals []float64
 	for _, d := range res.Differences {
 		vals = append(vals, d.Estimate, d.SE, d.CILow, d.CIHigh, d.MDD)
@@ -229,18 +243,64 @@ func (b *sheetBuilder) differences() {
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
 	for _, d := range res.Differences {
-		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
-			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)})
+		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)}
+		if boot {
+			row = append(row, bootCells(d.Boot, f)...)
+		}
+		rows = append(rows, row)
 	}
 	if h := res.Heterogeneity; h != nil {
-		rows = append(rows, []Cell{}, []Cell{HeadingCell("Same effect in every group?"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")},
-			[]Cell{TextCell(fmt.Sprintf("test of all %d interaction terms", h.DF1)), NumberCell(h.F, "0.000"), NumberCell(float64(h.DF1), "0"), NumberCell(float64(h.DF2), "0"), PValueCell(h.P)})
+		head := []Cell{HeadingCell("Same effect in every group?"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")}
+		row := []Cell{TextCell(fmt.Sprintf("test of all %d interaction terms", h.DF1)), NumberCell(h.F, "0.000"), NumberCell(float64(h.DF1), "0"), NumberCell(float64(h.DF2), "0"), PValueCell(h.P)}
+		if h.PBoot != nil {
+			head = append(head, HeadingCell("Bootstrap p-value"))
+			row = append(row, PValueCell(*h.PBoot))
+		}
+		rows = append(rows, []Cell{}, head, row)
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		rows = append(rows, []Cell{}, []Cell{HeadingCell("Where the effect is distinguishable from zero")},
 			[]Cell{ParagraphCell(capitalise(significantWhere(jn, res.Moderator.Column))+" (Johnson–Neyman interval, "+level(res.Model.Alpha)+" confidence).", tableWidth)})
 	}
 	b.add("differences", "Differences between groups", rows)
+}
+
+// bootHeadings are the column headings of the wild cluster bootstrap.
+func bootHeadings(res *estimate.Result) []Cell {
+	ci := "Bootstrap " + level(res.Model.Alpha) + " CI"
+	return []Cell{HeadingCell("Bootstrap p-value"), HeadingCell(ci + " low"), HeadingCell(ci + " high")}
+}
+
+// bootCells are the bootstrap's p-value and interval, the interval blank
+// when the bootstrap cannot bound it.
+func bootCells(b *estimate.BootInference, format string) []Cell {
+	switch {
+	case b == nil:
+		return []Cell{{}, {}, {}}
+	case !b.Bounded:
+		return []Cell{PValueCell(b.P), TextCell("unbounded"), TextCell("unbounded")}
+	}
+	return []Cell{PValueCell(b.P), NumberCell(b.CILow, format), NumberCell(b.CIHigh, format)}
+}
+
+// bootFootnote says under a table where the bootstrap columns come from.
+func bootFootnote(res *estimate.Result) [][]Cell {
+	return [][]Cell{{ParagraphCell("Bootstrap columns: "+bootstrapWords(res)+"; the interval holds the values its test does not reject.", tableWidth)}}
+}
+
+// bootstrapWords describes how the wild cluster bootstrap was run.
+func bootstrapWords(res *estimate.Result) string {
+	b := res.Bootstrap
+	weights := "Rademacher weights"
+	if b.Weights == estimate.Webb {
+		weights = "Webb's six-point weights"
+	}
+	w := fmt.Sprintf("restricted wild cluster bootstrap-t over %d clusters, %s, %s", res.Model.Clusters, bootDraws(b), weights)
+	if !b.Enumerated {
+		w += fmt.Sprintf(", seed %d", b.Seed)
+	}
+	return w
 }
 
 // comparisonLabel names a difference: "urban vs rural", or for a
@@ -293,11 +353,25 @@ func settings(run Run, res *estimate.Result) []Setting {
 		{"Residual standard deviation", fmt.Sprint(m.Sigma)},
 		{"R²", fmt.Sprint(m.R2)},
 		{"Condition number (scaled)", readable(m.Condition)},
+		{"Wild cluster bootstrap", bootstrapSetting(res)},
 		{"SHA-256 of the values used", m.DataSHA256},
 		{"Program", "Slopewise " + run.Version},
 		{"Run at", run.Time.UTC().Format("2006-01-02 15:04 UTC")},
 	}
 	return out
+}
+
+// bootstrapSetting says whether and how the bootstrap ran.
+func bootstrapSetting(res *estimate.Result) string {
+	switch {
+	case res.Bootstrap != nil:
+		return bootstrapWords(res)
+	case res.Model.Variance != estimate.CR1:
+		return "not used (it needs a cluster column)"
+	case res.Spec.Bootstrap.Off:
+		return "turned off"
+	}
+	return fmt.Sprintf("not used (%d clusters; it runs with fewer than %d)", res.Model.Clusters, estimate.BootstrapClusters)
 }
 
 // numberFormat picks a display format with about four significant digits
