@@ -14,26 +14,12 @@ test: deps vet go-test fuzz
 # System packages: R and sandwich are the independent check of the engine
 # (testdata/r/). Installed only when missing; needs root or sudo.
 deps:
-	@missing=""; for p in $(APT_PACKAGES); do \
-	  dpkg -s $$p >/dev/null 2>&1 || missing="$$missing $$p"; done; \
-	if [ -n "$$missing" ]; then \
-	  echo "installing:$$missing"; \
-	  SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
-	  $$SUDO apt-get update -qq && \
-	  DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
-	fi
+	scripts/apt-install.sh $(APT_PACKAGES)
 	$(GO) mod download
 
 # What building the program needs: the GL and X11 headers, Go modules.
 build-deps:
-	@missing=""; for p in $(GUI_PACKAGES); do \
-	  dpkg -s $$p >/dev/null 2>&1 || missing="$$missing $$p"; done; \
-	if [ -n "$$missing" ]; then \
-	  echo "installing:$$missing"; \
-	  SUDO=""; [ "$$(id -u)" = 0 ] || SUDO=sudo; \
-	  $$SUDO apt-get update -qq && \
-	  DEBIAN_FRONTEND=noninteractive $$SUDO apt-get install -y -qq --no-install-recommends $$missing; \
-	fi
+	scripts/apt-install.sh $(GUI_PACKAGES)
 	$(GO) mod download
 
 build: build-deps

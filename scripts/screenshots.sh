@@ -6,12 +6,7 @@
 set -euo pipefail
 bin=${1:-bin/slopewise}
 out=${2:-docs/screenshots}
-missing=""
-for p in xvfb imagemagick; do dpkg -s "$p" >/dev/null 2>&1 || missing="$missing $p"; done
-if [ -n "$missing" ]; then
-  SUDO=""; [ "$(id -u)" = 0 ] || SUDO=sudo
-  $SUDO apt-get update -qq && DEBIAN_FRONTEND=noninteractive $SUDO apt-get install -y -qq $missing
-fi
+"$(dirname "$0")/apt-install.sh" xvfb xauth imagemagick
 mkdir -p "$out"
 home=$(mktemp -d)   # a fresh home: no recent files, default window size
 trap 'rm -rf "$home"' EXIT

@@ -78,9 +78,7 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 	cols := &columns{n: width, first: 2}
 	for _, r := range rows {
 		if len(r) == 1 && r[0].Kind == report.Paragraph {
-			l := widget.NewLabel(r[0].Text)
-			l.Wrapping = fyne.TextWrapWord
-			out.Add(l)
+			out.Add(paragraph(r[0].Text))
 			continue
 		}
 		row := container.New(cols)
@@ -139,9 +137,7 @@ func pairs(rows [][]report.Cell) fyne.CanvasObject {
 	out := container.NewVBox()
 	for _, r := range rows {
 		if len(r) == 1 && r[0].Kind == report.Paragraph {
-			l := widget.NewLabel(r[0].Text)
-			l.Wrapping = fyne.TextWrapWord
-			out.Add(l)
+			out.Add(paragraph(r[0].Text))
 			continue
 		}
 		label, value := "", report.Cell{}
@@ -162,6 +158,13 @@ func pairs(rows [][]report.Cell) fyne.CanvasObject {
 		out.Objects = append([]fyne.CanvasObject{f}, out.Objects...)
 	}
 	return out
+}
+
+// paragraph is wrapped text across the width.
+func paragraph(text string) *widget.Label {
+	l := widget.NewLabel(text)
+	l.Wrapping = fyne.TextWrapWord
+	return l
 }
 
 // cellWidget shows one cell as its display format says.
