@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"encoding/hex"
 	"fmt"
+	"hash"
 	"math"
 )
 
@@ -42,15 +43,13 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 
 	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
 		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
-	res.Model.R2, res.Model.AdjR2 = ds.rSquared(f)
-	res.Model.OutcomeBinary = true
-	for _, y := range ds.y {
-		if y != 0 && y != 1 {
-			res.Model.OutcomeBinary = false
-			break
-		}
+	facts := ds.facts
+	if facts == nil {
+		facts = ds.rowFacts(f)
 	}
-	res.Model.DataSHA256 = ds.hash()
+	res.Model.R2, res.Model.AdjR2 = facts.r2, facts.adjR2
+	res.Model.OutcomeBinary = facts.outcomeBinary
+	res.Model.DataSHA256 = facts.hash
 
 	res.Covariance = make([][]float64, k)
 	for i := 0; i < k; i++ {
@@ -63,7 +62,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	if ds.modValue != nil {
 		ds.continuousEffects(s, in, res)
 	} else {
-		ds.groupEffects(s, in, res)
+		ds.groupEffects(s, in, res, facts)
 	}
 	if w, ok := in.wald(ds.iCols); ok {
 		res.Heterogeneity = &w
@@ -73,34 +72,22 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	return res
 }
 
-// hash returns the SHA-256 of the values used, as little-endian float64
-// bits in order: model matrix, outcome, weights, cluster numbers.
-func (ds *design) hash() string {
-	h := sha256.New()
-	buf := make([]byte, 0, 8*1024)
-	put := func(v uint64) {
-		buf = binary.LittleEndian.AppendUint64(buf, v)
-		if len(buf) == cap(buf) {
-			h.Write(buf)
-			buf = buf[:0]
-		}
-	}
-	for _, xs := range [][]float64{ds.x, ds.y, ds.w} {
-		for _, v := range xs {
-			put(math.Float64bits(v))
-		}
-	}
-	for _, c := range ds.cluster {
-		put(uint64(c))
-	}
-	h.Write(buf)
-	return hex.EncodeToString(h.Sum(nil))
+// rowFacts are what the result says about the rows used besides the fit:
+// R², whether the outcome is 0/1, the data's hash, and each moderator
+// group's rows and treated rows. The in-memory fit reads them off the
+// design (rowFacts); the streamed fit gathers them as the rows pass.
+type rowFacts struct {
+	r2, adjR2     float64
+	outcomeBinary bool
+	hash          string
+	rows, treated []int // by moderator level
 }
 
-// rSquared returns R² and adjusted R², weighted when there are weights
-// (the model always has an intercept, so both are centred).
-func (ds *design) rSquared(f *lsFit) (float64, float64) {
+// rowFacts computes the facts from the design's rows.
+func (ds *design) rowFacts(f *lsFit) *rowFacts {
+	rf := &rowFacts{outcomeBinary: true}
 	var sw, swy float64
+	h := newRowHash()
 	for i, y := range ds.y {
 		w := 1.0
 		if ds.w != nil {
@@ -108,7 +95,12 @@ func (ds *design) rSquared(f *lsFit) (float64, float64) {
 		}
 		sw += w
 		swy += w * y
+		if y != 0 && y != 1 {
+			rf.outcomeBinary = false
+		}
+		h.row(ds.x[i*ds.k:(i+1)*ds.k], y, ds.w, i, ds.cluster)
 	}
+	rf.hash = h.sum()
 	mean := swy / sw
 	var tss float64
 	for i, y := range ds.y {
@@ -118,14 +110,71 @@ func (ds *design) rSquared(f *lsFit) (float64, float64) {
 		}
 		tss += w * (y - mean) * (y - mean)
 	}
-	r2 := 1 - f.rss/tss
-	adj := 1 - (1-r2)*float64(ds.n-1)/float64(ds.n-ds.k)
+	rf.r2, rf.adjR2 = rSquared(f.rss, tss, ds.n, ds.k)
+	if ds.modLevel != nil {
+		rf.rows = make([]int, len(ds.levels))
+		rf.treated = make([]int, len(ds.levels))
+		for r, l := range ds.modLevel {
+			rf.rows[l]++
+			if ds.treat[r] == 1 {
+				rf.treated[l]++
+			}
+		}
+	}
+	return rf
+}
+
+// rSquared returns R² and adjusted R² from the residual and total sums of
+// squares, weighted when there are weights (the model always has an
+// intercept, so both are centred).
+func rSquared(rss, tss float64, n, k int) (float64, float64) {
+	r2 := 1 - rss/tss
+	adj := 1 - (1-r2)*float64(n-1)/float64(n-k)
 	return r2, adj
+}
+
+// rowHash is the SHA-256 of the values used, row by row, as little-endian
+// float64 bits: the row of the model matrix, the outcome, the weight (when
+// there are weights) and the cluster number (when there are clusters).
+// Row by row, so that a streamed fit computes it in one pass.
+type rowHash struct {
+	h   hash.Hash
+	buf []byte
+}
+
+func newRowHash() *rowHash { return &rowHash{h: sha256.New(), buf: make([]byte, 0, 8*1024)} }
+
+// row adds row i; w and cluster are nil when the model has none.
+func (rh *rowHash) row(x []float64, y float64, w []float64, i int, cluster []int) {
+	for _, v := range x {
+		rh.put(math.Float64bits(v))
+	}
+	rh.put(math.Float64bits(y))
+	if w != nil {
+		rh.put(math.Float64bits(w[i]))
+	}
+	if cluster != nil {
+		rh.put(uint64(cluster[i]))
+	}
+}
+
+func (rh *rowHash) put(v uint64) {
+	rh.buf = binary.LittleEndian.AppendUint64(rh.buf, v)
+	if len(rh.buf) == cap(rh.buf) {
+		rh.h.Write(rh.buf)
+		rh.buf = rh.buf[:0]
+	}
+}
+
+func (rh *rowHash) sum() string {
+	rh.h.Write(rh.buf)
+	rh.buf = rh.buf[:0]
+	return hex.EncodeToString(rh.h.Sum(nil))
 }
 
 // groupEffects fills the effects and differences of a binary or
 // categorical moderator: θ(level) = b1 + b3[level] (METHODS §4).
-func (ds *design) groupEffects(s Spec, in *inferencer, res *Result) {
+func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFacts) {
 	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Levels: ds.levels, Reference: ds.levels[ds.ref]}
 	binaryT := s.Treatment.Kind != TreatmentContinuous
 	// icol[level] is the interaction column of the level, −1 for the reference.
@@ -139,14 +188,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result) {
 		icol[j] = ds.iCols[next]
 		next++
 	}
-	rows := make([]int, len(ds.levels))
-	treated := make([]int, len(ds.levels))
-	for r, l := range ds.modLevel {
-		rows[l]++
-		if ds.treat[r] == 1 {
-			treated[l]++
-		}
-	}
+	rows, treated := facts.rows, facts.treated
 	// Report order: the reference first, then the other levels in order.
 	order := []int{ds.ref}
 	for j := range ds.levels {

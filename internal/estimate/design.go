@@ -65,6 +65,9 @@ type design struct {
 	// effectA and diffA are the combinations a of the coefficients that
 	// give each effect and difference of the result, in its order.
 	effectA, diffA [][]float64
+
+	// facts, when set, were gathered by a streamed fit, which keeps no rows.
+	facts *rowFacts
 }
 
 // roleColumn pairs a column with the words used for its role in messages.
