@@ -34,11 +34,13 @@ Usage:
   slopewise FILE                 open the window with a workbook
   slopewise analyze FILE [options]
                                  fit the model and write a results sheet into FILE
+  slopewise screen FILE [options]
+                                 try several moderators, adjusted for how many
   slopewise demo DIR             write the demonstration workbook into DIR
   slopewise version              print the version
   slopewise help [COMMAND]       this help, or a command's
 
-Run "slopewise help analyze" for the analysis options.
+Run "slopewise help analyze" or "slopewise help screen" for the options.
 `
 
 const analyzeUsage = `Usage: slopewise analyze FILE --outcome COL --treatment COL --moderator COL [options]
@@ -110,6 +112,8 @@ func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	switch args[0] {
 	case "analyze":
 		err = analyze(ctx, args[1:], stdout, stderr)
+	case "screen":
+		err = screen(ctx, args[1:], stdout, stderr)
 	case "demo":
 		err = demo(args[1:], stdout)
 	case "version", "--version":
@@ -123,6 +127,8 @@ func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 		switch topic {
 		case "analyze":
 			fmt.Fprint(stdout, analyzeUsage)
+		case "screen":
+			fmt.Fprint(stdout, screenUsage)
 		case "demo":
 			fmt.Fprint(stdout, demoUsage)
 		case "":
@@ -150,38 +156,36 @@ func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	return exitData
 }
 
-// analyzeFlags are the options of the analyze command.
-type analyzeFlags struct {
-	file                          string
-	outcome, treatment, moderator string
-	moderatorType, treated, ref   string
-	values, center, controls      string
-	cluster, weights, se, sheet   string
-	out                           string
-	randomized, planned           bool
-	json, dryRun                  bool
-	alpha                         float64
-	headerRow                     int
-	noBootstrap                   bool
-	draws                         int
-	seed                          uint64
+// modelFlags are the options analyze and screen share: the roles other
+// than the moderator, the standard errors, the bootstrap and the output.
+type modelFlags struct {
+	file                        string
+	outcome, treatment, treated string
+	controls, cluster, weights  string
+	se, sheet, out              string
+	randomized, json, dryRun    bool
+	alpha                       float64
+	headerRow                   int
+	noBootstrap                 bool
+	draws                       int
+	seed                        uint64
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
 
-func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
-	var f analyzeFlags
-	fs := flag.NewFlagSet("analyze", flag.ContinueOnError)
+// newFlagSet is a command's options, quiet on errors (cli reports them)
+// and printing usage for -h.
+func newFlagSet(name, usage string, stdout io.Writer) *flag.FlagSet {
+	fs := flag.NewFlagSet(name, flag.ContinueOnError)
 	fs.SetOutput(io.Discard)
-	fs.Usage = func() { fmt.Fprint(stdout, analyzeUsage) }
+	fs.Usage = func() { fmt.Fprint(stdout, usage) }
+	return fs
+}
+
+func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.outcome, "outcome", "", "")
 	fs.StringVar(&f.treatment, "treatment", "", "")
-	fs.StringVar(&f.moderator, "moderator", "", "")
-	fs.StringVar(&f.moderatorType, "moderator-type", "", "")
 	fs.StringVar(&f.treated, "treated", "", "")
-	fs.StringVar(&f.ref, "reference", "", "")
-	fs.StringVar(&f.values, "moderator-values", "", "")
-	fs.StringVar(&f.center, "center", "", "")
 	fs.StringVar(&f.controls, "controls", "", "")
 	fs.StringVar(&f.cluster, "cluster", "", "")
 	fs.StringVar(&f.weights, "weights", "", "")
@@ -189,7 +193,6 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.sheet, "sheet", "", "")
 	fs.StringVar(&f.out, "out", "", "")
 	fs.BoolVar(&f.randomized, "randomized", false, "")
-	fs.BoolVar(&f.planned, "planned", false, "")
 	fs.BoolVar(&f.json, "json", false, "")
 	fs.BoolVar(&f.dryRun, "dry-run", false, "")
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "")
@@ -197,16 +200,19 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.BoolVar(&f.noBootstrap, "no-bootstrap", false, "")
 	fs.IntVar(&f.draws, "draws", 0, "")
 	fs.Uint64Var(&f.seed, "seed", 0, "")
+}
 
-	// The file may come before or after the options.
+// parse reads the command line into fs, the file coming before or after
+// the options; noFile is the message when no file is given.
+func (f *modelFlags) parse(fs *flag.FlagSet, args []string, noFile string) error {
 	var positional []string
 	for len(args) > 0 {
 		if err := fs.Parse(args); err != nil {
 			if errors.Is(err, flag.ErrHelp) {
 				fs.Usage()
-				return nil, err
+				return err
 			}
-			return nil, usageError{err.Error()}
+			return usageError{err.Error()}
 		}
 		args = fs.Args()
 		if len(args) > 0 {
@@ -218,21 +224,46 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.Visit(func(fl *flag.Flag) { f.set[fl.Name] = true })
 	switch len(positional) {
 	case 0:
-		return nil, usagef("give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …")
+		return usagef("%s", noFile)
 	case 1:
 		f.file = positional[0]
 	default:
-		return nil, usagef("one file at a time, but %d were given (%s)", len(positional), strings.Join(positional, ", "))
+		return usagef("one file at a time, but %d were given (%s)", len(positional), strings.Join(positional, ", "))
+	}
+	return nil
+}
+
+// analyzeFlags are the options of the analyze command.
+type analyzeFlags struct {
+	modelFlags
+	moderator, moderatorType, ref string
+	values, center                string
+	planned                       bool
+}
+
+func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
+	var f analyzeFlags
+	fs := newFlagSet("analyze", analyzeUsage, stdout)
+	f.register(fs)
+	fs.StringVar(&f.moderator, "moderator", "", "")
+	fs.StringVar(&f.moderatorType, "moderator-type", "", "")
+	fs.StringVar(&f.ref, "reference", "", "")
+	fs.StringVar(&f.values, "moderator-values", "", "")
+	fs.StringVar(&f.center, "center", "", "")
+	fs.BoolVar(&f.planned, "planned", false, "")
+	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
+		return nil, err
 	}
 	return &f, f.check()
 }
 
 // check rejects options that are missing or do not go together.
 func (f *analyzeFlags) check() error {
-	for _, req := range []struct{ name, v string }{{"outcome", f.outcome}, {"treatment", f.treatment}, {"moderator", f.moderator}} {
-		if req.v == "" {
-			return usagef("--%s is required", req.name)
-		}
+	if err := f.checkRoles(); err != nil {
+		return err
+	}
+	if f.moderator == "" {
+		return usagef("--moderator is required")
 	}
 	switch f.moderatorType {
 	case "", "binary", "category", "number":
@@ -251,6 +282,21 @@ func (f *analyzeFlags) check() error {
 	if _, err := f.centre(); err != nil {
 		return err
 	}
+	return f.modelFlags.check()
+}
+
+// checkRoles insists on the roles every model needs.
+func (f *modelFlags) checkRoles() error {
+	for _, req := range []struct{ name, v string }{{"outcome", f.outcome}, {"treatment", f.treatment}} {
+		if req.v == "" {
+			return usagef("--%s is required", req.name)
+		}
+	}
+	return nil
+}
+
+// check rejects shared options that do not go together.
+func (f *modelFlags) check() error {
 	switch f.se {
 	case "", "classical", "hc0", "hc1", "hc2", "hc3", "cluster":
 	default:
@@ -275,7 +321,7 @@ func (f *analyzeFlags) check() error {
 }
 
 // checkBootstrap rejects bootstrap options that cannot take effect.
-func (f *analyzeFlags) checkBootstrap() error {
+func (f *modelFlags) checkBootstrap() error {
 	for _, name := range []string{"no-bootstrap", "draws", "seed"} {
 		if f.set[name] && f.cluster == "" {
 			return usagef("--%s is about the wild cluster bootstrap, which needs --cluster COL", name)
@@ -342,22 +388,9 @@ var seTypes = map[string]estimate.VarianceType{
 
 // spec turns the options and the table's columns into the run's spec.
 func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
-	for _, name := range append([]string{f.outcome, f.treatment, f.moderator, f.cluster, f.weights}, splitList(f.controls)...) {
-		if name != "" && t.Column(name) == nil {
-			return estimate.Spec{}, missingColumn(t, name)
-		}
-	}
-	s := estimate.Spec{
-		Outcome:  f.outcome,
-		Controls: splitList(f.controls),
-		Cluster:  f.cluster, Weights: f.weights,
-		Variance: seTypes[f.se], Alpha: f.alpha,
-		Bootstrap: estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
-	}
-	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
-		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
-	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
-		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
+	s, err := f.baseSpec(t, f.moderator)
+	if err != nil {
+		return s, err
 	}
 	m := estimate.Moderator{Column: f.moderator, Reference: f.ref}
 	switch {
@@ -374,6 +407,73 @@ func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
 	m.Centre, _ = f.centre()
 	s.Moderator = m
 	return s, nil
+}
+
+// baseSpec is the spec without its moderator, after checking that every
+// column named, the moderators included, is in the table.
+func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate.Spec, error) {
+	names := append([]string{f.outcome, f.treatment}, moderators...)
+	for _, name := range append(append(names, f.cluster, f.weights), splitList(f.controls)...) {
+		if name != "" && t.Column(name) == nil {
+			return estimate.Spec{}, missingColumn(t, name)
+		}
+	}
+	s := estimate.Spec{
+		Outcome:   f.outcome,
+		Controls:  splitList(f.controls),
+		Cluster:   f.cluster,
+		Weights:   f.weights,
+		Variance:  seTypes[f.se],
+		Alpha:     f.alpha,
+		Bootstrap: estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
+	}
+	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
+		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
+	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
+		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
+	}
+	return s, nil
+}
+
+// run is the run's file, sheet and facts, before its spec is known.
+func (f *modelFlags) run() report.Run {
+	return report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Randomized: f.randomized, Version: version, Time: time.Now()}
+}
+
+// human is where the readable summary goes: standard error when standard
+// output carries the JSON.
+func (f *modelFlags) human(stdout, stderr io.Writer) io.Writer {
+	if f.json {
+		return stderr
+	}
+	return stdout
+}
+
+// save writes the results sheet unless this is a dry run, and says where.
+func (f *modelFlags) save(human io.Writer, save func(workbook.WriteOptions) (*workbook.Written, error)) error {
+	if f.dryRun {
+		fmt.Fprintln(human, "\nDry run: nothing was written.")
+		return nil
+	}
+	w, err := save(workbook.WriteOptions{CopyTo: f.out})
+	if err != nil {
+		return err
+	}
+	fmt.Fprintf(human, "\nResults written to %s, sheet %q.\n", w.Path, w.Sheet)
+	if w.Backup != "" {
+		fmt.Fprintf(human, "The file as it was before is kept as %s.\n", w.Backup)
+	}
+	for _, l := range w.Lost {
+		fmt.Fprintf(human, "Not kept in the copy: %s\n", l)
+	}
+	return nil
+}
+
+// printJSON writes v as indented JSON.
+func printJSON(w io.Writer, v any) error {
+	enc := json.NewEncoder(w)
+	enc.SetIndent("", "  ")
+	return enc.Encode(v)
 }
 
 func missingColumn(t *workbook.Table, name string) error {
@@ -393,8 +493,8 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
-	run := report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Randomized: f.randomized,
-		Planned: f.planned, Version: version, Time: time.Now()}
+	run := f.run()
+	run.Planned = f.planned
 	t, err := pipeline.Read(ctx, run, nil)
 	if err != nil {
 		return err
@@ -406,30 +506,13 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
-	human := stdout
-	if f.json {
-		human = stderr
-	}
+	human := f.human(stdout, stderr)
 	printSummary(human, a)
-	if !f.dryRun {
-		w, err := a.Save(workbook.WriteOptions{CopyTo: f.out})
-		if err != nil {
-			return err
-		}
-		fmt.Fprintf(human, "\nResults written to %s, sheet %q.\n", w.Path, w.Sheet)
-		if w.Backup != "" {
-			fmt.Fprintf(human, "The file as it was before is kept as %s.\n", w.Backup)
-		}
-		for _, l := range w.Lost {
-			fmt.Fprintf(human, "Not kept in the copy: %s\n", l)
-		}
-	} else {
-		fmt.Fprintln(human, "\nDry run: nothing was written.")
+	if err := f.save(human, a.Save); err != nil {
+		return err
 	}
 	if f.json {
-		enc := json.NewEncoder(stdout)
-		enc.SetIndent("", "  ")
-		return enc.Encode(report.Summarize(a.Run, a.Result))
+		return printJSON(stdout, report.Summarize(a.Run, a.Result))
 	}
 	return nil
 }
@@ -473,9 +556,7 @@ func bootText(b report.OutBoot) string {
 
 // demo writes the demonstration workbook into a folder.
 func demo(args []string, stdout io.Writer) error {
-	fs := flag.NewFlagSet("demo", flag.ContinueOnError)
-	fs.SetOutput(io.Discard)
-	fs.Usage = func() { fmt.Fprint(stdout, demoUsage) }
+	fs := newFlagSet("demo", demoUsage, stdout)
 	if err := fs.Parse(args); err != nil {
 		if errors.Is(err, flag.ErrHelp) {
 			fs.Usage()

@@ -16,6 +16,7 @@ import (
 	"github.com/xuri/excelize/v2"
 
 	demodata "slopewise/internal/demo"
+	"slopewise/internal/estimate"
 	"slopewise/internal/report"
 )
 
@@ -128,6 +129,9 @@ func TestHelp(t *testing.T) {
 		{[]string{"help", "analyze"}, "--moderator-values"},
 		{[]string{"analyze", "--help"}, "--moderator-values"},
 		{[]string{"help", "analyze"}, "--no-bootstrap"},
+		{[]string{"help", "screen"}, "--moderators A,B"},
+		{[]string{"screen", "--help"}, "--planned A"},
+		{[]string{"help"}, "slopewise screen FILE"},
 		{[]string{"help", "analyze"}, "--draws B"},
 		{[]string{"help", "analyze"}, "--seed N"},
 		{[]string{"help", "demo"}, "known"},
@@ -554,5 +558,140 @@ func TestBootstrapFlags(t *testing.T) {
 	}
 	if note := off["note"].(string); strings.Contains(note, "bootstrap") {
 		t.Errorf("--no-bootstrap: the note speaks of the bootstrap:\n%s", note)
+	}
+}
+
+// TestScreenUsageErrors checks that every malformed screen command line
+// exits with 2 and a message that says what to fix.
+func TestScreenUsageErrors(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "warp_cat.csv"))
+	base := []string{"screen", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "B"}
+	with := func(extra ...string) []string { return append(append([]string{}, base...), extra...) }
+	cases := []struct {
+		name  string
+		args  []string
+		words string
+	}{
+		{"no file", []string{"screen", "--outcome", "y"}, "give the workbook to screen"},
+		{"missing outcome", []string{"screen", csv, "--treatment", "wool", "--moderators", "a,b"}, "--outcome is required"},
+		{"no moderators", with(), "--moderators needs at least two columns"},
+		{"one moderator", with("--moderators", "tension"), "for one moderator use analyze"},
+		{"moderator twice", with("--moderators", "tension,breaks,tension"), `--moderators lists "tension" twice`},
+		{"planned not tried", with("--moderators", "tension,breaks", "--planned", "wool"), `--planned names "wool", which is not among --moderators`},
+		{"analyze's --moderator", with("--moderator", "tension"), "--moderator is an option of analyze"},
+		{"analyze's --center", with("--moderators", "a,b", "--center=3"), "--center is an option of analyze"},
+		{"analyze's --reference", with("--moderators", "a,b", "-reference", "L"), "--reference is an option of analyze"},
+		{"bad se", with("--moderators", "a,b", "--se", "hc9"), "classical, hc0, hc1, hc2, hc3 or cluster"},
+		{"seed without cluster", with("--moderators", "a,b", "--seed", "2"), "--seed is about the wild cluster bootstrap"},
+		{"unknown flag", with("--moderators", "a,b", "--colour", "red"), "flag provided but not defined: -colour"},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			code, _, errs := runCLI(t, c.args...)
+			if code != exitUsage {
+				t.Errorf("exit %d, want %d; stderr:\n%s", code, exitUsage, errs)
+			}
+			if !strings.Contains(errs, c.words) || !strings.Contains(errs, `"slopewise help screen"`) {
+				t.Errorf("stderr does not say %q and point at the help:\n%s", c.words, errs)
+			}
+		})
+	}
+}
+
+// TestScreenDataErrors checks that a moderator the data cannot support
+// exits with 1 and a message naming it.
+func TestScreenDataErrors(t *testing.T) {
+	path := writeDemo(t)
+	base := []string{"screen", path, "--dry-run", "--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached}
+	for _, c := range []struct {
+		name  string
+		extra []string
+		words []string
+	}{
+		{"no such column", []string{"--moderators", demodata.ColRegion + ",regoin"}, []string{`no column "regoin"`}},
+		{"moderator is a control", []string{"--moderators", demodata.ColRegion + "," + demodata.ColAge, "--controls", demodata.ColAge},
+			[]string{`Moderator "` + demodata.ColAge + `"`, "both moderator and a control"}},
+	} {
+		code, _, errs := runCLI(t, append(append([]string{}, base...), c.extra...)...)
+		if code != exitData {
+			t.Errorf("%s: exit %d, want %d; stderr:\n%s", c.name, code, exitData, errs)
+		}
+		for _, w := range c.words {
+			if !strings.Contains(errs, w) {
+				t.Errorf("%s: stderr does not say %q:\n%s", c.name, w, errs)
+			}
+		}
+	}
+}
+
+// TestScreenEndToEnd screens the demo's three moderators: the JSON
+// contract (README, "JSON output of screen"), the adjustment over all of
+// them (Holm 1979 and Benjamini–Hochberg 1995, as in estimate.AdjustHolm
+// and AdjustBH, themselves checked against R's p.adjust), and the sheet
+// written into a copy with the summary at the top and each moderator below.
+func TestScreenEndToEnd(t *testing.T) {
+	path := writeDemo(t)
+	copyPath := filepath.Join(t.TempDir(), "screened.xlsx")
+	mods := []string{demodata.ColRegion, demodata.ColFirstTime, demodata.ColBaselineScore}
+	code, out, errs := runCLI(t, "screen", path, "--out", copyPath, "--json", "--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached,
+		"--moderators", strings.Join(mods, ","), "--planned", demodata.ColRegion, "--controls", demodata.ColAge,
+		"--cluster", demodata.ColSite, "--randomized", "--draws", "999")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.ScreenOutput
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatalf("stdout is not the screen JSON: %v\n%s", err, out)
+	}
+	var raw map[string]any
+	if err := json.Unmarshal([]byte(out), &raw); err != nil {
+		t.Fatal(err)
+	}
+	for _, key := range []string{"moderator", "planned", "heterogeneity", "p_holm", "q_bh", "mdd", "largest_difference", "largest_between", "detail"} {
+		if _, ok := raw["moderators"].([]any)[0].(map[string]any)[key]; !ok {
+			t.Errorf("a moderator lacks %q", key)
+		}
+	}
+	if o.Tried != 3 || len(o.Moderators) != 3 || o.Bootstrap == nil || o.Bootstrap.Draws != 999 {
+		t.Fatalf("tried %d, %d moderators, bootstrap %+v", o.Tried, len(o.Moderators), o.Bootstrap)
+	}
+	var p []float64
+	for i, m := range o.Moderators {
+		if m.Moderator != mods[i] || m.Planned != (i == 0) || m.Heterogeneity == nil || m.Heterogeneity.PBoot == nil {
+			t.Fatalf("moderator %d: %+v", i, m)
+		}
+		p = append(p, *m.Heterogeneity.PBoot)
+		if m.Detail.NUsed == 0 || len(m.Detail.Groups) == 0 || m.MDD <= 0 || m.LargestDifference <= 0 {
+			t.Errorf("%s: detail %d rows, %d groups, mdd %g, largest %g", m.Moderator, m.Detail.NUsed, len(m.Detail.Groups), m.MDD, m.LargestDifference)
+		}
+	}
+	holm, bh := estimate.AdjustHolm(p), estimate.AdjustBH(p)
+	for i, m := range o.Moderators {
+		if m.PHolm != holm[i] || m.QBH != bh[i] {
+			t.Errorf("%s: p_holm %g q_bh %g, want %g and %g", m.Moderator, m.PHolm, m.QBH, holm[i], bh[i])
+		}
+	}
+	if !strings.Contains(o.Note, "3 tried") || !strings.Contains(o.Moderators[1].Detail.Note, "adjusted p") {
+		t.Errorf("notes:\n%s\n%s", o.Note, o.Moderators[1].Detail.Note)
+	}
+
+	f, err := excelize.OpenFile(copyPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, err := f.GetRows("Moderators")
+	if err != nil {
+		t.Fatal(err)
+	}
+	var titles []string
+	for _, r := range rows {
+		if len(r) > 0 && (r[0] == "Moderators compared" || strings.HasPrefix(r[0], "Moderator ") || r[0] == "What was asked") {
+			titles = append(titles, r[0])
+		}
+	}
+	want := []string{"What was asked", "Moderators compared", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
+	if strings.Join(titles, "|") != strings.Join(want, "|") {
+		t.Errorf("sheet titles %q, want %q", titles, want)
 	}
 }

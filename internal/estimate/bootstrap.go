@@ -41,7 +41,11 @@ const MaxDraws = 999_999
 
 // webbClusters: Webb's six-point weights at or below this many clusters
 // (Webb 2014, Queen's Economics Department WP 1315; METHODS §8), where the
-// two-point weights have too few distinct draws.
+// two-point weights have too few distinct draws. The same holds when a
+// group of the moderator lies in this many clusters or fewer, however many
+// there are in all: its effect then turns on those clusters' weights alone,
+// and with two-point weights its p-value cannot fall below 2/2^g for g of
+// them (the draws that only flip the other clusters change nothing).
 const webbClusters = 12
 
 // tieShare is the relative distance within which a bootstrap statistic
@@ -74,7 +78,8 @@ type Bootstrap struct {
 	// Seed starts the random draws; the same seed gives the same answer.
 	Seed uint64 `json:"seed,omitempty"`
 	// Weights forces a weight distribution; empty means Webb's with 12
-	// clusters or fewer, Rademacher's above.
+	// clusters or fewer, or when a group of the moderator lies in 12
+	// clusters or fewer; Rademacher's otherwise.
 	Weights BootWeights `json:"weights,omitempty"`
 }
 
@@ -109,12 +114,14 @@ type bootPlan struct {
 	g     int
 }
 
-// planBootstrap chooses the weights and makes the draws for g clusters.
-func planBootstrap(g int, b Bootstrap) *bootPlan {
+// planBootstrap chooses the weights and makes the draws for g clusters,
+// fewest being the smallest number of clusters in which a group of the
+// moderator lies (g when the moderator is a number).
+func planBootstrap(g, fewest int, b Bootstrap) *bootPlan {
 	w := b.Weights
 	if w == "" {
 		w = Rademacher
-		if g <= webbClusters {
+		if g <= webbClusters || fewest <= webbClusters {
 			w = Webb
 		}
 	}
@@ -506,7 +513,7 @@ func cholSolve(a, b []float64, q int) ([]float64, bool) {
 // group effects are equal.
 func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, progress func(done, total int)) error {
 	g := len(ds.clusterLabels)
-	plan := planBootstrap(g, s.Bootstrap)
+	plan := planBootstrap(g, ds.fewestClusters(), s.Bootstrap)
 	w := newWild(ctx, f, ds.cluster, g, plan)
 	total := len(res.Effects) + len(res.Differences) + 1
 	done := 0
@@ -565,4 +572,24 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 	step()
 	res.Bootstrap = &plan.info
 	return nil
+}
+
+// fewestClusters is the smallest number of clusters in which a group of a
+// binary or categorical moderator lies; for a continuous moderator, all.
+func (ds *design) fewestClusters() int {
+	if ds.modLevel == nil {
+		return len(ds.clusterLabels)
+	}
+	in := make([]map[int]bool, len(ds.levels))
+	for r, l := range ds.modLevel {
+		if in[l] == nil {
+			in[l] = map[int]bool{}
+		}
+		in[l][ds.cluster[r]] = true
+	}
+	fewest := len(ds.clusterLabels)
+	for _, set := range in {
+		fewest = min(fewest, len(set))
+	}
+	return fewest
 }

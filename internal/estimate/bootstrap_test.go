@@ -192,7 +192,7 @@ func TestBootstrapDrawsMatchRefits(t *testing.T) {
 		t.Fatal(aliased)
 	}
 	g := len(ds.clusterLabels)
-	plan := planBootstrap(g, s.Bootstrap)
+	plan := planBootstrap(g, g, s.Bootstrap)
 	w := newWild(context.Background(), f, ds.cluster, g, plan)
 	n, k := ds.n, ds.k
 	scale := float64(g) / float64(g-1) * float64(n-1) / float64(n-k)
@@ -242,29 +242,32 @@ func TestBootstrapDrawsMatchRefits(t *testing.T) {
 }
 
 // TestBootstrapPlan checks the choice of weights and enumeration of
-// METHODS §8: Webb's weights with 12 clusters or fewer, all draws listed
-// when there are no more than B of them.
+// METHODS §8: Webb's weights with 12 clusters or fewer (and, our
+// extension, when a group of the moderator lies in 12 clusters or fewer),
+// all draws listed when there are no more than B of them.
 func TestBootstrapPlan(t *testing.T) {
 	for _, c := range []struct {
-		g, draws   int
-		weights    BootWeights
-		want       BootWeights
-		enumerated bool
-		n          int
+		g, fewest, draws int
+		weights          BootWeights
+		want             BootWeights
+		enumerated       bool
+		n                int
 	}{
-		{4, 9999, "", Webb, true, 1296},
-		{5, 9999, "", Webb, true, 7776},
-		{6, 9999, "", Webb, false, 9999},
-		{12, 9999, "", Webb, false, 9999},
-		{13, 9999, "", Rademacher, true, 8192},
-		{14, 9999, "", Rademacher, false, 9999},
-		{41, 9999, "", Rademacher, false, 9999},
-		{12, 9999, Rademacher, Rademacher, true, 4096},
-		{14, 20000, "", Rademacher, true, 16384},
+		{4, 4, 9999, "", Webb, true, 1296},
+		{5, 5, 9999, "", Webb, true, 7776},
+		{6, 6, 9999, "", Webb, false, 9999},
+		{12, 12, 9999, "", Webb, false, 9999},
+		{13, 13, 9999, "", Rademacher, true, 8192},
+		{14, 14, 9999, "", Rademacher, false, 9999},
+		{41, 41, 9999, "", Rademacher, false, 9999},
+		{24, 6, 9999, "", Webb, false, 9999},
+		{24, 13, 9999, "", Rademacher, false, 9999},
+		{12, 12, 9999, Rademacher, Rademacher, true, 4096},
+		{14, 14, 20000, "", Rademacher, true, 16384},
 	} {
-		p := planBootstrap(c.g, Bootstrap{Draws: c.draws, Weights: c.weights, Seed: 3})
+		p := planBootstrap(c.g, c.fewest, Bootstrap{Draws: c.draws, Weights: c.weights, Seed: 3})
 		if p.info.Weights != c.want || p.info.Enumerated != c.enumerated || p.info.Draws != c.n {
-			t.Errorf("G = %d, B = %d, %q: %+v; want %s, enumerated %v, %d draws", c.g, c.draws, c.weights, p.info, c.want, c.enumerated, c.n)
+			t.Errorf("G = %d (fewest %d), B = %d, %q: %+v; want %s, enumerated %v, %d draws", c.g, c.fewest, c.draws, c.weights, p.info, c.want, c.enumerated, c.n)
 		}
 		if c.enumerated {
 			seen := map[string]bool{}
@@ -322,7 +325,7 @@ func TestBootstrapInterval(t *testing.T) {
 		t.Fatal(err)
 	}
 	g := len(ds.clusterLabels)
-	w := newWild(context.Background(), f, ds.cluster, g, planBootstrap(g, s.Bootstrap))
+	w := newWild(context.Background(), f, ds.cluster, g, planBootstrap(g, ds.fewestClusters(), s.Bootstrap))
 	for i, e := range res.Effects {
 		b := e.Boot
 		if b == nil || !b.Bounded || !(b.CILow < e.Estimate && e.Estimate < b.CIHigh) {
@@ -434,5 +437,41 @@ func TestBootstrapFewDraws(t *testing.T) {
 	}
 	if _, err := json.Marshal(res); err != nil {
 		t.Error(err)
+	}
+}
+
+// TestBootstrapFewClustersInAGroup checks the weights when the moderator
+// is a property of the cluster: with 24 clusters, 6 in each of 4 groups,
+// each group's effect turns on 6 clusters' weights, and two-point weights
+// could not give it a p-value below 2/2^6 (MacKinnon & Webb 2017, J.
+// Applied Econometrics 32(2), on few treated clusters; the bound is
+// arithmetic). Webb's weights are used instead, and the p-value of a
+// clear effect falls below that floor.
+func TestBootstrapFewClustersInAGroup(t *testing.T) {
+	rng := rand.New(rand.NewPCG(24, 6))
+	var y, tr, site []float64
+	var m []string
+	for c := range 24 {
+		u := rng.NormFloat64()
+		for range 40 {
+			ti := float64(rng.IntN(2))
+			y = append(y, u+3*ti+rng.NormFloat64())
+			tr = append(tr, ti)
+			site = append(site, float64(c))
+			m = append(m, string(rune('a'+c/6)))
+		}
+	}
+	d := &Data{Columns: []Column{{Name: "y", Num: y}, {Name: "t", Num: tr}, {Name: "m", Text: m}, {Name: "site", Num: site}}}
+	res, err := Fit(d, Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "m", Kind: ModeratorCategorical}, Cluster: "site"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Bootstrap.Weights != Webb {
+		t.Errorf("weights %s, want webb", res.Bootstrap.Weights)
+	}
+	for _, e := range res.Effects {
+		if e.Boot.P >= 2.0/64 {
+			t.Errorf("group %s: bootstrap p %g, not below the two-point floor 2/64 (t = %.1f)", e.Group, e.Boot.P, e.T)
+		}
 	}
 }

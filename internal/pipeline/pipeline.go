@@ -61,6 +61,47 @@ func (a *Analysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
 	return workbook.WriteResults(a.Run.File, a.Sheet, opts)
 }
 
+// ScreenAnalysis is one finished screen of several moderators: the table
+// read, one fit a moderator with the adjusted tests, and the sheet.
+type ScreenAnalysis struct {
+	Run    report.ScreenRun
+	Table  *workbook.Table
+	Screen *estimate.Screen
+	Sheet  *report.Sheet
+}
+
+// Screen reads the data, fits one model a candidate moderator, adjusts
+// their tests for the number tried and builds the results sheet.
+// readProgress is called as rows are read; fitProgress after each
+// moderator, with how many are done of how many in all. Either may be nil.
+func Screen(ctx context.Context, sr report.ScreenRun, readProgress func(rows int), fitProgress func(done, total int)) (*ScreenAnalysis, error) {
+	t, err := Read(ctx, sr.Base, readProgress)
+	if err != nil {
+		return nil, err
+	}
+	return ScreenTable(ctx, sr, t, fitProgress)
+}
+
+// ScreenTable is Screen on a table already read.
+func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, progress func(done, total int)) (*ScreenAnalysis, error) {
+	sr.Base.Sheet, sr.Base.HeaderRow = t.Sheet, t.HeaderRow
+	sc, err := estimate.FitScreen(ctx, EngineData(t), sr.Base.Spec, sr.Moderators(), progress)
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", where(t), err)
+	}
+	sheet, err := report.BuildScreen(sr, sc)
+	if err != nil {
+		return nil, err
+	}
+	return &ScreenAnalysis{Run: sr, Table: t, Screen: sc, Sheet: sheet}, nil
+}
+
+// Save writes the screen's results sheet into the workbook (or beside a
+// text file).
+func (a *ScreenAnalysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
+	return workbook.WriteResults(a.Run.Base.File, a.Sheet, opts)
+}
+
 func where(t *workbook.Table) string {
 	if t.Sheet != "" {
 		return fmt.Sprintf("%s, sheet %q", t.Path, t.Sheet)

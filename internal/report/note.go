@@ -136,7 +136,7 @@ func (w *noteWriter) groups() {
 		}
 		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(p, boot), verdict)
 	}
-	d := largest(res.Differences)
+	d := res.LargestDifference()
 	ev := w.evidence(d.Inference, d.Boot)
 	more := d.To
 	lo, hi := ev.lo, ev.hi
@@ -301,7 +301,7 @@ func significantWhere(jn *estimate.JohnsonNeyman, m string) string {
 // standard errors used.
 func (w *noteWriter) precision() {
 	res := w.res
-	d := w.mddDifference()
+	d := res.KeyDifference()
 	power := strconv100(res.Model.Power)
 	typical := meanAbsEffect(res.Effects)
 	what := "a difference between groups"
@@ -315,22 +315,6 @@ func (w *noteWriter) precision() {
 	}
 	w.say("%s.", sentence)
 	w.say("%s", seWords(res)+".")
-}
-
-// mddDifference is the comparison whose minimum detectable difference the
-// note reports: the only one, the widest span of a continuous moderator,
-// or the least precise comparison with the reference.
-func (w *noteWriter) mddDifference() estimate.Difference {
-	var best estimate.Difference
-	for _, d := range w.res.Differences {
-		if d.PerUnit {
-			continue
-		}
-		if best.MDD == 0 || (d.VsReference && d.MDD > best.MDD) {
-			best = d
-		}
-	}
-	return best
 }
 
 func valueOf(effects []estimate.GroupEffect, group string) float64 {
@@ -412,17 +396,6 @@ func (w *noteWriter) moderatorWords() {
 	default:
 		w.say("The moderator %s was not named before the data were examined, so treat any difference as a lead to check in new data.", m)
 	}
-}
-
-// largest returns the difference of largest size.
-func largest(ds []estimate.Difference) estimate.Difference {
-	best := ds[0]
-	for _, d := range ds[1:] {
-		if math.Abs(d.Estimate) > math.Abs(best.Estimate) {
-			best = d
-		}
-	}
-	return best
 }
 
 func count(n int) string { return groupThousands(fmt.Sprint(n)) }

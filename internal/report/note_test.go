@@ -171,22 +171,33 @@ func TestNoteGolden(t *testing.T) {
 			for _, c := range Cautions(run, res) {
 				fmt.Fprintf(&b, "- %s\n", wrap(c, 76))
 			}
-			got := b.String()
-			path := filepath.Join(dir, name+".txt")
-			if *update {
-				if err := os.WriteFile(path, []byte(got), 0o644); err != nil {
-					t.Fatal(err)
-				}
-				return
-			}
-			want, err := os.ReadFile(path)
-			if err != nil {
-				t.Fatalf("%v (run go test ./internal/report -run TestNoteGolden -update, then review the files)", err)
-			}
-			if got != string(want) {
-				t.Errorf("note differs from %s:\n--- got\n%s\n--- want\n%s", path, got, want)
-			}
+			compareGolden(t, filepath.Join(dir, name+".txt"), b.String())
 		})
+	}
+	for name, s := range screenScenarios {
+		t.Run(name, func(t *testing.T) {
+			sr, sc := s.fit(t)
+			compareGolden(t, filepath.Join(dir, name+".txt"), screenGolden(sr, sc))
+		})
+	}
+}
+
+// compareGolden compares got with the reviewed text at path, or rewrites
+// it with -update.
+func compareGolden(t *testing.T, path, got string) {
+	t.Helper()
+	if *update {
+		if err := os.WriteFile(path, []byte(got), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		return
+	}
+	want, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatalf("%v (run go test ./internal/report -run TestNoteGolden -update, then review the files)", err)
+	}
+	if got != string(want) {
+		t.Errorf("note differs from %s:\n--- got\n%s\n--- want\n%s", path, got, want)
 	}
 }
 

@@ -27,25 +27,9 @@ func Build(run Run, res *estimate.Result) (*Sheet, error) {
 	b := sheetBuilder{run: run, res: res, sheet: s}
 	b.asked()
 	b.data()
-	b.effects()
-	b.differences()
-	s.Blocks = append(s.Blocks,
-		Block{Key: "note", Title: "In plain words", Rows: [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}}},
-	)
-	var cautions [][]Cell
-	for _, c := range Cautions(run, res) {
-		cautions = append(cautions, []Cell{ParagraphCell(c, tableWidth)})
+	if err := b.findings(); err != nil {
+		return nil, err
 	}
-	s.Blocks = append(s.Blocks, Block{Key: "cautions", Title: "Keep in mind", Rows: cautions})
-	b.coefficients()
-	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
-	if err != nil {
-		return nil, fmt.Errorf("drawing the chart: %w", err)
-	}
-	s.Blocks = append(s.Blocks, Block{Key: "chart", Title: "Chart", Image: &Image{
-		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
-		PNG:   png, Width: chartWidth, Height: chartHeight,
-	}})
 	b.dropped()
 	s.Settings = settings(run, res)
 	return s, nil
@@ -55,10 +39,42 @@ type sheetBuilder struct {
 	run   Run
 	res   *estimate.Result
 	sheet *Sheet
+	// keySuffix is added to every block's key, so that the blocks of
+	// several moderators in one sheet keep apart (":region").
+	keySuffix string
 }
 
 func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
-	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: key, Title: title, Rows: rows})
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: key + b.keySuffix, Title: title, Rows: rows})
+}
+
+// findings adds what one fit found: the effects, the differences, the
+// note, the cautions, every term of the model and the chart.
+func (b *sheetBuilder) findings() error {
+	run, res := b.run, b.res
+	b.effects()
+	b.differences()
+	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
+	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
+	b.coefficients()
+	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
+	if err != nil {
+		return fmt.Errorf("drawing the chart: %w", err)
+	}
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Title: "Chart", Image: &Image{
+		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
+		PNG:   png, Width: chartWidth, Height: chartHeight,
+	}})
+	return nil
+}
+
+// paragraphs lays out texts one paragraph a row.
+func paragraphs(texts []string) [][]Cell {
+	var rows [][]Cell
+	for _, t := range texts {
+		rows = append(rows, []Cell{ParagraphCell(t, tableWidth)})
+	}
+	return rows
 }
 
 func pair(label, value string) []Cell { return []Cell{HeadingCell(label), TextCell(value)} }
