@@ -7,7 +7,7 @@ GO ?= go
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study
 
 test: deps vet go-test fuzz
 
@@ -49,7 +49,7 @@ go-test:
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:
-	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR' -v
+	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR' -v
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x

@@ -695,3 +695,38 @@ func TestScreenEndToEnd(t *testing.T) {
 		t.Errorf("sheet titles %q, want %q", titles, want)
 	}
 }
+
+// TestLinearityJSON checks the linearity check in analyze's JSON: present
+// for a number moderator, with three thirds and the test, and absent for
+// groups.
+func TestLinearityJSON(t *testing.T) {
+	path := writeDemo(t)
+	base := []string{"analyze", path, "--dry-run", "--json", "--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached, "--randomized"}
+	code, out, errs := runCLI(t, append(append([]string{}, base...), "--moderator", demodata.ColBaselineScore)...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	l := o.Linearity
+	if l == nil || len(l.Thirds) != 3 || l.Wald == nil || l.Wald.DF1 != 8 {
+		t.Fatalf("linearity %+v", l)
+	}
+	n := 0
+	for i, th := range l.Thirds {
+		n += th.N
+		if !(th.From <= th.Median && th.Median <= th.To) || !(th.CILow < th.Estimate && th.Estimate < th.CIHigh) ||
+			!(th.LineCILow < th.LineEstimate && th.LineEstimate < th.LineCIHigh) || (i > 0 && th.From <= l.Thirds[i-1].To) {
+			t.Errorf("third %d: %+v", i, th)
+		}
+	}
+	if n != o.NUsed || l.Contradicts != (l.Wald.P < 0.05) {
+		t.Errorf("thirds hold %d rows of %d; contradicts %v with p %g", n, o.NUsed, l.Contradicts, l.Wald.P)
+	}
+	code, out, errs = runCLI(t, append(append([]string{}, base...), "--moderator", demodata.ColRegion)...)
+	if code != exitOK || strings.Contains(out, `"linearity"`) {
+		t.Errorf("region: exit %d, linearity in the JSON: %v; %s", code, strings.Contains(out, `"linearity"`), errs)
+	}
+}

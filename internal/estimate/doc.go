@@ -16,5 +16,6 @@
 // The fit is a pivoted Householder QR with iterative refinement (qr.go);
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
-// adjustments in adjust.go, the wild cluster bootstrap in bootstrap.go.
+// adjustments in adjust.go and screen.go, the wild cluster bootstrap in
+// bootstrap.go, the check of a continuous moderator's line in linearity.go.
 package estimate

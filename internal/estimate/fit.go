@@ -46,6 +46,13 @@ func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total 
 		return nil, err
 	}
 	res := ds.result(s, f, v, used, df, notes)
+	if ds.modValue != nil {
+		lin, note := ds.linearity(d, s, f, v, df)
+		res.Linearity = lin
+		if note != "" {
+			res.Notes = append(res.Notes, note)
+		}
+	}
 	if used == CR1 && !s.Bootstrap.Off && len(ds.clusterLabels) < BootstrapClusters {
 		if err := ds.bootstrap(ctx, f, s, res, progress); err != nil {
 			return nil, err

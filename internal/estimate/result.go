@@ -20,6 +20,10 @@ type Result struct {
 	Differences   []Difference   `json:"differences"`
 	Heterogeneity *WaldTest      `json:"heterogeneity,omitempty"`
 	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	// Linearity checks a continuous moderator's straight line against the
+	// effect within each third of it; nil for groups, or when the check
+	// could not be made (Notes says why).
+	Linearity *Linearity `json:"linearity,omitempty"`
 	// Bootstrap says how the wild cluster bootstrap ran; nil when it did
 	// not, and then no Boot field below is set.
 	Bootstrap *BootstrapInfo `json:"bootstrap,omitempty"`

@@ -78,7 +78,14 @@ func Cautions(run Run, res *estimate.Result) []string {
 		if outside != nil {
 			add("The effect at %s %s is outside the observed range (%s to %s) and rests on the straight-line form of the model alone.", m, joinAnd(outside), readable(res.Moderator.Min), readable(res.Moderator.Max))
 		}
-		add("The model assumes the effect changes in a straight line with %s; if the true pattern is curved, effects between and beyond the probe values can be off.", m)
+		switch l := res.Linearity; {
+		case l != nil && l.Contradicts:
+			add("The effects within the thirds of %s depart from the straight line the model assumes, so effects read off the line, between and beyond the probe values, can be off; a moderator split into groups may describe the pattern better.", m)
+		case l != nil && l.Wald != nil:
+			add("The model assumes the effect changes in a straight line with %s. The effects estimated within each third of %s are consistent with that line (%s), though with few rows a check like this can miss a curve.", m, m, pText(l.Wald.P))
+		default:
+			add("The model assumes the effect changes in a straight line with %s; if the true pattern is curved, effects between and beyond the probe values can be off.", m)
+		}
 	}
 	for _, n := range res.Notes {
 		if !strings.Contains(n, "outside the observed range") {

@@ -452,6 +452,16 @@ func drawCurve(dc draw.Canvas, res *estimate.Result, opt ChartOptions, lk look) 
 			ys = append(ys, cp.lo, cp.hi)
 		}
 	}
+	var thirds []curvePoint
+	if l := res.Linearity; l != nil {
+		for _, th := range l.Thirds {
+			cp := curvePoint{m: th.Median, est: words.scale * th.Effect.Estimate, lo: words.scale * th.Effect.CILow, hi: words.scale * th.Effect.CIHigh}
+			if cp.ok() {
+				thirds = append(thirds, cp)
+				ys = append(ys, cp.lo, cp.hi)
+			}
+		}
+	}
 	var sig [][2]float64
 	if jn := res.JohnsonNeyman; jn != nil {
 		for _, r := range jn.Regions {
@@ -469,6 +479,9 @@ func drawCurve(dc draw.Canvas, res *estimate.Result, opt ChartOptions, lk look) 
 		items = append(items, legendItem{words.noun + " not distinguishable from zero anywhere in the observed range", swatchNone})
 	}
 	items = append(items, legendItem{words.noun + " at the values in the table", swatchDot(false)})
+	if len(thirds) > 0 {
+		items = append(items, legendItem{words.noun + " within each third of " + res.Moderator.Column + ", with its interval", swatchThird})
+	}
 	if len(beyond) > 0 {
 		items = append(items, legendItem{"outside the observed range (extrapolated)", swatchDot(true)})
 	}
@@ -496,7 +509,7 @@ func drawCurve(dc draw.Canvas, res *estimate.Result, opt ChartOptions, lk look) 
 	pe.Y.Min, pe.Y.Max = paddedRange(ys, 0.06)
 	pe.Y.Tick.Marker = axisTicks{n: int((top.Max.Y-top.Min.Y)/55) + 1, zero: words.zero}
 	pe.Add(regionShade(sig), gridLines{x: xticks, y: pe.Y.Tick.Marker}, bandFill(curve), zeroLine{},
-		boundaries{spans: sig, lo: lo, hi: hi}, effectLine{curve: curve, beyond: beyond}, probeMarks(probes))
+		boundaries{spans: sig, lo: lo, hi: hi}, effectLine{curve: curve, beyond: beyond}, thirdMarks(thirds), probeMarks(probes))
 
 	ph := lk.newPlot()
 	ph.X.Min, ph.X.Max = xlo, xhi
@@ -657,6 +670,37 @@ func (pm probeMarks) Plot(c draw.Canvas, p *plot.Plot) {
 		}
 		dot(&c, vg.Point{X: x, Y: ty(cp.est)}, 5, cp.extrapolated)
 	}
+}
+
+// thirdMarks draws the effect estimated within each third of the
+// moderator (the linearity check) at the third's median: a square on its
+// interval, in the colour of the Johnson–Neyman marks so that it stands
+// apart from the line it is compared with.
+type thirdMarks []curvePoint
+
+func (tm thirdMarks) Plot(c draw.Canvas, p *plot.Plot) {
+	tx, ty := p.Transforms(&c)
+	for _, cp := range tm {
+		thirdMark(&c, vg.Point{X: tx(cp.m), Y: ty(cp.est)}, ty(cp.lo), ty(cp.hi))
+	}
+}
+
+// thirdMark draws one: whisker from y0 to y1 with caps, square at at.
+func thirdMark(c *draw.Canvas, at vg.Point, y0, y1 vg.Length) {
+	sty := draw.LineStyle{Color: boundColor, Width: 1.6}
+	c.StrokeLine2(sty, at.X, y0, at.X, y1)
+	c.StrokeLine2(sty, at.X-4, y0, at.X+4, y0)
+	c.StrokeLine2(sty, at.X-4, y1, at.X+4, y1)
+	if c.Contains(at) {
+		const r = 4.5
+		fillRect(c, color.White, at.X-r-1.2, at.Y-r-1.2, at.X+r+1.2, at.Y+r+1.2)
+		fillRect(c, boundColor, at.X-r, at.Y-r, at.X+r, at.Y+r)
+	}
+}
+
+func swatchThird(c *draw.Canvas, r vg.Rectangle) {
+	mid := vg.Point{X: (r.Min.X + r.Max.X) / 2, Y: (r.Min.Y + r.Max.Y) / 2}
+	thirdMark(c, mid, r.Min.Y, r.Max.Y)
 }
 
 // histogramBars draws how many rows fall in each bin of the moderator.

@@ -208,6 +208,33 @@ func TestChart(t *testing.T) {
 	}
 }
 
+// TestChartThirds checks that the effects within the thirds of a
+// continuous moderator (the linearity check) are drawn over the line as
+// squares with whiskers in their own colour, and only when the result has
+// them.
+func TestChartThirds(t *testing.T) {
+	res := fitProgramme(t, "months_out_of_work", estimate.ModeratorContinuous)
+	if res.Linearity == nil || len(res.Linearity.Thirds) != 3 {
+		t.Fatalf("linearity %+v", res.Linearity)
+	}
+	with, err := Chart(res, ChartOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	keepChart(t, "thirds", with)
+	without := *res
+	without.Linearity = nil
+	plain, err := Chart(&without, ChartOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	// Three squares of 9 × 9 points and their whiskers, and the legend's.
+	a, b := countColour(decodeChart(t, with, 900, 520), boundColor), countColour(decodeChart(t, plain, 900, 520), boundColor)
+	if a-b < 4*80 {
+		t.Errorf("%d pixels in the thirds' colour with them, %d without; want the four marks", a, b)
+	}
+}
+
 // TestChartRegions checks that the shading of the Johnson–Neyman regions
 // follows the analysis: present when a stretch is distinguishable from
 // zero, absent when none is.

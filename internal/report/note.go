@@ -237,6 +237,24 @@ func (w *noteWriter) continuous() {
 	if jn := res.JohnsonNeyman; jn != nil {
 		w.say("%s", capitalise(significantWhere(jn, m))+".")
 	}
+	w.linearity()
+}
+
+// linearity flags a straight line that the effects within the thirds of
+// the moderator contradict (METHODS §5).
+func (w *noteWriter) linearity() {
+	l := w.res.Linearity
+	if l == nil || !l.Contradicts {
+		return
+	}
+	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
+	var parts []string
+	for _, th := range l.Thirds {
+		parts = append(parts, fmt.Sprintf("around %s it is %s (%s) where the line gives %s", readable(th.Median),
+			w.u.amount(th.Effect.Estimate), w.u.interval(alpha, th.Effect.CILow, th.Effect.CIHigh), w.u.amount(th.Line.Estimate)))
+	}
+	w.say("Estimated within each third of %s, the %s does not follow the straight line the model assumes (test of the line against the thirds, %s): %s. The values above rest on that line, so read them with care and look at the thirds in the chart.",
+		m, w.what(), pText(l.Wald.P), strings.Join(parts, "; "))
 }
 
 // probeName describes a probe: "2.5 (its 10th percentile)".

@@ -38,6 +38,9 @@ type scenario struct {
 	probes     []float64
 	// noBootstrap turns the wild cluster bootstrap off.
 	noBootstrap bool
+	// bend adds a hump to a continuous moderator's effect:
+	// bend·(1 − ((m − modMean)/(1.5·modSD))²).
+	bend float64
 }
 
 func (s scenario) data() *estimate.Data {
@@ -58,7 +61,8 @@ func (s scenario) data() *estimate.Data {
 		} else {
 			mi := s.modMean + s.modSD*rng.NormFloat64()
 			m = append(m, mi)
-			eff = s.effects[0] + s.effects[1]*mi
+			z := (mi - s.modMean) / (1.5 * s.modSD)
+			eff = s.effects[0] + s.effects[1]*mi + s.bend*(1-z*z)
 		}
 		yi := 10 + eff*ti + 0.05*a + s.noise*rng.NormFloat64()
 		if s.binaryY {
@@ -149,6 +153,7 @@ var noteScenarios = map[string]scenario{
 	"few-clusters-labels":             {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true},
 	"many-moderators-tried":           {n: 800, seed: 14, groups: []string{"rural", "urban"}, effects: []float64{1, 2.5}, noise: 3, randomized: true, tried: 6},
 	"few-clusters-no-bootstrap":       {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true, noBootstrap: true},
+	"continuous-curved":               {n: 2000, seed: 16, effects: []float64{0.5, 0.2}, noise: 3, modMean: 5, modSD: 2, bend: 2.5, randomized: true, planned: true},
 	"continuous-few-clusters":         {n: 700, seed: 15, effects: []float64{0.5, 0.3}, noise: 4, modMean: 5, modSD: 2, clusters: 13, randomized: true, planned: true},
 }
 

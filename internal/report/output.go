@@ -18,6 +18,7 @@ type Output struct {
 	Differences   []OutDiff      `json:"differences"`
 	Heterogeneity *OutWald       `json:"heterogeneity"`
 	JN            *OutJN         `json:"jn,omitempty"`
+	Linearity     *OutLinearity  `json:"linearity,omitempty"`
 	Coefficients  []OutCoef      `json:"coefficients"`
 	Note          string         `json:"note"`
 	Cautions      []string       `json:"cautions"`
@@ -96,6 +97,48 @@ type OutJN struct {
 	SignificantWhere string    `json:"significant_where"`
 }
 
+// OutLinearity is the check of a continuous moderator's straight line:
+// the effect within each third beside the line's, and the Wald test of the
+// line against the thirds (Hainmueller, Mummolo & Xu 2019).
+type OutLinearity struct {
+	Thirds      []OutThird `json:"thirds"`
+	Wald        *OutWald   `json:"wald"`
+	Contradicts bool       `json:"contradicts"`
+}
+
+// OutThird is one third of the moderator's rows.
+type OutThird struct {
+	From         float64 `json:"from"`
+	To           float64 `json:"to"`
+	Median       float64 `json:"median"`
+	N            int     `json:"n"`
+	Estimate     float64 `json:"estimate"`
+	SE           float64 `json:"se"`
+	CILow        float64 `json:"ci_low"`
+	CIHigh       float64 `json:"ci_high"`
+	P            float64 `json:"p"`
+	LineEstimate float64 `json:"line_estimate"`
+	LineCILow    float64 `json:"line_ci_low"`
+	LineCIHigh   float64 `json:"line_ci_high"`
+}
+
+func outLinearity(l *estimate.Linearity) *OutLinearity {
+	if l == nil {
+		return nil
+	}
+	o := &OutLinearity{Thirds: []OutThird{}, Contradicts: l.Contradicts}
+	for _, th := range l.Thirds {
+		e, ln := th.Effect, th.Line
+		o.Thirds = append(o.Thirds, OutThird{From: th.From, To: th.To, Median: th.Median, N: th.Rows,
+			Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P,
+			LineEstimate: ln.Estimate, LineCILow: ln.CILow, LineCIHigh: ln.CIHigh})
+	}
+	if w := l.Wald; w != nil {
+		o.Wald = &OutWald{F: w.F, DF1: w.DF1, DF2: float64(w.DF2), P: w.P}
+	}
+	return o
+}
+
 // OutCoef is one term of the model.
 type OutCoef struct {
 	Term     string  `json:"term"`
@@ -156,6 +199,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 		}
 		o.JN = &OutJN{Bounds: bounds, SignificantWhere: significantWhere(jn, res.Moderator.Column)}
 	}
+	o.Linearity = outLinearity(res.Linearity)
 	for _, c := range res.Coefficients {
 		o.Coefficients = append(o.Coefficients, OutCoef{Term: c.Term, Estimate: c.Estimate, SE: c.SE, CILow: c.CILow, CIHigh: c.CIHigh, P: c.P})
 	}

@@ -54,6 +54,7 @@ func (b *sheetBuilder) findings() error {
 	run, res := b.run, b.res
 	b.effects()
 	b.differences()
+	b.linearity()
 	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
 	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
 	b.coefficients()
@@ -280,6 +281,50 @@ func (b *sheetBuilder) differences() {
 			[]Cell{ParagraphCell(capitalise(significantWhere(jn, res.Moderator.Column))+" (Johnson–Neyman interval, "+level(res.Model.Alpha)+" confidence).", tableWidth)})
 	}
 	b.add("differences", "Differences between groups", rows)
+}
+
+// linearity is the check of a continuous moderator's straight line: the
+// effect within each third beside the line's, and the test.
+func (b *sheetBuilder) linearity() {
+	l := b.res.Linearity
+	if l == nil {
+		return
+	}
+	res := b.res
+	m := res.Moderator.Column
+	ci := level(res.Model.Alpha) + " CI"
+	effect := "Effect"
+	if !b.run.Randomized {
+		effect = "Difference associated"
+	}
+	var vals []float64
+	for _, th := range l.Thirds {
+		vals = append(vals, th.Effect.Estimate, th.Effect.SE, th.Effect.CILow, th.Effect.CIHigh, th.Line.Estimate)
+	}
+	f := numberFormat(vals)
+	rows := [][]Cell{{HeadingCell("Third of " + m), HeadingCell("From"), HeadingCell("To"), HeadingCell("Median"), HeadingCell("Rows"),
+		HeadingCell(effect + " within the third"), HeadingCell("Std. error"), HeadingCell(ci + " low"), HeadingCell(ci + " high"),
+		HeadingCell("The line at the median")}}
+	for i, th := range l.Thirds {
+		rows = append(rows, []Cell{TextCell([]string{"lowest", "middle", "highest"}[i]), NumberCell(th.From, ""), NumberCell(th.To, ""),
+			NumberCell(th.Median, ""), NumberCell(float64(th.Rows), "#,##0"), NumberCell(th.Effect.Estimate, f), NumberCell(th.Effect.SE, f),
+			NumberCell(th.Effect.CILow, f), NumberCell(th.Effect.CIHigh, f), NumberCell(th.Line.Estimate, f)})
+	}
+	verdict := "The test of the line against the thirds cannot be computed (with clusters, it needs more of them than the 8 terms it tests)."
+	if w := l.Wald; w != nil {
+		rows = append(rows, []Cell{}, []Cell{HeadingCell("Test of the line against the thirds"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")},
+			[]Cell{TextCell("all 8 terms the thirds add"), NumberCell(w.F, "0.000"), NumberCell(float64(w.DF1), "0"), NumberCell(float64(w.DF2), "0"), PValueCell(w.P)})
+		verdict = "The thirds are consistent with the straight line."
+		if l.Contradicts {
+			verdict = "The thirds contradict the straight line: the effect does not change evenly with " + m + "."
+		}
+	}
+	rows = append(rows, []Cell{ParagraphCell("Each third's effect is estimated from its own rows, at the third's median (binned model of Hainmueller, Mummolo & Xu 2019); the test asks whether the thirds depart from the line by more than chance allows. "+verdict, tableWidth)})
+	what := "association"
+	if b.run.Randomized {
+		what = "effect"
+	}
+	b.add("linearity", fmt.Sprintf("Does the %s follow a straight line in %s?", what, m), rows)
 }
 
 // bootHeadings are the column headings of the wild cluster bootstrap.
