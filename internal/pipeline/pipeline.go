@@ -117,30 +117,35 @@ func where(t *workbook.Table) string {
 func EngineData(t *workbook.Table) *estimate.Data {
 	d := &estimate.Data{RowLabels: t.SourceRows}
 	for _, c := range t.Columns {
-		col := estimate.Column{Name: c.Name, Why: whys(c)}
-		switch {
-		case c.Kind == workbook.Number || c.Kind == workbook.Date:
-			col.Num = c.Numbers
-		case c.Kind == workbook.YesNo && numericLevels(c.Levels):
-			col.Num = make([]float64, len(c.Texts))
-			for i, s := range c.Texts {
-				col.Num[i] = math.NaN()
-				if s != "" {
-					col.Num[i], _ = strconv.ParseFloat(s, 64)
-				}
-			}
-		case c.Texts != nil:
-			col.Text = c.Texts
-		default:
-			// An empty column: every cell missing.
-			col.Num = make([]float64, t.Len())
-			for i := range col.Num {
-				col.Num[i] = math.NaN()
-			}
-		}
-		d.Columns = append(d.Columns, col)
+		d.Columns = append(d.Columns, engineColumn(c, t.Len()))
 	}
 	return d
+}
+
+// engineColumn adapts one column of n rows (EngineData).
+func engineColumn(c *workbook.Column, n int) estimate.Column {
+	col := estimate.Column{Name: c.Name, Why: whys(c)}
+	switch {
+	case c.Kind == workbook.Number || c.Kind == workbook.Date:
+		col.Num = c.Numbers
+	case c.Kind == workbook.YesNo && numericLevels(c.Levels):
+		col.Num = make([]float64, len(c.Texts))
+		for i, s := range c.Texts {
+			col.Num[i] = math.NaN()
+			if s != "" {
+				col.Num[i], _ = strconv.ParseFloat(s, 64)
+			}
+		}
+	case c.Texts != nil:
+		col.Text = c.Texts
+	default:
+		// An empty column: every cell missing.
+		col.Num = make([]float64, n)
+		for i := range col.Num {
+			col.Num[i] = math.NaN()
+		}
+	}
+	return col
 }
 
 func numericLevels(levels []string) bool {
@@ -187,7 +192,7 @@ func ModeratorKind(c *workbook.Column) estimate.ModeratorKind {
 	case workbook.YesNo:
 		return estimate.ModeratorBinary
 	case workbook.Number, workbook.Date:
-		if distinct(c.Numbers) == 2 {
+		if len(c.Distinct) == 2 {
 			return estimate.ModeratorBinary
 		}
 		return estimate.ModeratorContinuous
@@ -203,8 +208,8 @@ func TreatmentKind(c *workbook.Column, treated string) estimate.TreatmentKind {
 	}
 	switch c.Kind {
 	case workbook.Number:
-		for _, v := range c.Numbers {
-			if !math.IsNaN(v) && v != 0 && v != 1 {
+		for _, v := range c.Distinct {
+			if v != 0 && v != 1 {
 				return estimate.TreatmentContinuous
 			}
 		}
@@ -215,14 +220,4 @@ func TreatmentKind(c *workbook.Column, treated string) estimate.TreatmentKind {
 		}
 	}
 	return estimate.TreatmentLabels
-}
-
-func distinct(xs []float64) int {
-	seen := map[float64]bool{}
-	for _, x := range xs {
-		if !math.IsNaN(x) {
-			seen[x] = true
-		}
-	}
-	return len(seen)
 }

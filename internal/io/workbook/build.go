@@ -3,6 +3,7 @@ package workbook
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -143,6 +144,15 @@ func (b *colBuilder) finish(col *Column) {
 		b.finishText(col, present)
 	}
 	col.Texts = nilIfKind(col.Kind, b.texts)
+	if col.Kind == Number || col.Kind == Date {
+		for _, v := range col.Numbers {
+			if !math.IsNaN(v) && !slices.Contains(col.Distinct, v) {
+				if col.Distinct = append(col.Distinct, v); len(col.Distinct) == 3 {
+					break
+				}
+			}
+		}
+	}
 	for _, r := range b.miss {
 		col.MissingCount[r]++
 	}

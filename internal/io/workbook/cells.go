@@ -65,6 +65,9 @@ var missingMarkers = map[string]bool{
 // trimSpace trims ASCII and Unicode spaces, including the no-break spaces
 // that copied numbers often carry.
 func trimSpace(s string) string {
+	if s != "" && s[0] > ' ' && s[0] < 0x80 && s[len(s)-1] > ' ' && s[len(s)-1] < 0x80 {
+		return s
+	}
 	return strings.TrimFunc(s, func(r rune) bool {
 		return r == ' ' || r == '\t' || r == '\r' || r == '\n' || r == '\u00a0' || r == '\u202f' || r == '\u2007'
 	})
@@ -74,6 +77,9 @@ func trimSpace(s string) string {
 func classifyText(s string) Reason {
 	if s == "" {
 		return Blank
+	}
+	if c := s[0]; c >= '0' && c <= '9' {
+		return Present // no error value or marker starts with a digit
 	}
 	if s[0] == '#' && errorValues[strings.ToUpper(s)] {
 		return ErrorValue
@@ -93,6 +99,9 @@ func classifyText(s string) Reason {
 func parseNumber(s string, decimalComma bool) (float64, bool) {
 	if s == "" || len(s) > 64 {
 		return 0, false
+	}
+	if v, ok := plainDecimal(s, decimalComma); ok {
+		return v, true
 	}
 	dec, thou := byte('.'), byte(',')
 	if decimalComma {
@@ -183,6 +192,53 @@ func parseNumber(s string, decimalComma bool) (float64, bool) {
 	}
 	if percent {
 		v /= 100
+	}
+	return v, true
+}
+
+// pow10 are the powers of ten that float64 holds exactly.
+var pow10 = [...]float64{1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+	1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22}
+
+// plainDecimal reads the commonest numbers, an optional minus sign and at
+// most 15 digits with an optional decimal point ("-12.5", "1000"), without
+// copying: the digits make an integer m < 10¹⁵ and the value is m / 10ᵉ,
+// both exact in float64, so the one division is correctly rounded — the
+// value strconv.ParseFloat returns (its exact fast path; Clinger 1990,
+// "How to read floating point numbers accurately"). ok is false for
+// anything else, which parseNumber then reads in full.
+func plainDecimal(s string, decimalComma bool) (float64, bool) {
+	dec := byte('.')
+	if decimalComma {
+		dec = ','
+	}
+	i, neg := 0, false
+	if s[0] == '-' {
+		i, neg = 1, true
+	}
+	var m uint64
+	digits, frac, point := 0, 0, false
+	for ; i < len(s); i++ {
+		c := s[i]
+		switch {
+		case c >= '0' && c <= '9':
+			m = m*10 + uint64(c-'0')
+			digits++
+			if point {
+				frac++
+			}
+		case c == dec && !point:
+			point = true
+		default:
+			return 0, false
+		}
+	}
+	if digits == 0 || digits > 15 || point && frac == 0 {
+		return 0, false
+	}
+	v := float64(m) / pow10[frac]
+	if neg {
+		v = -v
 	}
 	return v, true
 }

@@ -101,6 +101,18 @@ type bufRow struct {
 
 // build reads every row of src into table.
 func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalComma bool) error {
+	b := &tableBuilder{t: t, cols: map[int]colAdder{}, decimalComma: decimalComma, keepRows: true,
+		newCol: func(i int) colAdder { return newColBuilder(i) }}
+	if err := scanRows(ctx, src, t, opts, b); err != nil {
+		return err
+	}
+	b.finish()
+	return nil
+}
+
+// scanRows finds the header row of src, as Options say, and hands every
+// data row after it to b.
+func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tableBuilder) error {
 	var buf []bufRow
 	for len(buf) < headerScanRows {
 		num, cells, err := src.Next()
@@ -113,7 +125,11 @@ func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalCo
 		if isBlankRow(cells) {
 			continue
 		}
-		buf = append(buf, bufRow{num, slices.Clone(cells)})
+		kept := slices.Clone(cells)
+		for i := range kept {
+			kept[i].Text = keepText(src, kept[i].Text)
+		}
+		buf = append(buf, bufRow{num, kept})
 		if opts.HeaderRow > 0 && num >= opts.HeaderRow && len(buf) >= 2 {
 			break
 		}
@@ -147,7 +163,8 @@ func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalCo
 		}
 	}
 	_, isText := src.(*textSource)
-	b := &tableBuilder{t: t, cols: map[int]*colBuilder{}, decimalComma: decimalComma, fixedWidth: isText && t.HeaderRow > 0}
+	_, isScanned := src.(*csvScanner)
+	b.fixedWidth = (isText || isScanned) && t.HeaderRow > 0
 	if t.HeaderRow > 0 {
 		b.header = map[int]string{}
 		for _, c := range headerCells {
@@ -172,7 +189,7 @@ func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalCo
 				return &Error{Cause: ErrCancelled, Underlying: err}
 			}
 			if opts.Progress != nil && n > 0 {
-				opts.Progress(len(t.SourceRows))
+				opts.Progress(b.rows)
 			}
 		}
 		num, cells, err := src.Next()
@@ -186,13 +203,12 @@ func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalCo
 			return err
 		}
 	}
-	if len(t.SourceRows) == 0 {
+	if b.rows == 0 {
 		if t.HeaderRow > 0 {
 			return &Error{Cause: ErrNoDataRows, Detail: fmt.Sprintf("the header is row %d", t.HeaderRow)}
 		}
 		return &Error{Cause: ErrEmptySheet}
 	}
-	b.finish()
 	return nil
 }
 
@@ -216,10 +232,20 @@ func isBlankRow(cells []rawCell) bool {
 	return true
 }
 
-// tableBuilder turns data rows into columns.
+// colAdder takes one column's cells, row by row (nil for a blank cell).
+type colAdder interface {
+	add(c *rawCell, decimalComma bool)
+}
+
+// tableBuilder turns data rows into columns: a Table's (colBuilder), or
+// a streamed file's survey (colSurvey).
 type tableBuilder struct {
-	t            *Table
-	cols         map[int]*colBuilder
+	t      *Table
+	cols   map[int]colAdder
+	newCol func(index int) colAdder
+	// keepRows: the rows' numbers go into t.SourceRows.
+	keepRows     bool
+	rows         int
 	header       map[int]string
 	decimalComma bool
 	blankRows    int
@@ -230,11 +256,11 @@ type tableBuilder struct {
 	width      int
 }
 
-func (b *tableBuilder) col(i int) *colBuilder {
+func (b *tableBuilder) col(i int) colAdder {
 	c, ok := b.cols[i]
 	if !ok {
-		c = newColBuilder(i)
-		for range b.t.SourceRows {
+		c = b.newCol(i)
+		for range b.rows {
 			c.add(nil, false)
 		}
 		b.cols[i] = c
@@ -260,7 +286,10 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 		}
 		b.col(c.Col)
 	}
-	b.t.SourceRows = append(b.t.SourceRows, num)
+	if b.keepRows {
+		b.t.SourceRows = append(b.t.SourceRows, num)
+	}
+	b.rows++
 	j := 0
 	for _, idx := range b.sortedIndexes() {
 		cb := b.cols[idx]
@@ -289,7 +318,9 @@ func (b *tableBuilder) sortedIndexes() []int {
 	return b.cached
 }
 
-func (b *tableBuilder) finish() {
+// columnNames returns the columns' indexes in order and their names,
+// noting renamed columns in the table.
+func (b *tableBuilder) columnNames() ([]int, []string) {
 	t := b.t
 	idx := b.sortedIndexes()
 	header := make([]string, len(idx))
@@ -298,11 +329,17 @@ func (b *tableBuilder) finish() {
 	}
 	names, notes := nameColumns(header, idx, t.Sheet, t.HeaderRow)
 	t.Notes = append(t.Notes, notes...)
+	return idx, names
+}
+
+func (b *tableBuilder) finish() {
+	t := b.t
+	idx, names := b.columnNames()
 	if b.blankRows > 0 {
 		t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: fmt.Sprintf("%d entirely blank row(s) were left out, the first being row %d", b.blankRows, b.firstBlank)})
 	}
 	for i, ci := range idx {
-		cb := b.cols[ci]
+		cb := b.cols[ci].(*colBuilder)
 		col := &Column{Name: names[i], Letter: columnLetter(ci), Index: ci}
 		cb.finish(col)
 		if col.Kind == Empty && b.header[ci] == "" && col.MissingCount[Blank] == len(col.Missing) {

@@ -140,6 +140,11 @@ type Column struct {
 	// Levels are the distinct values of a YesNo column (two, the first
 	// coded 0) or a Category column (sorted, coded by position).
 	Levels []string
+	// Distinct holds, for a Number or Date column, its first three
+	// distinct values in order of appearance (fewer when it has fewer):
+	// enough to tell a constant, a two-valued and a many-valued column
+	// without a pass over it.
+	Distinct []float64
 	// Missing holds one reason a row: Present, or why the cell is missing.
 	Missing []Reason
 	// MissingCount counts the missing cells by reason.

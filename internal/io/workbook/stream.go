@@ -1,0 +1,340 @@
+package workbook
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"sort"
+	"strconv"
+	"strings"
+)
+
+// Stream is a text file read in passes instead of held in memory, for a
+// fit that streams its rows (estimate.FitStream). OpenStream surveys the
+// file once, deciding each column's kind exactly as Read would; Pass then
+// reads it again from the start, a chunk of rows at a time, giving each
+// cell the value and missing reason Read would give it. Memory stays flat
+// however long the file is.
+type Stream struct {
+	// Outline describes the file as Read's Table would (path, header row,
+	// notes, columns with names, kinds, levels and distinct values) but
+	// holds no rows: its columns' Numbers, Texts and Missing are nil.
+	Outline *Table
+	// Rows is the number of data rows.
+	Rows int
+
+	tf   *TextFormat
+	opts Options
+}
+
+// ErrChangedWhileRead is the cause of a pass that did not see the rows
+// the survey saw.
+var ErrChangedWhileRead = errors.New("the file changed while it was being read")
+
+// OpenStream surveys a delimited text file for streamed reading. Its
+// errors are not worded for people: a caller that meets one reads the
+// file with Read instead, which says what is wrong (a file that is not
+// text, a quote out of place, a header with no rows below it).
+func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error) {
+	f, err := sniff(path)
+	if err != nil {
+		return nil, err
+	}
+	if f != formatText {
+		return nil, fmt.Errorf("%s is not a text file", path)
+	}
+	tf, err := sniffText(path)
+	if err != nil {
+		return nil, err
+	}
+	src, err := openScanner(path, tf)
+	if err != nil {
+		return nil, err
+	}
+	defer src.Close()
+	t := &Table{Path: path, Text: tf}
+	if tf.Encoding != "UTF-8" {
+		t.Notes = append(t.Notes, Note{Text: "the file is not UTF-8; it was read as " + tf.Encoding + " text"})
+	}
+	b := &tableBuilder{t: t, cols: map[int]colAdder{}, decimalComma: tf.DecimalComma,
+		newCol: func(i int) colAdder { return &colSurvey{texts: map[string]bool{}} }}
+	if err := scanRows(ctx, src, t, opts, b); err != nil {
+		return nil, err
+	}
+	b.finishSurvey()
+	return &Stream{Outline: t, Rows: b.rows, tf: tf, opts: opts}, nil
+}
+
+// colSurvey counts what colBuilder needs to decide a column's kind,
+// keeping no rows. Text files hold only text cells.
+type colSurvey struct {
+	present, converted, dateTexts int
+	marked                        int       // missing for a reason other than a blank
+	numbers                       []float64 // the first three distinct numbers
+	dates                         []float64 // the first three distinct date values
+	texts                         map[string]bool
+}
+
+func (c *colSurvey) add(cell *rawCell, decimalComma bool) {
+	if cell == nil {
+		return
+	}
+	s := trimSpace(cell.Text)
+	switch classifyText(s) {
+	case Blank:
+		return
+	case Present:
+	default:
+		c.marked++
+		return
+	}
+	c.present++
+	if len(c.texts) <= maxLevels && !c.texts[s] {
+		c.texts[strings.Clone(s)] = true
+	}
+	if v, ok := parseNumber(s, decimalComma); ok {
+		c.converted++
+		c.numbers = noteDistinct(c.numbers, v)
+		if len(c.dates) < 3 && !contains(c.dates, v) && plainNumber(v, s) {
+			c.dates = append(c.dates, v)
+		}
+		return
+	}
+	if v, ok := parseDate(s); ok {
+		c.dateTexts++
+		c.dates = noteDistinct(c.dates, v)
+	}
+}
+
+func noteDistinct(seen []float64, v float64) []float64 {
+	if len(seen) < 3 && !contains(seen, v) {
+		seen = append(seen, v)
+	}
+	return seen
+}
+
+func contains(xs []float64, v float64) bool {
+	for _, x := range xs {
+		if x == v {
+			return true
+		}
+	}
+	return false
+}
+
+// plainNumber reports whether s is v written plainly, as colBuilder
+// decides whether to keep a number's text.
+func plainNumber(v float64, s string) bool {
+	var buf [32]byte
+	return string(strconv.AppendFloat(buf[:0], v, 'g', -1, 64)) == s
+}
+
+// kind decides the column's kind and levels as colBuilder.finish does.
+func (c *colSurvey) kind(col *Column) {
+	switch {
+	case c.present == 0:
+		col.Kind = Empty
+	case c.dateTexts > c.present/2:
+		col.Kind, col.Distinct = Date, c.dates
+	case c.converted > c.present/2:
+		if len(c.numbers) == 2 && contains(c.numbers, 0) && contains(c.numbers, 1) {
+			col.Kind, col.Levels = YesNo, []string{"0", "1"}
+			return
+		}
+		col.Kind, col.Distinct = Number, c.numbers
+	default:
+		n := len(c.texts)
+		switch {
+		case n == 2:
+			col.Kind = YesNo
+		case n <= maxLevels && n*2 <= c.present:
+			col.Kind = Category
+		default:
+			col.Kind = Text
+			return
+		}
+		for s := range c.texts {
+			col.Levels = append(col.Levels, s)
+		}
+		if col.Kind == YesNo {
+			orderYesNo(col.Levels)
+		} else {
+			sort.Strings(col.Levels)
+		}
+	}
+}
+
+// finishSurvey names the columns and decides their kinds, as finish does
+// for a Table.
+func (b *tableBuilder) finishSurvey() {
+	t := b.t
+	idx, names := b.columnNames()
+	for i, ci := range idx {
+		cs := b.cols[ci].(*colSurvey)
+		col := &Column{Name: names[i], Letter: columnLetter(ci), Index: ci}
+		cs.kind(col)
+		if col.Kind == Empty && b.header[ci] == "" && cs.marked == 0 {
+			continue // a spacer column with neither name nor values
+		}
+		t.Columns = append(t.Columns, col)
+	}
+}
+
+// Pass reads the file again from the start and calls each with
+// successive chunks of at most size data rows: the rows' numbers in the
+// file (as Table.SourceRows) and, for each named column, a Column of the
+// outline's kind holding the chunk's values (Numbers, Texts and Missing,
+// as Read fills them). The chunk's slices are reused once each returns;
+// its texts may be kept.
+func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(rows []int, cols []*Column) error) error {
+	src, err := openScanner(s.Outline.Path, s.tf)
+	if err != nil {
+		return err
+	}
+	defer src.Close()
+	cols := make([]*chunkColumn, len(names))
+	for i, name := range names {
+		oc := s.Outline.Column(name)
+		if oc == nil {
+			return fmt.Errorf("%s has no column %q", s.Outline.Path, name)
+		}
+		cols[i] = &chunkColumn{Column: Column{Name: oc.Name, Letter: oc.Letter, Index: oc.Index, Kind: oc.Kind, Levels: oc.Levels, Distinct: oc.Distinct},
+			intern: map[string]string{}}
+	}
+	out := make([]*Column, len(cols))
+	for i, c := range cols {
+		out[i] = &c.Column
+	}
+	var rows []int
+	flush := func() error {
+		if len(rows) == 0 {
+			return nil
+		}
+		if err := each(rows, out); err != nil {
+			return err
+		}
+		rows = rows[:0]
+		for _, c := range cols {
+			c.Numbers, c.Texts, c.Missing = c.Numbers[:0], c.Texts[:0], c.Missing[:0]
+		}
+		return nil
+	}
+	seen, headerRow := 0, s.Outline.HeaderRow
+	for n := 0; ; n++ {
+		if n%4096 == 0 {
+			if err := ctx.Err(); err != nil {
+				return &Error{Path: s.Outline.Path, Cause: ErrCancelled, Underlying: err}
+			}
+		}
+		num, cells, err := src.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		if num <= headerRow || isBlankRow(cells) {
+			continue
+		}
+		seen++
+		rows = append(rows, num)
+		for _, c := range cols {
+			c.add(cells, s.tf.DecimalComma)
+		}
+		if len(rows) == size {
+			if err := flush(); err != nil {
+				return err
+			}
+		}
+	}
+	if err := flush(); err != nil {
+		return err
+	}
+	if seen != s.Rows {
+		return &Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: fmt.Sprintf("%d data rows were read first, %d now", s.Rows, seen)}
+	}
+	return nil
+}
+
+// internLimit bounds the texts a column keeps one copy of.
+const internLimit = 1 << 16
+
+// chunkColumn is one column of a chunk, filled cell by cell.
+type chunkColumn struct {
+	Column
+	intern map[string]string
+}
+
+// add appends the row's cell of this column, converted as colBuilder.add
+// and finish convert it for the column's kind.
+func (c *chunkColumn) add(cells []rawCell, decimalComma bool) {
+	var s string
+	found := false
+	for i := range cells {
+		if cells[i].Col == c.Index {
+			s, found = trimSpace(cells[i].Text), true
+			break
+		}
+		if cells[i].Col > c.Index {
+			break
+		}
+	}
+	reason := Blank
+	if found {
+		reason = classifyText(s)
+	}
+	num, text := math.NaN(), ""
+	if reason == Present {
+		switch c.Kind {
+		case Number:
+			if v, ok := parseNumber(s, decimalComma); ok {
+				num = v
+			} else {
+				reason = TextInNumbers
+			}
+		case Date:
+			if v, ok := parseNumber(s, decimalComma); ok && plainNumber(v, s) {
+				num = v
+			} else if v, ok := parseDate(s); ok {
+				num = v
+			} else {
+				reason = BadDate
+			}
+		case YesNo, Category, Text:
+			// Two texts "0" and "1" would be numbers, so a yes/no column
+			// with these levels was made from numbers (finishYesNoNumbers).
+			if c.Kind == YesNo && c.Levels[0] == "0" && c.Levels[1] == "1" {
+				v, ok := parseNumber(s, decimalComma)
+				switch {
+				case ok && v == 0:
+					num, text = 0, "0"
+				case ok && v == 1:
+					num, text = 1, "1"
+				default:
+					reason = TextInNumbers
+				}
+				break
+			}
+			text = c.keep(s)
+		}
+	}
+	c.Numbers = append(c.Numbers, num)
+	c.Missing = append(c.Missing, reason)
+	if c.Kind == YesNo || c.Kind == Category || c.Kind == Text {
+		c.Texts = append(c.Texts, text)
+	}
+}
+
+// keep returns s as a string that outlives the chunk, one copy a text.
+func (c *chunkColumn) keep(s string) string {
+	if k, ok := c.intern[s]; ok {
+		return k
+	}
+	k := strings.Clone(s)
+	if len(c.intern) < internLimit {
+		c.intern[k] = k
+	}
+	return k
+}

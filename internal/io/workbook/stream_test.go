@@ -1,0 +1,241 @@
+package workbook
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"math"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"reflect"
+	"strconv"
+	"strings"
+	"testing"
+)
+
+// messyCSV writes a text file whose columns each lean to one kind of
+// content (numbers, 0/1, dates, groups, free text, two labels, blanks)
+// with the odd cell of another kind, markers, error values, numbers
+// written with separators or leading zeros, quoted fields with
+// delimiters and line breaks, blank lines and CRLF line ends.
+func messyCSV(rng *rand.Rand, rows int, delim string) []byte {
+	pools := [][]string{
+		{"12", "3.5", "-0.25", "1e3", " 42 ", "1000000", "0.1"},
+		{"0", "1"},
+		{"2024-01-05", "2023-12-31", "2024-02-29 10:30", "2024/03/01"},
+		{"north", "south", "east", "west"},
+		{"free text", "more words", "x", "another one", "yet more"},
+		{"yes", "no"},
+		{"3", "3"},
+	}
+	odd := []string{"", "", "", "NA", "-", "#N/A", "#DIV/0!", "n/a", "007", "1,5", "12%", "text", "2024-13-01",
+		`"quoted, with comma"`, "\"line\nbreak\"", `"say ""hi"""`, " ", "1 000", "TRUE"}
+	cols := 3 + rng.IntN(6)
+	lean := make([]int, cols)
+	header := make([]string, cols)
+	for j := range lean {
+		lean[j] = rng.IntN(len(pools))
+		header[j] = fmt.Sprintf("col %c", 'A'+j)
+		if rng.IntN(8) == 0 {
+			header[j] = ""
+		}
+	}
+	var b bytes.Buffer
+	eol := "\n"
+	if rng.IntN(3) == 0 {
+		eol = "\r\n"
+	}
+	b.WriteString(strings.Join(header, delim) + eol)
+	for i := 0; i < rows; i++ {
+		if rng.IntN(40) == 0 {
+			b.WriteString(eol)
+		}
+		width := cols
+		if rng.IntN(20) == 0 {
+			width = rng.IntN(cols) + 1
+		}
+		cells := make([]string, width)
+		for j := range cells {
+			pool := pools[lean[j]]
+			cells[j] = pool[rng.IntN(len(pool))]
+			if lean[j] == 4 && rng.IntN(2) == 0 {
+				cells[j] = fmt.Sprintf("note %d", rng.IntN(5000))
+			}
+			if rng.IntN(6) == 0 {
+				cells[j] = odd[rng.IntN(len(odd))]
+			}
+			if delim != "," {
+				cells[j] = strings.ReplaceAll(cells[j], ",", ";")
+			}
+		}
+		b.WriteString(strings.Join(cells, delim) + eol)
+	}
+	return b.Bytes()
+}
+
+// TestStreamMatchesRead checks, on generated files, that a streamed read
+// gives every column the kind, levels and distinct values Read gives it,
+// and every cell Read's value, text and missing reason.
+func TestStreamMatchesRead(t *testing.T) {
+	dir := t.TempDir()
+	rng := rand.New(rand.NewPCG(3, 9))
+	for n := 0; n < 60; n++ {
+		delim := []string{",", ";", "\t"}[n%3]
+		path := filepath.Join(dir, fmt.Sprintf("messy-%d.csv", n))
+		if err := os.WriteFile(path, messyCSV(rng, 20+rng.IntN(400), delim), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		compareStream(t, path, Options{})
+		compareStream(t, path, Options{HeaderRow: 1})
+	}
+}
+
+func compareStream(t *testing.T, path string, opts Options) {
+	t.Helper()
+	want, werr := Read(context.Background(), path, opts)
+	s, serr := OpenStream(context.Background(), path, opts)
+	if werr != nil || serr != nil {
+		if werr == nil {
+			t.Errorf("%s: Read read it, OpenStream says %v", path, serr)
+		}
+		return
+	}
+	if s.Rows != want.Len() || s.Outline.HeaderRow != want.HeaderRow || len(s.Outline.Columns) != len(want.Columns) {
+		t.Fatalf("%s: stream %d rows, header %d, %d columns; Read %d, %d, %d", path, s.Rows, s.Outline.HeaderRow,
+			len(s.Outline.Columns), want.Len(), want.HeaderRow, len(want.Columns))
+	}
+	var names []string
+	for i, wc := range want.Columns {
+		oc := s.Outline.Columns[i]
+		if oc.Name != wc.Name || oc.Kind != wc.Kind || !reflect.DeepEqual(oc.Levels, wc.Levels) || !reflect.DeepEqual(oc.Distinct, wc.Distinct) {
+			t.Fatalf("%s: column %d: stream %q %v %q %v, Read %q %v %q %v", path, i, oc.Name, oc.Kind, oc.Levels, oc.Distinct,
+				wc.Name, wc.Kind, wc.Levels, wc.Distinct)
+		}
+		names = append(names, wc.Name)
+	}
+	at := 0
+	err := s.Pass(context.Background(), names, 7, func(rows []int, cols []*Column) error {
+		for r, num := range rows {
+			i := at + r
+			if num != want.SourceRows[i] {
+				return fmt.Errorf("data row %d is row %d, Read says %d", i, num, want.SourceRows[i])
+			}
+			for j, c := range cols {
+				wc := want.Columns[j]
+				var wn float64 = math.NaN()
+				if wc.Numbers != nil && wc.Kind != YesNo && wc.Kind != Category && wc.Kind != Text {
+					wn = wc.Numbers[i]
+				}
+				var gn float64 = math.NaN()
+				if c.Kind == Number || c.Kind == Date {
+					gn = c.Numbers[r]
+				}
+				if !(gn == wn || math.IsNaN(gn) && math.IsNaN(wn)) || c.Missing[r] != wc.Missing[i] {
+					return fmt.Errorf("row %d, column %q: %v (%v), Read %v (%v)", num, wc.Name, gn, c.Missing[r], wn, wc.Missing[i])
+				}
+				if wc.Texts != nil && c.Texts[r] != wc.Texts[i] {
+					return fmt.Errorf("row %d, column %q: %q, Read %q", num, wc.Name, c.Texts[r], wc.Texts[i])
+				}
+			}
+		}
+		at += len(rows)
+		return nil
+	})
+	if err != nil {
+		t.Fatalf("%s: %v", path, err)
+	}
+}
+
+// TestScannerMatchesCSV checks the fast scanner against encoding/csv
+// (through textSource) on generated files and on the fuzz seeds: the same
+// rows, row numbers and cells, and a refusal exactly where encoding/csv
+// reports an error.
+func TestScannerMatchesCSV(t *testing.T) {
+	rng := rand.New(rand.NewPCG(4, 4))
+	inputs := [][]byte{
+		[]byte("a,b\n1,2\n"), []byte("a,b\r\n\r\n1,\"x\r\ny\"\r\n"), []byte("a,\"b\n\nc\",d\n\n\n1,2,3"),
+		[]byte("a,b\n1,\"2\"x\n"), []byte("a,b\n1,2\"\n"), []byte("a\n\"open"), []byte("a,b\r"), []byte("\"\"\"\",\"\"\n,,\n"),
+	}
+	for range 40 {
+		inputs = append(inputs, messyCSV(rng, 50, ","))
+	}
+	for i, in := range inputs {
+		compareScanner(t, fmt.Sprintf("input %d", i), in)
+	}
+}
+
+// FuzzScanner compares the fast scanner with encoding/csv on any input.
+func FuzzScanner(f *testing.F) {
+	f.Add([]byte("a,b\n1,\"2\n3\"\n\n4,5\r\n"))
+	f.Add([]byte("x;y\n\"a\"\"b\";c\n"))
+	f.Fuzz(func(t *testing.T, in []byte) {
+		compareScanner(t, "fuzz", in)
+	})
+}
+
+func compareScanner(t *testing.T, name string, in []byte) {
+	t.Helper()
+	path := filepath.Join(t.TempDir(), "in.csv")
+	if err := os.WriteFile(path, in, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	tf, err := sniffText(path)
+	if err != nil {
+		return
+	}
+	std, _, err := openText(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer std.Close()
+	fast, err := openScanner(path, tf)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer fast.Close()
+	for rec := 0; ; rec++ {
+		n1, c1, e1 := std.Next()
+		n2, c2, e2 := fast.Next()
+		if e1 != nil || e2 != nil {
+			if (e1 == io.EOF) != (e2 == io.EOF) || (e1 == nil) != (e2 == nil) {
+				t.Fatalf("%s, record %d: encoding/csv says %v, the scanner %v", name, rec, e1, e2)
+			}
+			if e2 != nil && e2 != io.EOF && !errors.Is(e2, errScannerRefused) {
+				t.Fatalf("%s, record %d: the scanner fails with %v", name, rec, e2)
+			}
+			return
+		}
+		if n1 != n2 || !reflect.DeepEqual(c1, c2) {
+			t.Fatalf("%s, record %d: encoding/csv row %d %+v, the scanner row %d %+v", name, rec, n1, c1, n2, c2)
+		}
+	}
+}
+
+// TestPlainDecimal checks the fast path of parseNumber against
+// strconv.ParseFloat on random decimals of up to 15 digits.
+func TestPlainDecimal(t *testing.T) {
+	rng := rand.New(rand.NewPCG(8, 1))
+	for range 200000 {
+		digits := 1 + rng.IntN(15)
+		var b strings.Builder
+		if rng.IntN(3) == 0 {
+			b.WriteByte('-')
+		}
+		point := rng.IntN(digits + 1)
+		for i := 0; i < digits; i++ {
+			if i == point && i > 0 {
+				b.WriteByte('.')
+			}
+			b.WriteByte(byte('0' + rng.IntN(10)))
+		}
+		s := b.String()
+		got, ok := plainDecimal(s, false)
+		want, err := strconv.ParseFloat(s, 64)
+		if !ok || err != nil || math.Float64bits(got) != math.Float64bits(want) {
+			t.Fatalf("%q: %v %v, strconv %v %v", s, got, ok, want, err)
+		}
+	}
+}

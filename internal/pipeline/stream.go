@@ -1,0 +1,110 @@
+package pipeline
+
+import (
+	"context"
+	"errors"
+	"fmt"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/report"
+)
+
+// streamChunkRows is how many rows a chunk of a streamed fit holds.
+const streamChunkRows = 8192
+
+// Source is a sheet ready to analyze: read whole into a Table, or, for a
+// delimited text file, surveyed for a streamed fit that holds no rows
+// (ARCHITECTURE, "Streaming where it pays").
+type Source struct {
+	// Table is the sheet read whole; nil when streamed.
+	Table *workbook.Table
+	// Stream is the surveyed text file; nil when read whole.
+	Stream *workbook.Stream
+}
+
+// Open readies the run's file for Analyze: a text file is surveyed for a
+// streamed fit; a workbook, or a text file the survey cannot take (it
+// then says why through Read's own error, or reads it whole), is read.
+func Open(ctx context.Context, run report.Run) (*Source, error) {
+	s, err := workbook.OpenStream(ctx, run.File, workbook.Options{Sheet: run.Sheet, HeaderRow: run.HeaderRow})
+	if err == nil {
+		return &Source{Stream: s}, nil
+	}
+	if ctx.Err() != nil {
+		return nil, err
+	}
+	t, err := Read(ctx, run, nil)
+	if err != nil {
+		return nil, err
+	}
+	return &Source{Table: t}, nil
+}
+
+// Outline is the sheet's columns (names, kinds, levels) for choosing
+// roles: the Table itself, or the stream's outline, which holds no rows.
+func (s *Source) Outline() *workbook.Table {
+	if s.Stream != nil {
+		return s.Stream.Outline
+	}
+	return s.Table
+}
+
+// Analyze fits and builds the results sheet. A streamed fit that needs
+// every row (estimate.ErrNeedsMemory) reads the file whole and fits again
+// in memory, so the result is always Fit's. The Analysis of a streamed
+// fit has no Table.
+func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error) {
+	if s.Stream == nil {
+		return AnalyzeTable(ctx, run, s.Table)
+	}
+	o := s.Stream.Outline
+	run.Sheet, run.HeaderRow = o.Sheet, o.HeaderRow
+	res, err := estimate.FitStream(ctx, streamChunks{s.Stream, usedColumns(o, run.Spec)}, run.Spec)
+	if errors.Is(err, estimate.ErrNeedsMemory) {
+		t, err := Read(ctx, run, nil)
+		if err != nil {
+			return nil, err
+		}
+		return AnalyzeTable(ctx, run, t)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", where(o), err)
+	}
+	sheet, err := report.Build(run, res)
+	if err != nil {
+		return nil, err
+	}
+	return &Analysis{Run: run, Result: res, Sheet: sheet}, nil
+}
+
+// usedColumns lists the columns of the outline that the spec uses; one it
+// names but the file lacks is left for the fit to report.
+func usedColumns(o *workbook.Table, s estimate.Spec) []string {
+	var names []string
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+		if name != "" && o.Column(name) != nil {
+			names = append(names, name)
+		}
+	}
+	return names
+}
+
+// streamChunks adapts a stream's passes to the engine's chunks, as
+// EngineData adapts a table.
+type streamChunks struct {
+	s     *workbook.Stream
+	names []string
+}
+
+func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data) error) error {
+	d := &estimate.Data{}
+	return c.s.Pass(ctx, c.names, streamChunkRows, func(rows []int, cols []*workbook.Column) error {
+		d.RowLabels = rows
+		d.Columns = d.Columns[:0]
+		for _, col := range cols {
+			d.Columns = append(d.Columns, engineColumn(col, len(rows)))
+		}
+		return each(d)
+	})
+}
