@@ -49,7 +49,7 @@ go-test:
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:
-	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR' -v
+	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR|TestEquivalenceAgainstR' -v
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x

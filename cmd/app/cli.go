@@ -7,6 +7,7 @@ import (
 	"flag"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -79,6 +80,11 @@ Options:
                            draw fits in B, each is used once instead)
   --seed N                 seed of the bootstrap draws (default 0); the same
                            seed gives the same answer
+  --equivalence-margin D   the smallest difference between groups that matters,
+                           in the outcome's units (for a 0/1 outcome, a
+                           proportion: 0.05 for 5 percentage points); the note
+                           then says whether two one-sided tests show the
+                           effect to be the same to within D
   --sheet NAME             the sheet to read (default: the first)
   --header-row N           the row holding the column names (default: found)
   --out PATH               write the results into a copy at PATH instead
@@ -169,6 +175,7 @@ type modelFlags struct {
 	noBootstrap                 bool
 	draws                       int
 	seed                        uint64
+	margin                      float64
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -200,6 +207,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.BoolVar(&f.noBootstrap, "no-bootstrap", false, "")
 	fs.IntVar(&f.draws, "draws", 0, "")
 	fs.Uint64Var(&f.seed, "seed", 0, "")
+	fs.Float64Var(&f.margin, "equivalence-margin", 0, "")
 }
 
 // parse reads the command line into fs, the file coming before or after
@@ -317,6 +325,9 @@ func (f *modelFlags) check() error {
 	if f.dryRun && f.out != "" {
 		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
 	}
+	if f.set["equivalence-margin"] && !(f.margin > 0 && !math.IsInf(f.margin, 0)) {
+		return usagef("--equivalence-margin must be a positive number in the outcome's units, not %g", f.margin)
+	}
 	return f.checkBootstrap()
 }
 
@@ -419,13 +430,14 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 		}
 	}
 	s := estimate.Spec{
-		Outcome:   f.outcome,
-		Controls:  splitList(f.controls),
-		Cluster:   f.cluster,
-		Weights:   f.weights,
-		Variance:  seTypes[f.se],
-		Alpha:     f.alpha,
-		Bootstrap: estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
+		Outcome:           f.outcome,
+		Controls:          splitList(f.controls),
+		Cluster:           f.cluster,
+		Weights:           f.weights,
+		Variance:          seTypes[f.se],
+		Alpha:             f.alpha,
+		Bootstrap:         estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
+		EquivalenceMargin: f.margin,
 	}
 	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
 		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}

@@ -100,6 +100,10 @@ func TestUsageErrors(t *testing.T) {
 		{"too many draws", with("--cluster", "wool", "--draws", "1000000"), "--draws must be a whole number from 99"},
 		{"draws not a number", with("--cluster", "wool", "--draws", "many"), "invalid value"},
 		{"negative seed", with("--cluster", "wool", "--seed", "-1"), "invalid value"},
+		{"zero margin", with("--equivalence-margin", "0"), "--equivalence-margin must be a positive number"},
+		{"negative margin", with("--equivalence-margin", "-2"), "--equivalence-margin must be a positive number"},
+		{"infinite margin", with("--equivalence-margin", "Inf"), "--equivalence-margin must be a positive number"},
+		{"margin not a number", with("--equivalence-margin", "small"), "invalid value"},
 		{"demo without folder", []string{"demo"}, "give one folder"},
 		{"demo with two folders", []string{"demo", "a", "b"}, "give one folder"},
 		{"demo unknown flag", []string{"demo", "--force", "x"}, "flag provided but not defined"},
@@ -130,6 +134,8 @@ func TestHelp(t *testing.T) {
 		{[]string{"analyze", "--help"}, "--moderator-values"},
 		{[]string{"help", "analyze"}, "--no-bootstrap"},
 		{[]string{"help", "screen"}, "--moderators A,B"},
+		{[]string{"help", "analyze"}, "--equivalence-margin D"},
+		{[]string{"help", "screen"}, "--equivalence-margin"},
 		{[]string{"screen", "--help"}, "--planned A"},
 		{[]string{"help"}, "slopewise screen FILE"},
 		{[]string{"help", "analyze"}, "--draws B"},
@@ -728,5 +734,49 @@ func TestLinearityJSON(t *testing.T) {
 	code, out, errs = runCLI(t, append(append([]string{}, base...), "--moderator", demodata.ColRegion)...)
 	if code != exitOK || strings.Contains(out, `"linearity"`) {
 		t.Errorf("region: exit %d, linearity in the JSON: %v; %s", code, strings.Contains(out, `"linearity"`), errs)
+	}
+}
+
+// TestEquivalenceMargin runs analyze and screen with a smallest difference
+// that matters: every difference between groups carries the two one-sided
+// tests (Schuirmann 1987) in the JSON, with the 90% interval whose place
+// inside (−D, D) decides, and the note says the verdict.
+func TestEquivalenceMargin(t *testing.T) {
+	path := writeDemo(t)
+	base := []string{"--dry-run", "--json", "--outcome", demodata.ColEarnings, "--treatment", demodata.ColCoached, "--randomized", "--equivalence-margin", "150"}
+	code, out, errs := runCLI(t, append([]string{"analyze", path, "--moderator", demodata.ColFirstTime}, base...)...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	e := o.Differences[0].Equivalence
+	if o.EquivalenceMargin != 150 || e == nil || e.Margin != 150 || e.CILow == nil || e.Bootstrap {
+		t.Fatalf("margin %g, equivalence %+v", o.EquivalenceMargin, e)
+	}
+	d := o.Differences[0]
+	if !(*e.CILow > d.CILow && *e.CIHigh < d.CIHigh) || e.Equivalent != (*e.CILow > -150 && *e.CIHigh < 150) {
+		t.Errorf("90%% interval %g to %g inside the 95%% %g to %g? equivalent %v", *e.CILow, *e.CIHigh, d.CILow, d.CIHigh, e.Equivalent)
+	}
+	if !strings.Contains(o.Note, "Schuirmann 1987") || !strings.Contains(o.Note, "150 as the smallest difference that matters") {
+		t.Errorf("the note does not give the verdict:\n%s", o.Note)
+	}
+
+	code, out, errs = runCLI(t, append([]string{"screen", path, "--moderators", demodata.ColFirstTime + "," + demodata.ColBaselineScore}, base...)...)
+	if code != exitOK {
+		t.Fatalf("screen: exit %d: %s", code, errs)
+	}
+	var so report.ScreenOutput
+	if err := json.Unmarshal([]byte(out), &so); err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range so.Moderators {
+		for _, d := range m.Detail.Differences {
+			if (d.Equivalence == nil) != strings.HasPrefix(d.Label, "per 1 unit") {
+				t.Errorf("screen %s, %s: equivalence %+v", m.Moderator, d.Label, d.Equivalence)
+			}
+		}
 	}
 }

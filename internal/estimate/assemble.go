@@ -221,7 +221,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 			inf := in.combo(a)
 			ds.diffA = append(ds.diffA, a)
 			res.Differences = append(res.Differences, Difference{From: ds.levels[ja], To: ds.levels[jb],
-				VsReference: ja == ds.ref, Inference: inf, MDD: in.mdd(inf.SE)})
+				VsReference: ja == ds.ref, Inference: inf, MDD: in.mdd(inf.SE), Equivalence: equivalenceOf(in, inf, s)})
 		}
 	}
 }
@@ -297,7 +297,17 @@ func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
 		a[b3] = last.value - first.value
 		inf := in.combo(a)
 		ds.diffA = append(ds.diffA, a)
-		res.Differences = append(res.Differences, Difference{From: first.label, To: last.label, Inference: inf, MDD: in.mdd(inf.SE)})
+		res.Differences = append(res.Differences, Difference{From: first.label, To: last.label, Inference: inf, MDD: in.mdd(inf.SE),
+			Equivalence: equivalenceOf(in, inf, s)})
 	}
 	res.JohnsonNeyman = johnsonNeyman(in, ds.tCol, b3, ds.centre, lo, hi)
+}
+
+// equivalenceOf is the equivalence test of a difference when the spec
+// gives a margin.
+func equivalenceOf(in *inferencer, inf Inference, s Spec) *Equivalence {
+	if s.EquivalenceMargin <= 0 || !(inf.SE > 0) {
+		return nil
+	}
+	return in.equivalence(inf, s.EquivalenceMargin)
 }

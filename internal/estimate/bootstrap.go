@@ -392,6 +392,26 @@ func (sd *singleDraws) inference(alpha float64) *BootInference {
 	return bi
 }
 
+// equivalence is the two one-sided tests of the difference against the
+// margin by the bootstrap (Schuirmann 1987 with the bootstrap-t): the
+// (1 − 2α) interval by inverting the test at level 2α, and each one-sided
+// p-value half the symmetric test's p at ±Δ when the estimate lies on the
+// side the alternative claims, one minus that half otherwise.
+func (sd *singleDraws) equivalence(margin, alpha float64) *Equivalence {
+	e := &Equivalence{Margin: margin, Bootstrap: true}
+	e.CILow, e.CIHigh, e.Bounded = sd.interval(2 * alpha)
+	oneSided := func(r float64, inside bool) float64 {
+		half := sd.pAt(r) / 2
+		if inside {
+			return half
+		}
+		return 1 - half
+	}
+	e.P = math.Max(oneSided(-margin, sd.est > -margin), oneSided(margin, sd.est < margin))
+	e.Equivalent = e.Bounded && e.P < alpha
+	return e
+}
+
 // wald is the bootstrap p-value of the Wald test that the coefficients in
 // cols are all zero, observed statistic f (an F, W/q). The restricted fit
 // imposes all of them: β̃ = β̂ − D, D = BR'(RBR')⁻¹Rβ̂, so ũ_g = ê_g + X_g·D.
@@ -523,7 +543,7 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 			progress(done, total)
 		}
 	}
-	one := func(a []float64, inf Inference) (*BootInference, error) {
+	one := func(a []float64, inf Inference) (*singleDraws, error) {
 		if !(inf.SE > 0) || math.IsInf(inf.SE, 0) {
 			step()
 			return nil, nil
@@ -533,17 +553,28 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 			return nil, ctx.Err()
 		}
 		step()
-		return sd.inference(s.Alpha), nil
+		return sd, nil
 	}
-	var err error
 	for i := range res.Effects {
-		if res.Effects[i].Boot, err = one(ds.effectA[i], res.Effects[i].Inference); err != nil {
+		sd, err := one(ds.effectA[i], res.Effects[i].Inference)
+		if err != nil {
 			return err
+		}
+		if sd != nil {
+			res.Effects[i].Boot = sd.inference(s.Alpha)
 		}
 	}
 	for i := range res.Differences {
-		if res.Differences[i].Boot, err = one(ds.diffA[i], res.Differences[i].Inference); err != nil {
+		d := &res.Differences[i]
+		sd, err := one(ds.diffA[i], d.Inference)
+		if err != nil {
 			return err
+		}
+		if sd != nil {
+			d.Boot = sd.inference(s.Alpha)
+			if d.Equivalence != nil {
+				d.Equivalence = sd.equivalence(s.EquivalenceMargin, s.Alpha)
+			}
 		}
 	}
 	if h := res.Heterogeneity; h != nil {

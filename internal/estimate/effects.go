@@ -60,6 +60,18 @@ func (in *inferencer) mdd(se float64) float64 {
 	return (in.tcrit + in.dist().Quantile(in.power)) * se
 }
 
+// equivalence is the two one-sided tests that the difference inf lies
+// within (−margin, margin) (Schuirmann 1987): t₁ = (d + Δ)/SE and
+// t₂ = (Δ − d)/SE, each referred to t(df) one-sided; the (1 − 2α) interval
+// d ± t(1 − α, df)·SE.
+func (in *inferencer) equivalence(inf Inference, margin float64) *Equivalence {
+	dist := in.dist()
+	half := dist.Quantile(1-in.alpha) * inf.SE
+	p := math.Max(dist.Survival((inf.Estimate+margin)/inf.SE), dist.Survival((margin-inf.Estimate)/inf.SE))
+	return &Equivalence{Margin: margin, CILow: inf.Estimate - half, CIHigh: inf.Estimate + half,
+		P: p, Equivalent: p < in.alpha, Bounded: true}
+}
+
 // wald tests H0: b_j = 0 for every j in cols: W = b'[V_cols]⁻¹b, F = W/q on
 // (q, df) (METHODS §4). ok is false when V_cols is not positive definite
 // (for example, fewer clusters than restrictions).

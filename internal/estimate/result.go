@@ -147,6 +147,33 @@ type Difference struct {
 	MDD float64 `json:"mdd"`
 	// Boot is the wild cluster bootstrap's p-value and interval.
 	Boot *BootInference `json:"boot,omitempty"`
+	// Equivalence tests whether the difference lies within the spec's
+	// smallest difference that matters; nil without a margin, and for the
+	// per-unit change of a continuous moderator (in other units).
+	Equivalence *Equivalence `json:"equivalence,omitempty"`
+}
+
+// Equivalence is the two one-sided tests (Schuirmann 1987, J.
+// Pharmacokinetics and Biopharmaceutics 15(6); METHODS §7) that a
+// difference d lies within (−Δ, Δ): H0 d ≤ −Δ against d > −Δ, and H0 d ≥ Δ
+// against d < Δ, each at level α. Both reject exactly when the (1 − 2α)
+// interval of d lies inside (−Δ, Δ); then the groups are called equivalent.
+type Equivalence struct {
+	Margin float64 `json:"margin"`
+	// CILow and CIHigh are the (1 − 2α) interval of the difference.
+	CILow  float64 `json:"ci_low"`
+	CIHigh float64 `json:"ci_high"`
+	// P is the larger of the two one-sided p-values.
+	P          float64 `json:"p"`
+	Equivalent bool    `json:"equivalent"`
+	// Bootstrap says the interval and p come from the wild cluster
+	// bootstrap: the interval by inverting its test at level 2α, each
+	// one-sided p half the two-sided p at ±Δ (on the side of the estimate).
+	Bootstrap bool `json:"bootstrap,omitempty"`
+	// Bounded is false when the bootstrap cannot bound the interval; the
+	// interval is then left at zero and the groups are not called
+	// equivalent.
+	Bounded bool `json:"bounded"`
 }
 
 // WaldTest is an F test of several linear restrictions.

@@ -1,6 +1,9 @@
 package estimate
 
-import "fmt"
+import (
+	"fmt"
+	"math"
+)
 
 // TreatmentKind says how the treatment column is read.
 type TreatmentKind string
@@ -91,6 +94,11 @@ type Spec struct {
 	// Bootstrap steers the wild cluster bootstrap, which runs by default
 	// when the cluster column has fewer than BootstrapClusters clusters.
 	Bootstrap Bootstrap `json:"bootstrap"`
+	// EquivalenceMargin is the smallest difference between groups that
+	// matters, in the outcome's units (for a 0/1 outcome, a difference in
+	// proportions); when set, every difference between groups is tested
+	// for equivalence within it (Schuirmann 1987). 0 means none.
+	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
 }
 
 // withDefaults returns the spec with every default filled in, or an error
@@ -132,6 +140,8 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", "Cluster-robust errors (CR1) need a cluster column. Pick the column that names each site or group, or choose HC3.")
 	case s.Cluster != "" && s.Variance != CR1:
 		return s, fail(ErrSpec, s.Cluster, fmt.Sprintf("A cluster column (%q) is chosen but the variance type is %s, which ignores it. Choose CR1, or remove the cluster column.", s.Cluster, s.Variance))
+	case !(s.EquivalenceMargin >= 0) || math.IsInf(s.EquivalenceMargin, 0):
+		return s, fail(ErrSpec, "", fmt.Sprintf("The smallest difference that matters, %g, must be a positive number in the outcome's units (or 0 for none).", s.EquivalenceMargin))
 	case s.Bootstrap.Draws < 1 || s.Bootstrap.Draws > MaxDraws:
 		return s, fail(ErrSpec, "", fmt.Sprintf("The number of bootstrap draws %d is outside 1 to %d. The usual choice is %d.", s.Bootstrap.Draws, MaxDraws, DefaultDraws))
 	case s.Bootstrap.Weights != "" && s.Bootstrap.Weights != Rademacher && s.Bootstrap.Weights != Webb:

@@ -24,6 +24,7 @@ func Note(run Run, res *estimate.Result) string {
 	} else {
 		w.groups()
 	}
+	w.equivalence()
 	w.precision()
 	w.bootstrapSentences()
 	w.moderatorWords()
@@ -257,6 +258,74 @@ func (w *noteWriter) linearity() {
 		m, w.what(), pText(l.Wald.P), strings.Join(parts, "; "))
 }
 
+// equivalence says whether the two one-sided tests conclude that the
+// effect is the same to within the smallest difference that matters, and
+// shows the (1 − 2α) interval they rest on (Schuirmann 1987; METHODS §7).
+func (w *noteWriter) equivalence() {
+	var ds []estimate.Difference
+	for _, d := range w.res.Differences {
+		if d.Equivalence != nil {
+			ds = append(ds, d)
+		}
+	}
+	if len(ds) == 0 {
+		return
+	}
+	res := w.res
+	margin := ds[0].Equivalence.Margin
+	lvl := level(2 * res.Model.Alpha)
+	within := fmt.Sprintf("%s to %s", readable(-w.u.scale*margin), readable(w.u.scale*margin))
+	pair := func(d estimate.Difference) string {
+		if res.Moderator.Kind == estimate.ModeratorContinuous {
+			return fmt.Sprintf("where %s is %s and where it is %s", res.Moderator.Column, readable(valueOf(res.Effects, d.To)), readable(valueOf(res.Effects, d.From)))
+		}
+		return fmt.Sprintf("in %q and in %q", d.To, d.From)
+	}
+	interval := func(e *estimate.Equivalence) string {
+		if !e.Bounded {
+			return "which the bootstrap cannot bound with so few clusters"
+		}
+		return fmt.Sprintf("%s to %s", readable(w.u.scale*e.CILow), readable(w.u.scale*e.CIHigh))
+	}
+	how := "the two one-sided tests (Schuirmann 1987"
+	if ds[0].Equivalence.Bootstrap {
+		how += ", by the wild cluster bootstrap"
+	}
+	how += ")"
+	lead := fmt.Sprintf("Taking %s as the smallest difference that matters, %s", w.u.amount(margin), how)
+	if len(ds) == 1 {
+		d := ds[0]
+		e := d.Equivalence
+		if e.Equivalent {
+			w.say("%s conclude that the %s is the same %s to within that margin: the %s interval of the difference, %s, lies inside %s (the less clear of the two tests gives %s).", lead, w.what(), pair(d), lvl, interval(e), within, pText(e.P))
+		} else {
+			w.say("%s cannot conclude that the %s is the same %s to within that margin: the %s interval of the difference, %s, reaches beyond %s (the less clear of the two tests gives %s).", lead, w.what(), pair(d), lvl, interval(e), within, pText(e.P))
+		}
+		return
+	}
+	var same []string
+	worst := ds[0]
+	for _, d := range ds {
+		if d.Equivalence.Equivalent {
+			same = append(same, fmt.Sprintf("%q and %q", d.To, d.From))
+		}
+		if d.Equivalence.P > worst.Equivalence.P {
+			worst = d
+		}
+	}
+	if len(same) == len(ds) {
+		w.say("%s conclude that the %s is the same to within that margin in every pair of the %d groups: every %s interval of a difference lies inside %s (the least clear pair, %q and %q, gives %s).",
+			lead, w.what(), len(res.Effects), lvl, within, worst.To, worst.From, pText(worst.Equivalence.P))
+		return
+	}
+	which := fmt.Sprintf("for none of the %d pairs of groups", len(ds))
+	if same != nil {
+		which = "only for " + joinAnd(same)
+	}
+	w.say("%s conclude that the %s is the same to within that margin %s; for %q and %q, for example, the %s interval of the difference, %s, reaches beyond %s (the less clear of the two tests gives %s).",
+		lead, w.what(), which, worst.To, worst.From, lvl, interval(worst.Equivalence), within, pText(worst.Equivalence.P))
+}
+
 // probeName describes a probe: "2.5 (its 10th percentile)".
 func probeName(e estimate.GroupEffect) string {
 	name := readable(e.Value)
@@ -328,7 +397,8 @@ func (w *noteWriter) precision() {
 	}
 	sentence := fmt.Sprintf("With these data, %s would be detected reliably (%s%% power) only if it were about %s or more",
 		what, power, w.u.amount(d.MDD))
-	if w.evidence(d.Inference, d.Boot).p >= res.Model.Alpha && d.MDD > typical {
+	shown := d.Equivalence != nil && d.Equivalence.Equivalent
+	if w.evidence(d.Inference, d.Boot).p >= res.Model.Alpha && d.MDD > typical && !shown {
 		sentence += fmt.Sprintf(", which is larger than the typical %s itself (%s); so the absence of a clear difference is not evidence that %s works equally well for everyone", w.what(), w.u.amount(typical), treatmentName(res.Spec.Treatment))
 	}
 	w.say("%s.", sentence)

@@ -41,6 +41,8 @@ type scenario struct {
 	// bend adds a hump to a continuous moderator's effect:
 	// bend·(1 − ((m − modMean)/(1.5·modSD))²).
 	bend float64
+	// margin is the smallest difference that matters.
+	margin float64
 }
 
 func (s scenario) data() *estimate.Data {
@@ -113,6 +115,7 @@ func (s scenario) run() Run {
 		spec.Cluster = "site"
 	}
 	spec.Bootstrap.Off = s.noBootstrap
+	spec.EquivalenceMargin = s.margin
 	r := Run{File: "coaching.xlsx", Sheet: "Participants", Spec: spec, Randomized: s.randomized,
 		Planned: s.planned, ModeratorsTried: s.tried, Version: "test",
 		Time: time.Date(2026, 3, 1, 9, 0, 0, 0, time.UTC)}
@@ -153,6 +156,11 @@ var noteScenarios = map[string]scenario{
 	"few-clusters-labels":             {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true},
 	"many-moderators-tried":           {n: 800, seed: 14, groups: []string{"rural", "urban"}, effects: []float64{1, 2.5}, noise: 3, randomized: true, tried: 6},
 	"few-clusters-no-bootstrap":       {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{1, 3}, noise: 3, clusters: 8, labels: true, randomized: true, planned: true, noBootstrap: true},
+	"binary-equivalent":               {n: 20000, seed: 2, groups: []string{"rural", "urban"}, effects: []float64{2, 2.05}, noise: 3, randomized: true, planned: true, margin: 0.5},
+	"binary-not-shown-equivalent":     {n: 120, seed: 3, groups: []string{"rural", "urban"}, effects: []float64{1, 2}, noise: 6, randomized: true, planned: true, margin: 0.5},
+	"categorical-equivalence-mixed":   {n: 3000, seed: 6, groups: []string{"coast", "hills", "plains"}, effects: []float64{2, 2.1, 3.5}, noise: 3, randomized: true, planned: true, margin: 0.8},
+	"continuous-equivalence":          {n: 4000, seed: 17, effects: []float64{2, 0.02}, noise: 3, modMean: 5, modSD: 2, randomized: true, planned: true, margin: 1},
+	"few-clusters-equivalence":        {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{2, 2.1}, noise: 3, clusters: 8, randomized: true, planned: true, margin: 1.5},
 	"continuous-curved":               {n: 2000, seed: 16, effects: []float64{0.5, 0.2}, noise: 3, modMean: 5, modSD: 2, bend: 2.5, randomized: true, planned: true},
 	"continuous-few-clusters":         {n: 700, seed: 15, effects: []float64{0.5, 0.3}, noise: 4, modMean: 5, modSD: 2, clusters: 13, randomized: true, planned: true},
 }

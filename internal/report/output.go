@@ -26,6 +26,9 @@ type Output struct {
 	// Bootstrap says how the wild cluster bootstrap ran; null when it did
 	// not (no cluster column, 42 clusters or more, or turned off).
 	Bootstrap *OutBootstrap `json:"bootstrap"`
+	// EquivalenceMargin is the smallest difference that matters, when
+	// given; each difference between groups then carries its test.
+	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
 }
 
 // OutBootstrap describes the wild cluster bootstrap of a run.
@@ -78,6 +81,29 @@ type OutDiff struct {
 	P        float64 `json:"p"`
 	MDD      float64 `json:"mdd"`
 	OutBoot
+	Equivalence *OutEquivalence `json:"equivalence,omitempty"`
+}
+
+// OutEquivalence is the two one-sided tests of a difference against the
+// smallest difference that matters (Schuirmann 1987).
+type OutEquivalence struct {
+	Margin     float64  `json:"margin"`
+	CILow      *float64 `json:"ci_low,omitempty"`
+	CIHigh     *float64 `json:"ci_high,omitempty"`
+	P          float64  `json:"p"`
+	Equivalent bool     `json:"equivalent"`
+	Bootstrap  bool     `json:"bootstrap"`
+}
+
+func outEquivalence(e *estimate.Equivalence) *OutEquivalence {
+	if e == nil {
+		return nil
+	}
+	o := &OutEquivalence{Margin: e.Margin, P: e.P, Equivalent: e.Equivalent, Bootstrap: e.Bootstrap}
+	if e.Bounded {
+		o.CILow, o.CIHigh = &e.CILow, &e.CIHigh
+	}
+	return o
 }
 
 // OutWald is the test that the effect is the same in every group.
@@ -171,6 +197,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 		SEType: SEName(res.Model.Variance), DF: float64(res.Model.DF),
 		Note: Note(run, res), Cautions: Cautions(run, res),
 		Groups: []OutGroup{}, Differences: []OutDiff{}, Coefficients: []OutCoef{},
+		EquivalenceMargin: res.Spec.EquivalenceMargin,
 	}
 	continuous := res.Moderator.Kind == estimate.ModeratorContinuous
 	for _, e := range res.Effects {
@@ -184,7 +211,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 	}
 	for _, d := range res.Differences {
 		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d, formatValue), Estimate: d.Estimate, SE: d.SE,
-			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD, OutBoot: outBoot(d.Boot)})
+			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD, OutBoot: outBoot(d.Boot), Equivalence: outEquivalence(d.Equivalence)})
 	}
 	if h := res.Heterogeneity; h != nil {
 		o.Heterogeneity = &OutWald{F: h.F, DF1: h.DF1, DF2: float64(h.DF2), P: h.P, PBoot: h.PBoot}

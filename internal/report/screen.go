@@ -246,7 +246,7 @@ func (b *sheetBuilder) screenAsked(sr ScreenRun) {
 	}
 	t := treatmentName(s.Treatment)
 	terms := append([]string{"a baseline level", t, "M", t + " × M"}, s.Controls...)
-	b.add("asked", "What was asked", [][]Cell{
+	rows := [][]Cell{
 		pair("Outcome", s.Outcome),
 		pair("Treatment", treatmentWords(s.Treatment)),
 		pair("Moderators tried", strings.Join(mods, "; ")),
@@ -255,7 +255,11 @@ func (b *sheetBuilder) screenAsked(sr ScreenRun) {
 		pair("Weights", orNone(s.Weights)),
 		pair("Treatment randomly assigned", yesNo(b.run.Randomized)),
 		pair("Model", fmt.Sprintf("%s = %s + error, once for each moderator M", s.Outcome, strings.Join(terms, " + "))),
-	})
+	}
+	if s.EquivalenceMargin > 0 {
+		rows = append(rows, pair("Smallest difference that matters", marginWords(b.res)))
+	}
+	b.add("asked", "What was asked", rows)
 }
 
 // screenData says where the rows came from; how many each moderator's

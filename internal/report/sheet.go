@@ -54,6 +54,7 @@ func (b *sheetBuilder) findings() error {
 	run, res := b.run, b.res
 	b.effects()
 	b.differences()
+	b.equivalence()
 	b.linearity()
 	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
 	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
@@ -97,6 +98,9 @@ func (b *sheetBuilder) asked() {
 		pair("Treatment randomly assigned", yesNo(b.run.Randomized)),
 		pair("Moderator named before seeing the data", yesNo(b.run.Planned)),
 		pair("Model", modelWords(b.res)),
+	}
+	if s.EquivalenceMargin > 0 {
+		rows = append(rows, pair("Smallest difference that matters", marginWords(b.res)))
 	}
 	b.add("asked", "What was asked", rows)
 }
@@ -281,6 +285,56 @@ func (b *sheetBuilder) differences() {
 			[]Cell{ParagraphCell(capitalise(significantWhere(jn, res.Moderator.Column))+" (Johnson–Neyman interval, "+level(res.Model.Alpha)+" confidence).", tableWidth)})
 	}
 	b.add("differences", "Differences between groups", rows)
+}
+
+// marginWords is the smallest difference that matters, in words.
+func marginWords(res *estimate.Result) string {
+	return unitsFor(res.Model.OutcomeBinary).amount(res.Spec.EquivalenceMargin) + " (" + formatValue(res.Spec.EquivalenceMargin) + " in the outcome's units)"
+}
+
+// equivalence is the block of the two one-sided tests, when a smallest
+// difference that matters is given.
+func (b *sheetBuilder) equivalence() {
+	res := b.res
+	margin := res.Spec.EquivalenceMargin
+	if margin <= 0 {
+		return
+	}
+	ci := level(2*res.Model.Alpha) + " CI"
+	var vals []float64
+	for _, d := range res.Differences {
+		if e := d.Equivalence; e != nil {
+			vals = append(vals, d.Estimate, e.CILow, e.CIHigh, margin)
+		}
+	}
+	f := numberFormat(vals)
+	rows := [][]Cell{{HeadingCell("Comparison"), HeadingCell("Difference"), HeadingCell(ci + " low"), HeadingCell(ci + " high"),
+		HeadingCell("Smallest difference that matters"), HeadingCell("Two one-sided tests p"), HeadingCell("The same to within it?")}}
+	boot := false
+	for _, d := range res.Differences {
+		e := d.Equivalence
+		if e == nil {
+			continue
+		}
+		boot = boot || e.Bootstrap
+		lo, hi := NumberCell(e.CILow, f), NumberCell(e.CIHigh, f)
+		if !e.Bounded {
+			lo, hi = TextCell("unbounded"), TextCell("unbounded")
+		}
+		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), lo, hi,
+			NumberCell(margin, f), PValueCell(e.P), TextCell(yesNo(e.Equivalent))})
+	}
+	how := ""
+	if boot {
+		how = " The intervals and p-values come from the wild cluster bootstrap."
+	}
+	rows = append(rows, []Cell{ParagraphCell(fmt.Sprintf("Two one-sided tests (Schuirmann 1987): two groups are called the same to within the smallest difference that matters when the %s interval of their difference lies inside %s to %s; otherwise the data cannot show it, which is not evidence that they differ by that much.%s",
+		ci[:len(ci)-3], formatValue(-margin), formatValue(margin), how), tableWidth)})
+	what := "association"
+	if b.run.Randomized {
+		what = "effect"
+	}
+	b.add("equivalence", fmt.Sprintf("Is the %s the same to within %s?", what, unitsFor(res.Model.OutcomeBinary).amount(margin)), rows)
 }
 
 // linearity is the check of a continuous moderator's straight line: the
