@@ -18,6 +18,7 @@ import (
 
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
+	"slopewise/internal/report"
 )
 
 // findingsScreen is step 5: the results sheet as the workbook will hold
@@ -53,12 +54,28 @@ func (u *UI) startRun() {
 	o := u.optionsScreen
 	spec.Variance = o.variance()
 	spec.Alpha = o.alpha()
+	spec.Bootstrap.Off = !o.bootstrap.Checked
 	run := u.run
 	run.Spec = spec
 	run.Randomized = o.randomized.Checked
-	run.Planned = o.planned.Checked
 	run.Version = u.opts.Version
 	run.Time = u.opts.Now()
+	planned := map[string]bool{}
+	for _, m := range o.planned.Selected {
+		planned[m] = true
+	}
+	run.Planned = planned[spec.Moderator.Column]
+	var sr *report.ScreenRun
+	if mods := u.rolesScreen.moderators(); len(mods) > 1 {
+		sr = &report.ScreenRun{Base: run}
+		for i, m := range mods {
+			mod := spec.Moderator
+			if i > 0 {
+				mod = u.rolesScreen.candidateSpec(m)
+			}
+			sr.Candidates = append(sr.Candidates, report.Candidate{Moderator: mod, Planned: planned[m]})
+		}
+	}
 
 	ctx, cancel := context.WithCancel(context.Background())
 	u.cancel = cancel
@@ -69,9 +86,14 @@ func (u *UI) startRun() {
 	u.setStatus("Fitting the model…")
 	table := u.table
 	var a *pipeline.Analysis
+	var sa *pipeline.ScreenAnalysis
 	u.background(func() error {
 		var err error
-		a, err = pipeline.AnalyzeTable(ctx, run, table)
+		if sr != nil {
+			sa, err = pipeline.ScreenTable(ctx, *sr, table, nil)
+		} else {
+			a, err = pipeline.AnalyzeTable(ctx, run, table)
+		}
 		if err == nil && ctx.Err() != nil {
 			err = ctx.Err()
 		}
@@ -93,8 +115,12 @@ func (u *UI) startRun() {
 			u.showError("The model could not be fitted.", err)
 			return
 		}
-		u.analysis, u.written = a, nil
-		u.setStatus(fmt.Sprintf("Done: %d rows used, %d left out.", a.Result.Rows.Used, a.Result.Rows.Dropped))
+		u.analysis, u.screen, u.written = a, sa, nil
+		if a != nil {
+			u.setStatus(fmt.Sprintf("Done: %d rows used, %d left out.", a.Result.Rows.Used, a.Result.Rows.Dropped))
+		} else {
+			u.setStatus(fmt.Sprintf("Done: %d moderators tried.", len(sa.Run.Candidates)))
+		}
 		u.findingsScreen.rebuild()
 		u.reach(stepFindings)
 		u.show(stepFindings)
@@ -104,19 +130,28 @@ func (u *UI) startRun() {
 // rebuild renders the results sheet: the findings in short, the chart,
 // and the whole sheet as the workbook will hold it.
 func (s *findingsScreen) rebuild() {
-	sh := s.u.analysis.Sheet
-	s.view = container.NewAppTabs(
-		container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "cautions")),
-		container.NewTabItem("Chart", sheetView(sh, "chart")),
-		container.NewTabItem("The whole sheet", sheetView(sh)),
-	)
+	sh := s.u.resultSheet()
+	if s.u.screen != nil {
+		// Several moderators: the summary first; each moderator's detail
+		// follows in the whole sheet.
+		s.view = container.NewAppTabs(
+			container.NewTabItem("In short", sheetView(sh, "note", "screen", "cautions")),
+			container.NewTabItem("The whole sheet", sheetView(sh)),
+		)
+	} else {
+		s.view = container.NewAppTabs(
+			container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "cautions")),
+			container.NewTabItem("Chart", sheetView(sh, "chart")),
+			container.NewTabItem("The whole sheet", sheetView(sh)),
+		)
+	}
 	s.savedNote.SetText("")
 	s.saveBtn.Enable()
 	s.undoBtn.Hide()
 }
 
 func (s *findingsScreen) content() fyne.CanvasObject {
-	if s.u.analysis == nil {
+	if !s.u.finished() {
 		return widget.NewLabel("Run the analysis to see the findings.")
 	}
 	target := filepath.Base(s.u.path)
@@ -175,13 +210,12 @@ func (s *findingsScreen) saveCopy() {
 // write saves in place (copyTo empty) or to a copy, off the UI thread.
 func (s *findingsScreen) write(copyTo string) {
 	u := s.u
-	a := u.analysis
 	u.setStatus("Saving…")
 	s.saveBtn.Disable()
 	var w *workbook.Written
 	u.background(func() error {
 		var err error
-		w, err = a.Save(workbook.WriteOptions{CopyTo: copyTo, Now: u.opts.Now})
+		w, err = u.saveResults(workbook.WriteOptions{CopyTo: copyTo, Now: u.opts.Now})
 		return err
 	}, func(err error) {
 		if err != nil {

@@ -161,7 +161,7 @@ func TestWholePath(t *testing.T) {
 		t.Errorf("default standard errors %q with a cluster, want CR1", o.se.Selected)
 	}
 	test.Tap(o.randomized)
-	test.Tap(o.planned)
+	o.planned.SetSelected(o.planned.Options)
 	h.golden("4-judging")
 
 	test.Tap(u.next) // run
@@ -363,5 +363,73 @@ func TestFormatNumber(t *testing.T) {
 		if got := formatNumber(c.v, c.format); got != c.want {
 			t.Errorf("formatNumber(%v, %q) = %q, want %q", c.v, c.format, got, c.want)
 		}
+	}
+}
+
+// TestSeveralModerators tries three moderators at once: the run becomes a
+// screen whose sheet leads with the comparison of moderators, adjusted
+// for how many were tried, and is saved like a single run.
+func TestSeveralModerators(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(u.next)
+	r := u.rolesScreen
+	r.moderator.SetSelected("region")
+	r.controls.SetSelected([]string{"age"})
+	r.extra.SetSelected([]string{"first_time", "baseline_score"})
+	test.Tap(u.next)
+	o := u.optionsScreen
+	if got := strings.Join(o.planned.Options, ","); got != "region,first_time,baseline_score" {
+		t.Fatalf("moderators offered for marking: %s", got)
+	}
+	o.planned.SetSelected([]string{"region"})
+	test.Tap(u.next)
+	h.wait()
+	if u.screen == nil || u.analysis != nil {
+		t.Fatalf("three moderators did not make a screen: %s", h.overlayText())
+	}
+	if n := len(u.screen.Run.Candidates); n != 3 || !u.screen.Run.Candidates[0].Planned || u.screen.Run.Candidates[1].Planned {
+		t.Errorf("candidates %+v", u.screen.Run.Candidates)
+	}
+	if got := u.resultSheet().Blocks; len(got) == 0 {
+		t.Fatal("no sheet")
+	}
+	test.Tap(u.findingsScreen.saveBtn)
+	h.wait()
+	if u.written == nil {
+		t.Fatalf("not saved: %s", h.overlayText())
+	}
+	f, err := excelize.OpenFile(u.written.Path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	if idx, _ := f.GetSheetIndex(u.written.Sheet); idx < 0 || !strings.HasPrefix(u.written.Sheet, "Moderators") {
+		t.Errorf("saved sheet %q", u.written.Sheet)
+	}
+}
+
+// TestBootstrapSwitch: with fewer than 42 clusters the wild cluster
+// bootstrap is offered and on; turning it off runs without it.
+func TestBootstrapSwitch(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(u.next)
+	u.rolesScreen.moderator.SetSelected("first_time")
+	u.rolesScreen.cluster.SetSelected("site")
+	test.Tap(u.next)
+	o := u.optionsScreen
+	if !o.bootstrap.Checked {
+		t.Fatal("the bootstrap is not on by default with 24 clusters")
+	}
+	o.bootstrap.SetChecked(false)
+	test.Tap(u.next)
+	h.wait()
+	if u.analysis == nil || u.analysis.Result.Bootstrap != nil {
+		t.Errorf("the bootstrap ran although turned off")
 	}
 }

@@ -1,6 +1,8 @@
 package gui
 
 import (
+	"fmt"
+
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/widget"
@@ -40,11 +42,14 @@ type optionsScreen struct {
 	se         *widget.RadioGroup
 	seWhy      *widget.Label
 	randomized *widget.Check
-	planned    *widget.Check
+	planned    *widget.CheckGroup // the moderators named before looking
+	bootstrap  *widget.Check
 	level      *widget.Select
 	progress   *widget.ProgressBarInfinite
-	cancelBtn  *widget.Button
-	running    *fyne.Container
+
+	bootstrapShown bool // the bootstrap's default has been set for the roles
+	cancelBtn      *widget.Button
+	running        *fyne.Container
 }
 
 func newOptionsScreen(u *UI) *optionsScreen {
@@ -57,7 +62,8 @@ func newOptionsScreen(u *UI) *optionsScreen {
 	s.seWhy.Wrapping = fyne.TextWrapWord
 	s.se = widget.NewRadioGroup(labels, func(string) { s.explain() })
 	s.randomized = widget.NewCheck("The treatment was randomly assigned (a lottery, not a choice)", func(bool) { u.forget(stepOptions) })
-	s.planned = widget.NewCheck("I chose this moderator before looking at the results", func(bool) { u.forget(stepOptions) })
+	s.planned = widget.NewCheckGroup(nil, func([]string) { u.forget(stepOptions) })
+	s.bootstrap = widget.NewCheck("Check the tests by re-drawing whole clusters (wild cluster bootstrap)", func(bool) { u.forget(stepOptions) })
 	var levels []string
 	for _, a := range alphaChoices {
 		levels = append(levels, a.label)
@@ -118,19 +124,48 @@ func (s *optionsScreen) content() fyne.CanvasObject {
 	if spec.Cluster == "" && s.se.Selected == seChoices[5].label || spec.Cluster != "" && s.se.Selected != seChoices[5].label || s.se.Selected == "" {
 		s.se.SetSelected(s.defaultSE())
 	}
+	// Offer each moderator for marking as named in advance, keeping marks
+	// already made.
+	mods := s.u.rolesScreen.moderators()
+	keep := map[string]bool{}
+	for _, m := range s.planned.Selected {
+		keep[m] = true
+	}
+	s.planned.Options = mods
+	s.planned.Selected = nil
+	for _, m := range mods {
+		if keep[m] {
+			s.planned.Selected = append(s.planned.Selected, m)
+		}
+	}
+	s.planned.Refresh()
 	intro := widget.NewLabel("How should the results be judged? The defaults suit most evaluations.")
 	intro.Wrapping = fyne.TextWrapWord
-	return container.NewVScroll(container.NewVBox(
+	box := container.NewVBox(
 		heading("How to judge"),
 		intro,
 		subheading("Standard errors"),
 		s.se,
 		s.seWhy,
-		widget.NewSeparator(),
-		subheading("About the study"),
-		s.randomized,
-		s.planned,
-		widget.NewForm(widget.NewFormItem("Confidence intervals", s.level)),
-		s.running,
-	))
+	)
+	if g := s.u.clusterCount(spec.Cluster); g > 0 && g < estimate.BootstrapClusters {
+		if !s.bootstrapShown {
+			s.bootstrap.SetChecked(true)
+			s.bootstrapShown = true
+		}
+		why := widget.NewLabel(fmt.Sprintf("Recommended: with %d clusters, cluster-robust p-values are too small; re-drawing clusters (%d times) gives honest ones.", g, estimate.DefaultDraws))
+		why.Wrapping = fyne.TextWrapWord
+		box.Add(s.bootstrap)
+		box.Add(why)
+	}
+	plannedWhy := widget.NewLabel("Moderators named before looking at the results (the others are treated as exploratory):")
+	plannedWhy.Wrapping = fyne.TextWrapWord
+	box.Add(widget.NewSeparator())
+	box.Add(subheading("About the study"))
+	box.Add(s.randomized)
+	box.Add(plannedWhy)
+	box.Add(s.planned)
+	box.Add(widget.NewForm(widget.NewFormItem("Confidence intervals", s.level)))
+	box.Add(s.running)
+	return container.NewVScroll(box)
 }

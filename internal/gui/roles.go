@@ -36,6 +36,7 @@ type rolesScreen struct {
 	probes    *widget.Entry
 	centre    *widget.Entry
 	controls  *widget.CheckGroup
+	extra     *widget.CheckGroup // more moderators to try, each in a model of its own
 	cluster   *widget.Select
 	weights   *widget.Select
 	checks    *fyne.Container
@@ -62,6 +63,7 @@ func newRolesScreen(u *UI) *rolesScreen {
 	s.centre.SetPlaceHolder("empty: no centring")
 	s.centre.OnChanged = changed
 	s.controls = widget.NewCheckGroup(nil, func([]string) { s.changed() })
+	s.extra = widget.NewCheckGroup(nil, func([]string) { s.changed() })
 	s.cluster = widget.NewSelect(nil, changed)
 	s.weights = widget.NewSelect(nil, changed)
 	s.checks = container.NewVBox()
@@ -109,6 +111,7 @@ func (s *rolesScreen) reset() {
 	t := s.u.table
 	s.filling = true
 	defer func() { s.filling = false; s.changed() }()
+	s.u.optionsScreen.bootstrapShown = false
 	var all, numeric []string
 	for _, c := range t.Columns {
 		all = append(all, c.Name)
@@ -128,6 +131,8 @@ func (s *rolesScreen) reset() {
 	s.weights.SetSelected(none)
 	s.controls.Options = nil
 	s.controls.Selected = nil
+	s.extra.Options = nil
+	s.extra.Selected = nil
 	s.probes.SetText("")
 	s.centre.SetText("")
 	// Defaults: a 0/1 column as the treatment, the last numeric column
@@ -251,6 +256,42 @@ func (s *rolesScreen) refreshControls() {
 	s.controls.Options = opts
 	s.controls.Selected = keep
 	s.controls.Refresh()
+
+	// More moderators: any column of groups, two values or numbers that
+	// has no other role.
+	taken[s.cluster.Selected] = true
+	for _, c := range keep {
+		taken[c] = true
+	}
+	var candidates []string
+	for _, c := range t.Columns {
+		if !taken[c.Name] && (c.Kind == workbook.Category || c.Kind == workbook.YesNo || c.Kind == workbook.Number) {
+			candidates = append(candidates, c.Name)
+		}
+	}
+	var chosen []string
+	for _, sel := range s.extra.Selected {
+		if !taken[sel] {
+			chosen = append(chosen, sel)
+		}
+	}
+	s.extra.Options = candidates
+	s.extra.Selected = chosen
+	s.extra.Refresh()
+}
+
+// moderators are the moderator and any more to try, in that order.
+func (s *rolesScreen) moderators() []string {
+	if s.moderator.Selected == "" {
+		return nil
+	}
+	return append([]string{s.moderator.Selected}, s.extra.Selected...)
+}
+
+// candidateSpec is the moderator spec of another moderator to try, its
+// kind read from the column as the headless command does.
+func (s *rolesScreen) candidateSpec(name string) estimate.Moderator {
+	return estimate.Moderator{Column: name, Kind: pipeline.ModeratorKind(s.column(name))}
 }
 
 // changed re-runs the checks after any choice.
@@ -365,10 +406,16 @@ func (s *rolesScreen) spec() (estimate.Spec, error) {
 func (s *rolesScreen) content() fyne.CanvasObject {
 	intro := widget.NewLabel("Say which column plays which part. The checks on the right update as you choose.")
 	intro.Wrapping = fyne.TextWrapWord
+	more := widget.NewLabel("Each is fitted in a model of its own, and the tests are adjusted for how many were tried.")
+	more.Wrapping = fyne.TextWrapWord
+	more.Importance = widget.LowImportance
 	form := container.NewVBox(
 		s.form,
 		subheading("Adjust for (optional)"),
 		s.controls,
+		subheading("Also try these moderators (optional)"),
+		more,
+		s.extra,
 	)
 	checks := container.NewBorder(subheading("Before running"), nil, nil, nil, container.NewVScroll(s.checks))
 	split := container.NewHSplit(container.NewVScroll(form), checks)

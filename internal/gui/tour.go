@@ -79,7 +79,7 @@ func (u *UI) tour(dir string) error {
 	fyne.DoAndWait(func() {
 		u.forward()
 		u.optionsScreen.randomized.SetChecked(true)
-		u.optionsScreen.planned.SetChecked(true)
+		u.optionsScreen.planned.SetSelected(u.optionsScreen.planned.Options)
 	})
 	if err := shot("4-judging"); err != nil {
 		return err

@@ -76,7 +76,8 @@ type UI struct {
 	sheets   []workbook.SheetInfo
 	table    *workbook.Table
 	run      report.Run
-	analysis *pipeline.Analysis
+	analysis *pipeline.Analysis       // one moderator
+	screen   *pipeline.ScreenAnalysis // several moderators
 	written  *workbook.Written
 	cancel   context.CancelFunc
 
@@ -267,7 +268,7 @@ func (u *UI) forget(after step) {
 		u.reached = after
 	}
 	if after < stepFindings {
-		u.analysis, u.written = nil, nil
+		u.analysis, u.screen, u.written = nil, nil, nil
 	}
 	for i, b := range u.stepBtns {
 		if b == nil { // still being built
@@ -312,7 +313,7 @@ func (u *UI) shortcuts() {
 		}
 	})
 	c.AddShortcut(&desktopShortcut{key: fyne.KeyS}, func(fyne.Shortcut) {
-		if u.analysis != nil {
+		if u.finished() {
 			u.findingsScreen.save()
 		}
 	})
@@ -393,6 +394,44 @@ func (u *UI) background(work func() error, done func(err error)) {
 			}
 		})
 	}()
+}
+
+// finished is true when there are results to show and save.
+func (u *UI) finished() bool { return u.analysis != nil || u.screen != nil }
+
+// resultSheet is the sheet of the finished run.
+func (u *UI) resultSheet() *report.Sheet {
+	if u.screen != nil {
+		return u.screen.Sheet
+	}
+	return u.analysis.Sheet
+}
+
+// saveResults writes the finished run's sheet.
+func (u *UI) saveResults(opts workbook.WriteOptions) (*workbook.Written, error) {
+	if u.screen != nil {
+		return u.screen.Save(opts)
+	}
+	return u.analysis.Save(opts)
+}
+
+// clusterCount is the number of distinct values of a column, 0 when there
+// is no such column.
+func (u *UI) clusterCount(name string) int {
+	if u.table == nil || name == "" {
+		return 0
+	}
+	c := u.table.Column(name)
+	if c == nil {
+		return 0
+	}
+	seen := map[string]bool{}
+	for i := range c.Missing {
+		if v := cellText(c, i); v != "" && c.Missing[i] == workbook.Present {
+			seen[v] = true
+		}
+	}
+	return len(seen)
 }
 
 // Open opens a workbook, as when it is given on the command line.

@@ -131,7 +131,7 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		case g < 2:
 			add(Blocking, "Every usable row is in the same cluster of %q; cluster-robust errors need several. Remove the cluster column.", s.Cluster)
 		case g < fewClusterLimit:
-			add(Warning, "The cluster column %q has only %d clusters. With fewer than about 40, cluster-robust errors are too optimistic: treat borderline p-values with care, and prefer the wild cluster bootstrap when it is offered.", s.Cluster, g)
+			add(Warning, "The cluster column %q has only %d clusters. With fewer than about 40, cluster-robust errors are too optimistic: keep the wild cluster bootstrap on (it is on by default), and treat borderline results with care.", s.Cluster, g)
 		}
 	}
 	return out
