@@ -55,6 +55,12 @@ func (u *UI) startRun() {
 	spec.Variance = o.variance()
 	spec.Alpha = o.alpha()
 	spec.Bootstrap.Off = !o.bootstrap.Checked
+	margin, err := o.marginValue()
+	if err != nil {
+		u.showMessage("Smallest difference that matters", "Type a positive number in the outcome's units, or leave the field empty.")
+		return
+	}
+	spec.EquivalenceMargin = margin
 	run := u.run
 	run.Spec = spec
 	run.Randomized = o.randomized.Checked

@@ -15,6 +15,7 @@ import (
 	"github.com/xuri/excelize/v2"
 
 	"slopewise/internal/pipeline"
+	"slopewise/internal/report"
 )
 
 var update = flag.Bool("update", false, "rewrite the golden renders in testdata/")
@@ -431,5 +432,33 @@ func TestBootstrapSwitch(t *testing.T) {
 	h.wait()
 	if u.analysis == nil || u.analysis.Result.Bootstrap != nil {
 		t.Errorf("the bootstrap ran although turned off")
+	}
+}
+
+// TestEquivalenceMargin: a smallest difference that matters reaches the
+// run and the note speaks of it; a bad value is refused in plain words.
+func TestEquivalenceMargin(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(u.next)
+	u.rolesScreen.moderator.SetSelected("first_time")
+	test.Tap(u.next)
+	o := u.optionsScreen
+	o.margin.SetText("lots")
+	test.Tap(u.next)
+	if !strings.Contains(h.overlayText(), "positive number") || u.cancel != nil {
+		t.Fatalf("a bad margin was not refused:\n%s", h.overlayText())
+	}
+	h.tapButton("Close")
+	o.margin.SetText("400")
+	test.Tap(u.next)
+	h.wait()
+	if u.analysis == nil || u.analysis.Run.Spec.EquivalenceMargin != 400 {
+		t.Fatalf("the margin did not reach the run")
+	}
+	if note := report.Note(u.analysis.Run, u.analysis.Result); !strings.Contains(note, "smallest difference that matters") {
+		t.Errorf("the note does not use the margin:\n%s", note)
 	}
 }

@@ -2,6 +2,9 @@ package gui
 
 import (
 	"fmt"
+	"math"
+	"strconv"
+	"strings"
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
@@ -45,6 +48,7 @@ type optionsScreen struct {
 	planned    *widget.CheckGroup // the moderators named before looking
 	bootstrap  *widget.Check
 	level      *widget.Select
+	margin     *widget.Entry // the smallest difference between groups that matters
 	progress   *widget.ProgressBarInfinite
 
 	bootstrapShown bool // the bootstrap's default has been set for the roles
@@ -70,6 +74,13 @@ func newOptionsScreen(u *UI) *optionsScreen {
 	}
 	s.level = widget.NewSelect(levels, func(string) { u.forget(stepOptions) })
 	s.level.SetSelectedIndex(0)
+	s.margin = widget.NewEntry()
+	s.margin.SetPlaceHolder("optional, e.g. 50")
+	s.margin.OnChanged = func(string) { u.forget(stepOptions); u.updateBar() }
+	s.margin.Validator = func(t string) error {
+		_, err := s.marginValue()
+		return err
+	}
 	s.progress = widget.NewProgressBarInfinite()
 	s.progress.Stop()
 	s.cancelBtn = widget.NewButton("Cancel", func() {
@@ -112,6 +123,19 @@ func (s *optionsScreen) variance() estimate.VarianceType {
 		}
 	}
 	return ""
+}
+
+// marginValue is the smallest difference that matters, 0 when empty.
+func (s *optionsScreen) marginValue() (float64, error) {
+	t := strings.TrimSpace(s.margin.Text)
+	if t == "" {
+		return 0, nil
+	}
+	v, err := strconv.ParseFloat(t, 64)
+	if err != nil || !(v > 0) || math.IsInf(v, 0) {
+		return 0, fmt.Errorf("a positive number in the outcome's units, or nothing")
+	}
+	return v, nil
 }
 
 func (s *optionsScreen) alpha() float64 {
@@ -165,7 +189,15 @@ func (s *optionsScreen) content() fyne.CanvasObject {
 	box.Add(s.randomized)
 	box.Add(plannedWhy)
 	box.Add(s.planned)
-	box.Add(widget.NewForm(widget.NewFormItem("Confidence intervals", s.level)))
+	outcome := spec.Outcome
+	box.Add(widget.NewForm(
+		widget.NewFormItem("Confidence intervals", s.level),
+		widget.NewFormItem("Smallest difference that matters", s.margin),
+	))
+	marginWhy := widget.NewLabel(fmt.Sprintf("In units of %s. When given, the findings say whether the groups' effects can be called the same to within it — not seeing a difference is not the same as showing there is none.", outcome))
+	marginWhy.Wrapping = fyne.TextWrapWord
+	marginWhy.Importance = widget.LowImportance
+	box.Add(marginWhy)
 	box.Add(s.running)
 	return container.NewVScroll(box)
 }
