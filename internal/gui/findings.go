@@ -146,7 +146,7 @@ func (s *findingsScreen) rebuild() {
 		)
 	} else {
 		s.view = container.NewAppTabs(
-			container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "cautions")),
+			container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "equivalence", "linearity", "cautions")),
 			container.NewTabItem("Chart", sheetView(sh, "chart")),
 			container.NewTabItem("The whole sheet", sheetView(sh)),
 		)

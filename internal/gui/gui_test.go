@@ -462,3 +462,30 @@ func TestEquivalenceMargin(t *testing.T) {
 		t.Errorf("the note does not use the margin:\n%s", note)
 	}
 }
+
+// TestLinearityShown: for a number moderator the findings in short carry
+// the check of the straight line against the moderator's thirds.
+func TestLinearityShown(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	test.Tap(u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(u.next)
+	u.rolesScreen.moderator.SetSelected("baseline_score")
+	if u.rolesScreen.modKind.Selected != kindNumber {
+		t.Fatalf("baseline_score read as %q", u.rolesScreen.modKind.Selected)
+	}
+	test.Tap(u.next)
+	test.Tap(u.next)
+	h.wait()
+	if u.analysis == nil || u.analysis.Result.Linearity == nil {
+		t.Fatalf("no linearity check in the result")
+	}
+	found := false
+	for _, b := range u.analysis.Sheet.Blocks {
+		found = found || b.Key == "linearity"
+	}
+	if !found {
+		t.Error("the sheet has no linearity block to show")
+	}
+}
