@@ -11,3 +11,9 @@ import _ "embed"
 //
 //go:embed demo.xlsx
 var DemoWorkbook []byte
+
+// Icon is the program's icon, 512 pixels square, rendered from icon.svg
+// by icons/render.sh.
+//
+//go:embed icon.png
+var Icon []byte

@@ -4,8 +4,10 @@ import (
 	"fmt"
 	"os"
 
+	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/app"
 
+	"slopewise/assets"
 	"slopewise/internal/gui"
 )
 
@@ -17,6 +19,7 @@ const appID = "org.slopewise.desktop"
 // saves a picture of each into DIR and quits (for the README's pictures).
 func window(path string) int {
 	a := app.NewWithID(appID)
+	a.SetIcon(fyne.NewStaticResource("slopewise.png", assets.Icon))
 	w := a.NewWindow("Slopewise")
 	u := gui.New(a, w, gui.Options{Version: version})
 	w.Resize(gui.Size(a))
