@@ -206,9 +206,7 @@ func (s *findingsScreen) saveCopy() {
 	}, u.win)
 	d.SetFileName(suggested)
 	d.SetFilter(storage.NewExtensionFileFilter([]string{".xlsx"}))
-	if l, err := storage.ListerForURI(storage.NewFileURI(filepath.Dir(u.path))); err == nil {
-		d.SetLocation(l)
-	}
+	startIn(d, filepath.Dir(u.path))
 	d.Resize(fyne.NewSize(800, 560))
 	d.Show()
 }
@@ -290,12 +288,7 @@ func (s *findingsScreen) restore() {
 
 // chooseRestore picks any backup Slopewise made and puts it back.
 func (u *UI) chooseRestore() {
-	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
-		if err != nil || r == nil {
-			return
-		}
-		backup := r.URI().Path()
-		r.Close()
+	u.openDialog("The backup could not be chosen.", []string{".xlsx", ".xlsm"}, u.app.Preferences().String(prefFolder), func(backup string) {
 		target, ok := backupTarget(backup)
 		if !ok {
 			u.showMessage("Not a backup", "Choose a file whose name contains “(before Slopewise …)”: that is how Slopewise names the copies it keeps.")
@@ -311,13 +304,7 @@ func (u *UI) chooseRestore() {
 			}
 			u.showMessage("Put back", filepath.Base(target)+" is as it was when the backup was made.")
 		}, u.win)
-	}, u.win)
-	if dir := u.app.Preferences().String(prefFolder); dir != "" {
-		if l, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
-			d.SetLocation(l)
-		}
-	}
-	d.Show()
+	})
 }
 
 // backupTarget is the workbook a backup was made of: "name (before

@@ -59,6 +59,17 @@ func newHarness(t *testing.T, opts Options) *harness {
 	return h
 }
 
+// demoRoles opens the demo and moves to the roles step.
+func (h *harness) demoRoles() {
+	h.t.Helper()
+	test.Tap(h.u.openScreen.demoBtn)
+	h.wait()
+	test.Tap(h.u.next)
+	if h.u.current != stepRoles {
+		h.t.Fatalf("not on the roles step after opening the demo: step %d", h.u.current)
+	}
+}
+
 // wait blocks until the next background job has finished.
 func (h *harness) wait() {
 	h.t.Helper()
@@ -245,9 +256,7 @@ func checkSavedSheet(t *testing.T, path, sheet string, a *pipeline.Analysis) {
 func TestChecksBeforeRunning(t *testing.T) {
 	h := newHarness(t, Options{})
 	u := h.u
-	test.Tap(u.openScreen.demoBtn)
-	h.wait()
-	test.Tap(u.next)
+	h.demoRoles()
 	r := u.rolesScreen
 	cases := []struct {
 		name  string
@@ -373,9 +382,7 @@ func TestFormatNumber(t *testing.T) {
 func TestSeveralModerators(t *testing.T) {
 	h := newHarness(t, Options{})
 	u := h.u
-	test.Tap(u.openScreen.demoBtn)
-	h.wait()
-	test.Tap(u.next)
+	h.demoRoles()
 	r := u.rolesScreen
 	r.moderator.SetSelected("region")
 	r.controls.SetSelected([]string{"age"})
@@ -417,9 +424,7 @@ func TestSeveralModerators(t *testing.T) {
 func TestBootstrapSwitch(t *testing.T) {
 	h := newHarness(t, Options{})
 	u := h.u
-	test.Tap(u.openScreen.demoBtn)
-	h.wait()
-	test.Tap(u.next)
+	h.demoRoles()
 	u.rolesScreen.moderator.SetSelected("first_time")
 	u.rolesScreen.cluster.SetSelected("site")
 	test.Tap(u.next)
@@ -440,9 +445,7 @@ func TestBootstrapSwitch(t *testing.T) {
 func TestEquivalenceMargin(t *testing.T) {
 	h := newHarness(t, Options{})
 	u := h.u
-	test.Tap(u.openScreen.demoBtn)
-	h.wait()
-	test.Tap(u.next)
+	h.demoRoles()
 	u.rolesScreen.moderator.SetSelected("first_time")
 	test.Tap(u.next)
 	o := u.optionsScreen
@@ -468,9 +471,7 @@ func TestEquivalenceMargin(t *testing.T) {
 func TestLinearityShown(t *testing.T) {
 	h := newHarness(t, Options{})
 	u := h.u
-	test.Tap(u.openScreen.demoBtn)
-	h.wait()
-	test.Tap(u.next)
+	h.demoRoles()
 	u.rolesScreen.moderator.SetSelected("baseline_score")
 	if u.rolesScreen.modKind.Selected != kindNumber {
 		t.Fatalf("baseline_score read as %q", u.rolesScreen.modKind.Selected)

@@ -333,9 +333,15 @@ func (u *UI) chooseOpen() {
 		u.opts.ChooseOpen(u.open)
 		return
 	}
+	u.openDialog("The file could not be chosen.", []string{".xlsx", ".xlsm", ".csv", ".tsv", ".txt"}, u.app.Preferences().String(prefFolder), u.open)
+}
+
+// openDialog asks for an existing file, starting in dir, and calls done
+// with its path; a failure to choose is explained with what.
+func (u *UI) openDialog(what string, exts []string, dir string, done func(path string)) {
 	d := dialog.NewFileOpen(func(r fyne.URIReadCloser, err error) {
 		if err != nil {
-			u.showError("The file could not be chosen.", err)
+			u.showError(what, err)
 			return
 		}
 		if r == nil {
@@ -343,16 +349,24 @@ func (u *UI) chooseOpen() {
 		}
 		path := r.URI().Path()
 		r.Close()
-		u.open(path)
+		done(path)
 	}, u.win)
-	d.SetFilter(storage.NewExtensionFileFilter([]string{".xlsx", ".xlsm", ".csv", ".tsv", ".txt"}))
-	if dir := u.app.Preferences().String(prefFolder); dir != "" {
-		if l, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
-			d.SetLocation(l)
-		}
+	if exts != nil {
+		d.SetFilter(storage.NewExtensionFileFilter(exts))
 	}
+	startIn(d, dir)
 	d.Resize(fyne.NewSize(800, 560))
 	d.Show()
+}
+
+// startIn points a file dialog at a folder, when there is one.
+func startIn(d interface{ SetLocation(fyne.ListableURI) }, dir string) {
+	if dir == "" {
+		return
+	}
+	if l, err := storage.ListerForURI(storage.NewFileURI(dir)); err == nil {
+		d.SetLocation(l)
+	}
 }
 
 // remember puts a path at the top of the recent files and its folder as
