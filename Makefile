@@ -9,7 +9,7 @@ APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGE
 
 .PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study
 
-test: deps vet go-test fuzz
+test: deps vet go-test fuzz dist-check
 
 # System packages: R and sandwich are the independent check of the engine
 # (testdata/r/). Installed only when missing; needs root or sudo.
@@ -67,3 +67,22 @@ fuzz:
 	@for t in $(WORKBOOK_FUZZ); do \
 	  $(GO) test ./internal/io/workbook -run '^$$' -fuzz "^$$t$$" -fuzztime 20s -fuzzminimizetime 5s || exit 1; \
 	done
+
+# The packages for evaluators, into dist/: the Windows programs (cross-
+# compiled with mingw-w64) in a zip, the Linux tarball with its desktop
+# entry, icons and install scripts, and SHA256SUMS. The version is
+# FyneApp.toml's. See packaging/ and, for macOS, packaging/macos/README.md.
+DIST_PACKAGES := gcc-mingw-w64-x86-64 zip unzip desktop-file-utils
+.PHONY: dist dist-check licenses
+dist: build-deps
+	scripts/apt-install.sh $(DIST_PACKAGES)
+	GO=$(GO) packaging/dist.sh
+
+# Build the packages and check them (part of make test: CI builds both).
+dist-check: dist
+	packaging/check.sh
+
+# Rewrite THIRD_PARTY_LICENSES after a dependency changes (a test fails
+# until it is current).
+licenses:
+	$(GO) run ./scripts/thirdparty -o THIRD_PARTY_LICENSES

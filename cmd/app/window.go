@@ -1,3 +1,5 @@
+//go:build !nowindow
+
 package main
 
 import (

@@ -15,8 +15,10 @@ It is built with:
 • excelize (BSD 3-Clause) — Excel workbooks
 • gonum and gonum/plot (BSD 3-Clause) — numbers and charts
 • the Go standard library and golang.org/x packages (BSD 3-Clause)
-and the libraries they use, each under its own open licence (MIT, BSD or
-Apache 2.0); the full texts are in THIRD_PARTY_LICENSES with the program.`
+and the libraries they use, each under its own open licence (MIT, BSD,
+Apache 2.0, ISC, zlib, the FreeType licence, CC BY 4.0, and the SIL Open
+Font Licence for the fonts); the full texts are in THIRD_PARTY_LICENSES
+with the program.`
 
 // showAbout shows the version and the licences.
 func (u *UI) showAbout() {
