@@ -27,10 +27,10 @@ func newColBuilder(index int) *colBuilder {
 // add appends one row's cell (nil for a blank cell).
 func (b *colBuilder) add(c *rawCell, decimalComma bool) {
 	row := len(b.miss)
-	b.nums = append(b.nums, math.NaN())
-	b.miss = append(b.miss, Present)
+	b.nums = append(grow(b.nums), math.NaN())
+	b.miss = append(grow(b.miss), Present)
 	if b.texts != nil {
-		b.texts = append(b.texts, "")
+		b.texts = append(grow(b.texts), "")
 	}
 	if c == nil {
 		b.miss[row] = Blank
@@ -78,6 +78,15 @@ func (b *colBuilder) add(c *rawCell, decimalComma bool) {
 		}
 		b.setText(row, s)
 	}
+}
+
+// grow doubles a full slice's capacity: append alone grows a long slice
+// by a quarter, copying a million-row column a dozen times over.
+func grow[T any](s []T) []T {
+	if len(s) < cap(s) || len(s) < 1024 {
+		return s
+	}
+	return append(make([]T, 0, 2*cap(s)), s...)
 }
 
 func (b *colBuilder) noteNum(v float64) {

@@ -8,6 +8,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 	"strings"
 	"unsafe"
 )
@@ -225,11 +226,14 @@ func (s *csvScanner) Next() (int, []rawCell, error) {
 	return s.row, s.cells, nil
 }
 
-// keepText copies a text handed out by the scanner, so that it outlives
-// the record; texts of other sources are kept as they are.
-func keepText(src rowSource, s string) string {
+// keptCells copies a row's cells so that they outlive the next call of
+// Next, with the texts too when the scanner handed them out.
+func keptCells(src rowSource, cells []rawCell) []rawCell {
+	kept := slices.Clone(cells)
 	if _, ok := src.(*csvScanner); ok {
-		return strings.Clone(s)
+		for i := range kept {
+			kept[i].Text = strings.Clone(kept[i].Text)
+		}
 	}
-	return s
+	return kept
 }

@@ -5,7 +5,6 @@ import (
 	"errors"
 	"fmt"
 	"io"
-	"slices"
 	"sort"
 )
 
@@ -48,6 +47,15 @@ const headerScanRows = 50
 // Read reads one sheet of a workbook or a text file into a Table.
 // The file is only read, never changed.
 func Read(ctx context.Context, path string, opts Options) (*Table, error) {
+	t, err := read(ctx, path, opts, true)
+	if errors.Is(err, errFastFallback) {
+		return read(ctx, path, opts, false)
+	}
+	return t, err
+}
+
+// read is Read with the fast worksheet reader or with sheetStream.
+func read(ctx context.Context, path string, opts Options, fast bool) (*Table, error) {
 	f, err := sniff(path)
 	if err != nil {
 		return nil, err
@@ -60,7 +68,7 @@ func Read(ctx context.Context, path string, opts Options) (*Table, error) {
 	switch f {
 	case formatXLSX:
 		var sheet string
-		src, sheet, err = openXLSXSheet(path, opts)
+		src, sheet, err = openXLSXSheet(path, opts, fast)
 		table.Sheet = sheet
 	default:
 		var tf *TextFormat
@@ -78,6 +86,9 @@ func Read(ctx context.Context, path string, opts Options) (*Table, error) {
 	}
 	defer src.Close()
 	if err := build(ctx, src, table, opts, dc); err != nil {
+		if errors.Is(err, errFastFallback) {
+			return nil, err
+		}
 		var e *Error
 		if errors.As(err, &e) {
 			if e.Path == "" {
@@ -125,11 +136,7 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		if isBlankRow(cells) {
 			continue
 		}
-		kept := slices.Clone(cells)
-		for i := range kept {
-			kept[i].Text = keepText(src, kept[i].Text)
-		}
-		buf = append(buf, bufRow{num, kept})
+		buf = append(buf, bufRow{num, keptCells(src, cells)})
 		if opts.HeaderRow > 0 && num >= opts.HeaderRow && len(buf) >= 2 {
 			break
 		}

@@ -19,13 +19,19 @@ import (
 // date) and whether it holds a formula without a saved result. Values are
 // read as stored, never as displayed.
 type sheetStream struct {
-	pkg   *xlsxPackage
+	cellReader
 	rc    io.ReadCloser
 	dec   *xml.Decoder
-	sst   []string
 	cells []rawCell
-	row   int
 	done  bool
+}
+
+// cellReader turns a cell's parts into a rawCell, for both worksheet
+// readers: the workbook, its shared strings, and the row being read.
+type cellReader struct {
+	pkg *xlsxPackage
+	sst []string
+	row int
 }
 
 func newSheetStream(p *xlsxPackage, part string) (*sheetStream, error) {
@@ -37,7 +43,7 @@ func newSheetStream(p *xlsxPackage, part string) (*sheetStream, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &sheetStream{pkg: p, rc: rc, dec: newXMLDecoder(rc), sst: sst}, nil
+	return &sheetStream{cellReader: cellReader{pkg: p, sst: sst}, rc: rc, dec: newXMLDecoder(rc)}, nil
 }
 
 func newXMLDecoder(r io.Reader) *xml.Decoder {
@@ -196,7 +202,7 @@ func (s *sheetStream) readCell(start xml.StartElement, col int) (rawCell, bool, 
 
 // cell turns a cell's parts into a rawCell; keep is false for cells with
 // nothing in them (a styled empty cell).
-func (s *sheetStream) cell(col int, typ string, style int, v, inline string, hasV, hasF bool) (rawCell, bool, error) {
+func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV, hasF bool) (rawCell, bool, error) {
 	c := rawCell{Col: col, Formula: hasF}
 	switch typ {
 	case "s":
@@ -245,7 +251,7 @@ func (s *sheetStream) cell(col int, typ string, style int, v, inline string, has
 		if !hasV {
 			return s.noValue(c, hasF)
 		}
-		n, err := strconv.ParseFloat(strings.TrimSpace(v), 64)
+		n, err := parseValue(strings.TrimSpace(v))
 		if err != nil {
 			return c, false, s.cellDamaged(col, fmt.Errorf("number %q", v))
 		}
@@ -262,7 +268,18 @@ func (s *sheetStream) cell(col int, typ string, style int, v, inline string, has
 	return c, true, nil
 }
 
-func (s *sheetStream) noValue(c rawCell, hasF bool) (rawCell, bool, error) {
+// parseValue reads a <v> number: plain decimals on the fast path, which
+// gives strconv.ParseFloat's value (plainDecimal), the rest by ParseFloat.
+func parseValue(v string) (float64, error) {
+	if v != "" {
+		if n, ok := plainDecimal(v, false); ok {
+			return n, nil
+		}
+	}
+	return strconv.ParseFloat(v, 64)
+}
+
+func (s *cellReader) noValue(c rawCell, hasF bool) (rawCell, bool, error) {
 	if hasF {
 		c.Type = cellNoValue
 		return c, true, nil
@@ -270,7 +287,7 @@ func (s *sheetStream) noValue(c rawCell, hasF bool) (rawCell, bool, error) {
 	return c, false, nil
 }
 
-func (s *sheetStream) cellDamaged(col int, err error) error {
+func (s *cellReader) cellDamaged(col int, err error) error {
 	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("cell %s%d", columnLetter(col), s.row), Cause: ErrDamaged, Underlying: err}
 }
 
@@ -302,10 +319,9 @@ func refColumn(ref string) (int, bool) {
 	return col - 1, true
 }
 
-// readSharedStrings reads the shared string table: each <si> is plain
-// text in <t>, or rich text runs <r><t>, with phonetic hints <rPh> left
-// out (ECMA-376 Part 1, section 18.4).
-func readSharedStrings(p *xlsxPackage) ([]string, error) {
+// openSharedStrings opens the shared string table; nil and no error
+// when the workbook has none.
+func openSharedStrings(p *xlsxPackage) (io.ReadCloser, error) {
 	if p.sstPart == "" {
 		return nil, nil
 	}
@@ -314,6 +330,17 @@ func readSharedStrings(p *xlsxPackage) ([]string, error) {
 		if p.file(p.sstPart) == nil {
 			return nil, nil
 		}
+		return nil, err
+	}
+	return rc, nil
+}
+
+// readSharedStrings reads the shared string table: each <si> is plain
+// text in <t>, or rich text runs <r><t>, with phonetic hints <rPh> left
+// out (ECMA-376 Part 1, section 18.4).
+func readSharedStrings(p *xlsxPackage) ([]string, error) {
+	rc, err := openSharedStrings(p)
+	if rc == nil {
 		return nil, err
 	}
 	defer rc.Close()

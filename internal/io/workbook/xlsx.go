@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"archive/zip"
+	"bytes"
 	"encoding/xml"
 	"errors"
 	"fmt"
@@ -79,12 +80,16 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 		}
 	}()
 	limit, limitXML := sizeLimits(opts.UnzipSizeLimit, opts.UnzipXMLSizeLimit)
-	xf, err := excelize.OpenFile(path, excelize.Options{
-		RawCellValue:      true,
-		UnzipSizeLimit:    limit,
-		UnzipXMLSizeLimit: limitXML,
-	})
-	if err != nil {
+	xopts := excelize.Options{RawCellValue: true, UnzipSizeLimit: limit, UnzipXMLSizeLimit: limitXML}
+	var xf *excelize.File
+	if outline, err := withoutBigSheets(path, limit); err != nil {
+		return nil, excelizeOpenError(path, err, limit)
+	} else if outline != nil {
+		xf, err = excelize.OpenReader(bytes.NewReader(outline), xopts)
+		if err != nil {
+			return nil, excelizeOpenError(path, err, limit)
+		}
+	} else if xf, err = excelize.OpenFile(path, xopts); err != nil {
 		return nil, excelizeOpenError(path, err, limit)
 	}
 	defer xf.Close()
@@ -110,6 +115,64 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 		return nil, err
 	}
 	return p, nil
+}
+
+// bigSheet is the unpacked size from which a worksheet is kept from
+// excelize when a workbook is opened: excelize unpacks every worksheet on
+// open (to a temporary file past UnzipXMLSizeLimit; v2.11.1 source,
+// lib.go, ReadZipReader), which for a sheet of a million rows takes longer
+// than reading it, and openPackage needs only the workbook and its styles.
+const bigSheet = 8 << 20
+
+// withoutBigSheets returns the workbook's zip with every worksheet part
+// larger than bigSheet replaced by an empty worksheet, for excelize to
+// open; nil when it has no such part, or when the file is not a zip
+// excelize's own errors should describe. It applies excelize's size
+// limit first, with excelize's rule and words (lib.go, checkFileSize),
+// since the parts it replaces would otherwise escape it.
+func withoutBigSheets(path string, limit int64) ([]byte, error) {
+	zr, err := zip.OpenReader(path)
+	if err != nil {
+		return nil, nil
+	}
+	defer zr.Close()
+	big := false
+	var total int64
+	for _, f := range zr.File {
+		size := f.FileInfo().Size()
+		total += size
+		if uint64(limit) < uint64(size) || size < 0 || total > limit {
+			return nil, fmt.Errorf("unzip size exceeds the %d bytes limit", limit)
+		}
+		big = big || isWorksheetPart(f.Name) && size > bigSheet
+	}
+	if !big {
+		return nil, nil
+	}
+	var buf bytes.Buffer
+	zw := zip.NewWriter(&buf)
+	for _, f := range zr.File {
+		if !isWorksheetPart(f.Name) || f.FileInfo().Size() <= bigSheet {
+			if err := copyRaw(zw, f); err != nil {
+				return nil, nil
+			}
+			continue
+		}
+		w, err := zw.Create(f.Name)
+		if err != nil {
+			return nil, nil
+		}
+		io.WriteString(w, `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData/></worksheet>`)
+	}
+	if err := zw.Close(); err != nil {
+		return nil, nil
+	}
+	return buf.Bytes(), nil
+}
+
+// isWorksheetPart reports the parts excelize treats as worksheets.
+func isWorksheetPart(name string) bool {
+	return strings.HasPrefix(strings.ToLower(strings.ReplaceAll(name, "\\", "/")), "xl/worksheets/sheet")
 }
 
 // byteSize writes a size for people.
@@ -340,7 +403,7 @@ func (p *xlsxPackage) decodePart(name string, v any) error {
 
 // openXLSXSheet opens the worksheet to read: the one named, or the first
 // visible one.
-func openXLSXSheet(path string, opts Options) (rowSource, string, error) {
+func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, error) {
 	p, err := openPackage(path, opts)
 	if err != nil {
 		return nil, "", err
@@ -368,7 +431,15 @@ func openXLSXSheet(path string, opts Options) (rowSource, string, error) {
 		}
 		return nil, "", &Error{Path: path, Sheet: name, Cause: ErrSheetNotFound, Detail: "the sheets are " + sheetList(p.sheets)}
 	}
-	src, err := newSheetStream(p, part)
+	var src rowSource
+	if fast {
+		src, err = newFastSheet(p, part)
+		if errors.Is(err, errFastFallback) {
+			src, err = newSheetStream(p, part)
+		}
+	} else {
+		src, err = newSheetStream(p, part)
+	}
 	if err != nil {
 		p.Close()
 		var e *Error

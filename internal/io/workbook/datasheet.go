@@ -1,0 +1,277 @@
+package workbook
+
+import (
+	"archive/zip"
+	"bufio"
+	"bytes"
+	"compress/flate"
+	"encoding/xml"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"regexp"
+	"strconv"
+	"strings"
+	"unicode/utf16"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// spliceDataSheet fills the empty data sheet of the workbook at tmp with
+// the text file's records, each on the row a spreadsheet program would
+// give it, and replaces tmp with the result. Every other part of the
+// workbook is copied still compressed; the data sheet's XML is written
+// straight into the zip, a row at a time, so memory stays flat and the
+// rows are compressed once. A sheet holds excelize.TotalRows rows; cut
+// counts the records past that, which are left out.
+//
+// Cells are written as excelize's stream writer writes them (v2.11.1
+// source, stream.go, writeCell; cell.go, setInlineStr and trimCellValue):
+// numbers in <v>, texts as inline strings. Numbers keep every digit
+// (strconv's shortest form), where the stream writer keeps 15.
+func spliceDataSheet(tmp string, rows rowSource, decimalComma bool) (cut int, err error) {
+	zf, err := os.Open(tmp)
+	if err != nil {
+		return 0, err
+	}
+	defer zf.Close()
+	info, err := zf.Stat()
+	if err != nil {
+		return 0, err
+	}
+	zr, err := zip.NewReader(zf, info.Size())
+	if err != nil {
+		return 0, err
+	}
+	pkg := &xlsxPackage{path: tmp, zr: zr, parts: map[string]string{}, limit: DefaultUnzipSizeLimit, limitXML: DefaultUnzipXMLSizeLimit}
+	if err := pkg.readWorkbook(); err != nil {
+		return 0, err
+	}
+	part := pkg.parts[DataSheetName]
+	out, err := os.CreateTemp(filepath.Dir(tmp), "."+filepath.Base(tmp)+"-*")
+	if err != nil {
+		return 0, err
+	}
+	defer os.Remove(out.Name())
+	bw := bufio.NewWriterSize(out, 1<<20)
+	zw := zip.NewWriter(bw)
+	zw.RegisterCompressor(zip.Deflate, func(w io.Writer) (io.WriteCloser, error) {
+		return flate.NewWriter(w, flate.BestSpeed)
+	})
+	for _, f := range zr.File {
+		if !strings.EqualFold(f.Name, part) {
+			if err := copyRaw(zw, f); err != nil {
+				return 0, err
+			}
+			continue
+		}
+		empty, err := readLimited(f, DefaultUnzipXMLSizeLimit)
+		if err != nil {
+			return 0, err
+		}
+		w, err := zw.CreateHeader(&zip.FileHeader{Name: f.Name, Method: zip.Deflate, Modified: f.Modified})
+		if err != nil {
+			return 0, err
+		}
+		if cut, err = writeDataSheet(w, empty, rows, decimalComma); err != nil {
+			return 0, err
+		}
+	}
+	if err := zw.Close(); err != nil {
+		return 0, err
+	}
+	if err := bw.Flush(); err != nil {
+		return 0, err
+	}
+	if err := out.Close(); err != nil {
+		return 0, err
+	}
+	return cut, os.Rename(out.Name(), tmp)
+}
+
+// writeDataSheet writes the worksheet: excelize's empty sheet with the
+// records in its <sheetData/> and without its <dimension>, which would
+// name the wrong range (it is optional; ECMA-376 Part 1, section 18.3.1.35).
+func writeDataSheet(w io.Writer, empty []byte, rows rowSource, decimalComma bool) (int, error) {
+	empty = cutElements(empty, func(t xml.StartElement) bool { return t.Name.Local == "dimension" })
+	at, tag := -1, ""
+	for _, tag = range []string{"<sheetData/>", "<sheetData></sheetData>"} {
+		if at = bytes.Index(empty, []byte(tag)); at >= 0 {
+			break
+		}
+	}
+	if at < 0 {
+		return 0, fmt.Errorf("the new data sheet has no empty sheetData")
+	}
+	bw := bufio.NewWriterSize(w, 1<<16)
+	bw.Write(empty[:at])
+	bw.WriteString("<sheetData>")
+	cut := 0
+	var buf []byte
+	err := eachRecord(rows, func(num, headerRow int, cells []rawCell) error {
+		if len(cells) == 0 {
+			return nil
+		}
+		if num > excelize.TotalRows {
+			cut++
+			return nil
+		}
+		buf = append(buf[:0], `<row r="`...)
+		buf = strconv.AppendInt(buf, int64(num), 10)
+		buf = append(buf, `">`...)
+		for _, c := range cells {
+			buf = append(buf, `<c r="`...)
+			buf = appendCellName(buf, c.Col, num)
+			s := trimSpace(c.Text)
+			if v, ok := parseNumber(s, decimalComma); ok && num > headerRow && !strings.HasSuffix(s, "%") && !leadingZero(s) {
+				buf = append(buf, `"><v>`...)
+				if _, plain := plainDecimal(s, false); plain && !decimalComma {
+					buf = append(buf, s...) // exactly v, unformatted
+				} else {
+					buf = strconv.AppendFloat(buf, v, 'f', -1, 64)
+				}
+				buf = append(buf, `</v></c>`...)
+				continue
+			}
+			buf = appendInlineString(buf, c.Text)
+		}
+		buf = append(buf, `</row>`...)
+		_, err := bw.Write(buf)
+		return err
+	})
+	if err != nil {
+		return 0, err
+	}
+	bw.WriteString("</sheetData>")
+	bw.Write(empty[at+len(tag):])
+	return cut, bw.Flush()
+}
+
+// eachRecord calls put with every record of a text file, its row number
+// and the header row found as the reader finds it (0 for none), so that
+// the rows down to the header stay text and a name such as "2024" or "00"
+// keeps its form.
+func eachRecord(rows rowSource, put func(num, headerRow int, cells []rawCell) error) error {
+	var buf []bufRow
+	for len(buf) < headerScanRows {
+		num, cells, err := rows.Next()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return err
+		}
+		if !isBlankRow(cells) {
+			buf = append(buf, bufRow{num, keptCells(rows, cells)})
+		}
+	}
+	headerRow := 0
+	if hi := detectHeader(buf); hi >= 0 {
+		headerRow = buf[hi].num
+	}
+	for _, r := range buf {
+		if err := put(r.num, headerRow, r.cells); err != nil {
+			return err
+		}
+	}
+	for {
+		num, cells, err := rows.Next()
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+		if err := put(num, headerRow, cells); err != nil {
+			return err
+		}
+	}
+}
+
+// appendCellName appends the A1 name of a 0-based column and a row.
+func appendCellName(buf []byte, col, row int) []byte {
+	var letters [4]byte
+	n := len(letters)
+	for col++; col > 0; col = (col - 1) / 26 {
+		n--
+		letters[n] = byte('A' + (col-1)%26)
+	}
+	buf = append(buf, letters[n:]...)
+	return strconv.AppendInt(buf, int64(row), 10)
+}
+
+// appendInlineString finishes a cell holding text as excelize's
+// setInlineStr does: at most 32,767 UTF-16 units, xml:space="preserve"
+// when it starts or ends with white space, XML-escaped (line feeds kept),
+// and _xHHHH_ sequences escaped.
+func appendInlineString(buf []byte, s string) []byte {
+	if len(s) > excelize.TotalCellChars {
+		s = truncateUTF16(s, excelize.TotalCellChars)
+	}
+	buf = append(buf, `" t="inlineStr"><is><t`...)
+	if s != "" {
+		for _, b := range []byte{9, 10, 13, 32} {
+			if s[0] == b || s[len(s)-1] == b {
+				buf = append(buf, ` xml:space="preserve"`...)
+				break
+			}
+		}
+	}
+	buf = append(buf, '>')
+	var esc bytes.Buffer
+	xml.EscapeText(&esc, []byte(s))
+	v := strings.ReplaceAll(esc.String(), "&#xA;", "\n")
+	if strings.Contains(v, "_x") {
+		v = bstrMarshal(v)
+	}
+	buf = append(buf, v...)
+	return append(buf, `</t></is></c>`...)
+}
+
+// truncateUTF16 cuts s to at most n UTF-16 units.
+func truncateUTF16(s string, n int) string {
+	units := 0
+	for i, r := range s {
+		units += len(utf16.Encode([]rune{r}))
+		if units > n {
+			return s[:i]
+		}
+	}
+	return s
+}
+
+var (
+	bstrExp       = regexp.MustCompile(`_x[a-fA-F\d]{4}_`)
+	bstrEscapeExp = regexp.MustCompile(`x[a-fA-F\d]{4}_`)
+)
+
+// bstrMarshal escapes the _xHHHH_ sequences that a spreadsheet program
+// would read as a character code, as excelize does (v2.11.1 source,
+// lib.go, bstrMarshal, ported line for line).
+func bstrMarshal(s string) (result string) {
+	matches, l, cursor := bstrExp.FindAllStringSubmatchIndex(s, -1), len(s), 0
+	for _, match := range matches {
+		result += s[cursor:match[0]]
+		subStr := s[match[0]:match[1]]
+		if subStr == "_x005F_" {
+			cursor = match[1]
+			if match[1]+6 <= l && bstrEscapeExp.MatchString(s[match[1]:match[1]+6]) {
+				if _, err := strconv.Unquote(`"\u` + s[match[1]+1:match[1]+5] + `"`); err == nil {
+					result += subStr + "x005F" + subStr
+					continue
+				}
+			}
+			result += subStr + "x005F_"
+			continue
+		}
+		cursor = match[1]
+		if _, err := strconv.Unquote(`"\u` + s[match[0]+2:match[1]-1] + `"`); err == nil {
+			result += "_x005F" + subStr
+		}
+	}
+	if cursor < l {
+		result += s[cursor:]
+	}
+	return result
+}
