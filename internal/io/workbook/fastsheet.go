@@ -293,10 +293,15 @@ func attrs(tag []byte, fn func(local, value []byte) bool) bool {
 			return false
 		}
 		raw := tag[i+eq+2 : i+eq+2+end]
+		wide := false
 		for _, c := range raw {
-			if c == '&' || c == '<' || c == '\r' || c == '\n' || c == '\t' {
-				return false // entities or white space to normalise: left to encoding/xml
+			if c == '&' || c == '<' || c < 0x20 {
+				return false // entities, white space to normalise, control characters: left to encoding/xml
 			}
+			wide = wide || c >= 0x80
+		}
+		if wide && !validChars(raw) {
+			return false
 		}
 		if !fn(localName(name), raw) {
 			return false
@@ -620,6 +625,18 @@ func entity(name []byte) (rune, bool) {
 		return 0, false
 	}
 	return rune(n), true
+}
+
+// validChars reports UTF-8 text of characters XML allows.
+func validChars(b []byte) bool {
+	for len(b) > 0 {
+		r, n := utf8.DecodeRune(b)
+		if r == utf8.RuneError && n <= 1 || !xmlChar(r) {
+			return false
+		}
+		b = b[n:]
+	}
+	return true
 }
 
 // xmlChar reports the characters XML 1.0 allows (section 2.2, Char).

@@ -148,7 +148,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, err
 	}
 	l := layOut(sheet)
-	tmp, err := buildInTemp(target, base, limit, limitXML,
+	tmp, err := buildKeepingSheets(target, base, limit, limitXML,
 		func(xf *excelize.File) error {
 			if _, err := xf.NewSheet(name); err != nil {
 				return err

@@ -122,7 +122,7 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 // open (to a temporary file past UnzipXMLSizeLimit; v2.11.1 source,
 // lib.go, ReadZipReader), which for a sheet of a million rows takes longer
 // than reading it, and openPackage needs only the workbook and its styles.
-const bigSheet = 8 << 20
+var bigSheet uint64 = 8 << 20
 
 // withoutBigSheets returns the workbook's zip with every worksheet part
 // larger than bigSheet replaced by an empty worksheet, for excelize to
@@ -144,7 +144,7 @@ func withoutBigSheets(path string, limit int64) ([]byte, error) {
 		if uint64(limit) < uint64(size) || size < 0 || total > limit {
 			return nil, fmt.Errorf("unzip size exceeds the %d bytes limit", limit)
 		}
-		big = big || isWorksheetPart(f.Name) && size > bigSheet
+		big = big || isWorksheetPart(f.Name) && uint64(size) > bigSheet
 	}
 	if !big {
 		return nil, nil
@@ -152,7 +152,7 @@ func withoutBigSheets(path string, limit int64) ([]byte, error) {
 	var buf bytes.Buffer
 	zw := zip.NewWriter(&buf)
 	for _, f := range zr.File {
-		if !isWorksheetPart(f.Name) || f.FileInfo().Size() <= bigSheet {
+		if !isWorksheetPart(f.Name) || f.UncompressedSize64 <= bigSheet {
 			if err := copyRaw(zw, f); err != nil {
 				return nil, nil
 			}

@@ -1,0 +1,114 @@
+package workbook
+
+import (
+	"archive/zip"
+	"bufio"
+	"bytes"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"github.com/xuri/excelize/v2"
+)
+
+// emptyWorksheet stands in for a big worksheet while excelize adds the
+// results sheet.
+const emptyWorksheet = `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData/></worksheet>`
+
+// buildKeepingSheets is buildInTemp for a workbook whose worksheets may be
+// big: excelize unpacks, and on saving packs again, every worksheet it
+// opens (v2.11.1 source, lib.go, ReadZipReader; file.go, writeToZip), twice
+// over when there are two stages, though it changes none of them. So each
+// worksheet part larger than bigSheet is replaced by an empty worksheet
+// for excelize, and its original entry is put back into the result still
+// packed. When that cannot be done (excelize renamed or dropped such a
+// part) the workbook is built whole with buildInTemp instead.
+func buildKeepingSheets(target string, base []byte, limit, limitXML int64, stages ...func(*excelize.File) error) (string, error) {
+	zr, err := zip.NewReader(bytes.NewReader(base), int64(len(base)))
+	if err != nil {
+		return buildInTemp(target, base, limit, limitXML, stages...)
+	}
+	stubbed := map[string]*zip.File{}
+	var small bytes.Buffer
+	zw := zip.NewWriter(&small)
+	for _, f := range zr.File {
+		if isWorksheetPart(f.Name) && f.UncompressedSize64 > bigSheet {
+			stubbed[strings.ToLower(f.Name)] = f
+			w, err := zw.CreateHeader(&zip.FileHeader{Name: f.Name, Method: zip.Deflate, Modified: f.Modified})
+			if err == nil {
+				_, err = io.WriteString(w, emptyWorksheet)
+			}
+			if err != nil {
+				return buildInTemp(target, base, limit, limitXML, stages...)
+			}
+			continue
+		}
+		if err := copyRaw(zw, f); err != nil {
+			return buildInTemp(target, base, limit, limitXML, stages...)
+		}
+	}
+	if len(stubbed) == 0 || zw.Close() != nil {
+		return buildInTemp(target, base, limit, limitXML, stages...)
+	}
+	tmp, err := buildInTemp(target, small.Bytes(), limit, limitXML, stages...)
+	if err != nil {
+		return "", err
+	}
+	if err := putBack(tmp, stubbed); err != nil {
+		os.Remove(tmp)
+		return buildInTemp(target, base, limit, limitXML, stages...)
+	}
+	return tmp, nil
+}
+
+// putBack rewrites the workbook at tmp with the stubbed parts' original
+// entries, copied without unpacking.
+func putBack(tmp string, stubbed map[string]*zip.File) error {
+	zr, err := zip.OpenReader(tmp)
+	if err != nil {
+		return err
+	}
+	defer zr.Close()
+	out, err := os.CreateTemp(filepath.Dir(tmp), "."+filepath.Base(tmp)+"-*")
+	if err != nil {
+		return err
+	}
+	defer os.Remove(out.Name())
+	bw := bufio.NewWriterSize(out, 1<<20)
+	zw := zip.NewWriter(bw)
+	found := 0
+	for _, f := range zr.File {
+		if orig, ok := stubbed[strings.ToLower(f.Name)]; ok {
+			found++
+			err = copyRaw(zw, orig)
+		} else {
+			err = copyRaw(zw, f)
+		}
+		if err != nil {
+			out.Close()
+			return err
+		}
+	}
+	if found != len(stubbed) {
+		out.Close()
+		return fmt.Errorf("%d of %d worksheets kept their part", found, len(stubbed))
+	}
+	if err := zw.Close(); err != nil {
+		out.Close()
+		return err
+	}
+	if err := bw.Flush(); err != nil {
+		out.Close()
+		return err
+	}
+	if err := out.Sync(); err != nil {
+		out.Close()
+		return err
+	}
+	if err := out.Close(); err != nil {
+		return err
+	}
+	return os.Rename(out.Name(), tmp)
+}
