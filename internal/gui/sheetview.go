@@ -91,8 +91,14 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 		}
 		out.Add(row)
 	}
-	return out
+	// A table wider than the window scrolls sideways on its own, so the
+	// paragraphs around it still wrap at the window's width.
+	return container.NewHScroll(out)
 }
+
+// minColumn is the narrowest a table column gets, in pixels: room for a
+// word such as "Untreated" in bold.
+const minColumn = 92
 
 // columns lays out one table row: the first column `first` times as wide
 // as the others, every row of a table sharing the same proportions so the
@@ -127,7 +133,7 @@ func (c *columns) MinSize(objects []fyne.CanvasObject) fyne.Size {
 	for _, o := range objects {
 		h = max(h, o.MinSize().Height)
 	}
-	return fyne.NewSize(float32(c.n)*70, h)
+	return fyne.NewSize((c.first+float32(c.n-1))*minColumn, h)
 }
 
 // pairs shows label and value rows as a form: the labels in a column of
