@@ -27,6 +27,10 @@ var ErrNeedsMemory = errors.New("this fit needs every row in memory")
 
 func needsMemory(why string) error { return fmt.Errorf("%w: %s", ErrNeedsMemory, why) }
 
+// ErrChangedBetweenPasses is the cause of a streamed fit whose later
+// passes met a group, level or cluster that the survey did not see.
+var ErrChangedBetweenPasses = errors.New("the data changed between the passes of the fit")
+
 // correctionTol bounds the change of the residuals, relative to their
 // norm, that the seminormal correction may make without the residual pass
 // being repeated with the corrected coefficients (see FitStream).
@@ -81,6 +85,9 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if err := src.Pass(ctx, st.factor); err != nil {
 		return nil, err
 	}
+	if st.changed {
+		return nil, ErrChangedBetweenPasses
+	}
 	st.finishFactor()
 	q := st.qr
 	q.pivot()
@@ -103,6 +110,9 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 			return nil, err
 		}
 		st.flushMeat()
+		if st.changed {
+			return nil, ErrChangedBetweenPasses
+		}
 		if st.leverageOne {
 			return nil, needsMemory("a row has leverage 1")
 		}
@@ -176,6 +186,7 @@ type stream struct {
 	meanYW      float64 // of √w·y, as checkExact takes it
 	u           []float64
 	leverageOne bool
+	changed     bool // a later pass met what the survey did not see
 }
 
 // groupStats are the facts the checks need about one moderator group.
@@ -380,24 +391,38 @@ func (st *stream) survey(d *Data) error {
 // clusterNumber numbers the clusters in order of first appearance, as Fit
 // does (readCluster).
 func (st *stream) clusterNumber(c *Column, i int) int {
-	ds := st.ds
-	var j int
-	var ok bool
-	if c.IsNumeric() {
-		j, ok = st.clusterByValue[c.Num[i]]
-	} else {
-		j, ok = st.clusterByText[c.Text[i]]
+	if j, ok := st.lookupCluster(c, i); ok {
+		return j
 	}
-	if !ok {
-		j = len(ds.clusterLabels)
-		ds.clusterLabels = append(ds.clusterLabels, st.clusterKeys.key(c, i))
-		if c.IsNumeric() {
-			st.clusterByValue[c.Num[i]] = j
-		} else {
-			st.clusterByText[c.Text[i]] = j
-		}
+	ds := st.ds
+	j := len(ds.clusterLabels)
+	ds.clusterLabels = append(ds.clusterLabels, st.clusterKeys.key(c, i))
+	if c.IsNumeric() {
+		st.clusterByValue[c.Num[i]] = j
+	} else {
+		st.clusterByText[c.Text[i]] = j
 	}
 	return j
+}
+
+// knownCluster returns the number the survey gave row i's cluster, or
+// −1, noting the change, when the survey did not see it.
+func (st *stream) knownCluster(c *Column, i int) int {
+	j, ok := st.lookupCluster(c, i)
+	if !ok {
+		st.changed = true
+		return -1
+	}
+	return j
+}
+
+func (st *stream) lookupCluster(c *Column, i int) (int, bool) {
+	if c.IsNumeric() {
+		j, ok := st.clusterByValue[c.Num[i]]
+		return j, ok
+	}
+	j, ok := st.clusterByText[c.Text[i]]
+	return j, ok
 }
 
 // plan turns the survey into the model's terms, or hands the fit back
@@ -536,7 +561,8 @@ func (st *stream) fill(d *Data, i int) {
 	x[0] = 1
 	t := st.treatment(d, i)
 	x[ds.tCol] = t
-	level := st.levelIndex[st.modKeys.key(&d.Columns[st.iMod], i)]
+	level, ok := st.levelIndex[st.modKeys.key(&d.Columns[st.iMod], i)]
+	st.changed = st.changed || !ok
 	m := 0
 	for j := range ds.levels {
 		if j == ds.ref {
@@ -557,6 +583,7 @@ func (st *stream) fill(d *Data, i int) {
 			x[st.controlCol[j]] = c.Num[i]
 			continue
 		}
+		st.changed = st.changed || st.controlCount[j][c.Text[i]] == 0
 		for l, level := range levels {
 			if c.Text[i] == level {
 				x[st.controlCol[j]+l] = 1
@@ -585,7 +612,7 @@ func (st *stream) factor(d *Data) error {
 			w[0] = wi
 		}
 		if st.clusters != nil {
-			st.clusters[0] = st.clusterNumber(&d.Columns[st.iClus], i)
+			st.clusters[0] = st.knownCluster(&d.Columns[st.iClus], i)
 		}
 		st.hash.row(st.row, y, w, 0, st.clusters)
 		st.sw += wi
@@ -712,7 +739,10 @@ func (st *stream) residuals(d *Data) error {
 		}
 		switch s.Variance {
 		case CR1:
-			c := st.clusterNumber(&d.Columns[st.iClus], i)
+			c := st.knownCluster(&d.Columns[st.iClus], i)
+			if c < 0 {
+				return
+			}
 			sc := st.scores[c*k : (c+1)*k]
 			for j, v := range x {
 				sc[j] += v * e

@@ -278,3 +278,37 @@ func BenchmarkFitStream(b *testing.B) {
 		})
 	}
 }
+
+// changing serves its data, but from the given pass on with one cell set
+// to a value the earlier passes did not see, as a file edited meanwhile.
+type changing struct {
+	sliced
+	from   int
+	change func(*Data)
+}
+
+func (c *changing) Pass(ctx context.Context, each func(*Data) error) error {
+	if c.passes+1 == c.from {
+		c.change(c.d)
+	}
+	return c.sliced.Pass(ctx, each)
+}
+
+// TestFitStreamDataChanged checks that a group, control level or cluster
+// first met after the survey stops the fit with ErrChangedBetweenPasses.
+func TestFitStreamDataChanged(t *testing.T) {
+	s := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical},
+		Controls: []string{"kind"}, Cluster: "site"}
+	for name, change := range map[string]func(*Data){
+		"group":   func(d *Data) { d.Columns[8].Text[3] = "elsewhere" },
+		"level":   func(d *Data) { d.Columns[10].Text[3] = "z" },
+		"cluster": func(d *Data) { d.Columns[6].Num[3] = 1e9 },
+	} {
+		for _, from := range []int{2, 3} {
+			src := &changing{sliced: sliced{d: streamData(600), size: 100}, from: from, change: change}
+			if _, err := FitStream(context.Background(), src, s); !errors.Is(err, ErrChangedBetweenPasses) {
+				t.Errorf("%s changed from pass %d: got %v", name, from, err)
+			}
+		}
+	}
+}

@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"sort"
 	"strconv"
 	"strings"
@@ -27,6 +28,7 @@ type Stream struct {
 
 	tf   *TextFormat
 	opts Options
+	file os.FileInfo // the file as surveyed
 }
 
 // ErrChangedWhileRead is the cause of a pass that did not see the rows
@@ -44,6 +46,10 @@ func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error)
 	}
 	if f != formatText {
 		return nil, fmt.Errorf("%s is not a text file", path)
+	}
+	info, err := os.Stat(path)
+	if err != nil {
+		return nil, err
 	}
 	tf, err := sniffText(path)
 	if err != nil {
@@ -64,7 +70,7 @@ func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error)
 		return nil, err
 	}
 	b.finishSurvey()
-	return &Stream{Outline: t, Rows: b.rows, tf: tf, opts: opts}, nil
+	return &Stream{Outline: t, Rows: b.rows, tf: tf, opts: opts, file: info}, nil
 }
 
 // colSurvey counts what colBuilder needs to decide a column's kind,
@@ -189,6 +195,9 @@ func (b *tableBuilder) finishSurvey() {
 // as Read fills them). The chunk's slices are reused once each returns;
 // its texts may be kept.
 func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(rows []int, cols []*Column) error) error {
+	if info, err := os.Stat(s.Outline.Path); err != nil || info.Size() != s.file.Size() || !info.ModTime().Equal(s.file.ModTime()) {
+		return &Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: "it was saved again while it was being analyzed; run the analysis again"}
+	}
 	src, err := openScanner(s.Outline.Path, s.tf)
 	if err != nil {
 		return err

@@ -239,3 +239,23 @@ func TestPlainDecimal(t *testing.T) {
 		}
 	}
 }
+
+// TestStreamFileChanged checks that a pass over a file saved again since
+// the survey stops with ErrChangedWhileRead.
+func TestStreamFileChanged(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "visits.csv")
+	if err := os.WriteFile(path, []byte("a,b\n1,2\n3,4\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	s, err := OpenStream(context.Background(), path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, []byte("a,b\n1,2\n3,4\n5,6\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	err = s.Pass(context.Background(), []string{"a"}, 10, func([]int, []*Column) error { return nil })
+	if !errors.Is(err, ErrChangedWhileRead) {
+		t.Errorf("got %v, want ErrChangedWhileRead", err)
+	}
+}
