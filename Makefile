@@ -62,7 +62,7 @@ size-study:
 
 # Fuzz the workbook and text readers briefly, about 20 s a target; a
 # failing input is saved under internal/io/workbook/testdata/fuzz.
-WORKBOOK_FUZZ := FuzzReadText FuzzReadWorkbook FuzzSniff
+WORKBOOK_FUZZ := FuzzReadText FuzzReadWorkbook FuzzSniff FuzzFastSheet FuzzScanner
 fuzz:
 	@for t in $(WORKBOOK_FUZZ); do \
 	  $(GO) test ./internal/io/workbook -run '^$$' -fuzz "^$$t$$" -fuzztime 20s -fuzzminimizetime 5s || exit 1; \

@@ -339,8 +339,10 @@ func (s *fastSheet) readRow(row []byte) error {
 	gt := bytes.IndexByte(row, '>')
 	head := row[1:gt]
 	num := s.row + 1
+	seen := false // the first r counts, as sheetStream's attr takes it
 	ok := attrs(head, func(local, v []byte) bool {
-		if string(local) == "r" {
+		if string(local) == "r" && !seen {
+			seen = true
 			n, err := strconv.Atoi(string(v))
 			if err != nil || n < 1 || n > 1048576 {
 				return false
@@ -384,17 +386,23 @@ func (s *fastSheet) readRow(row []byte) error {
 		if !attrs(tag, func(local, v []byte) bool {
 			switch string(local) {
 			case "r":
-				ref = v
+				if ref == nil {
+					ref = v
+				}
 			case "t":
-				typ = v
+				if typ == nil {
+					typ = v
+				}
 			case "s":
-				style = v
+				if style == nil {
+					style = v
+				}
 			}
 			return true
 		}) {
 			return fallback("cell attributes")
 		}
-		if ref != nil {
+		if len(ref) > 0 {
 			c, ok := refColumn(unsafe.String(unsafe.SliceData(ref), len(ref)))
 			if !ok {
 				return fallback("cell reference")
@@ -402,7 +410,7 @@ func (s *fastSheet) readRow(row []byte) error {
 			col = c
 		}
 		st := -1
-		if style != nil {
+		if len(style) > 0 {
 			st = smallInt(style)
 		}
 		var rest []byte
