@@ -372,9 +372,11 @@ func (ds *design) readCluster(c *Column) {
 
 // assemble writes the model matrix: intercept, treatment, moderator,
 // treatment × moderator, controls (METHODS §1). Each term is a function
-// that fills its column of the row-major matrix in one pass.
+// that fills its column of the row-major matrix for a range of rows; the
+// matrix is filled a block of rows at a time, so that the block stays in
+// cache while each term writes its column of it.
 func (ds *design) assemble(s Spec, controls []roleColumn) {
-	type fill func(x []float64, j, k int)
+	type fill func(x []float64, j, k, from, to int)
 	var fills []fill
 	add := func(name, role string, f fill) int {
 		ds.names = append(ds.names, name)
@@ -382,8 +384,8 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 		fills = append(fills, f)
 		return len(fills) - 1
 	}
-	add("(intercept)", roleIntercept, func(x []float64, j, k int) {
-		for r := 0; r < ds.n; r++ {
+	add("(intercept)", roleIntercept, func(x []float64, j, k, from, to int) {
+		for r := from; r < to; r++ {
 			x[r*k+j] = 1
 		}
 	})
@@ -391,9 +393,9 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 	if s.Treatment.Kind == TreatmentLabels {
 		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
 	}
-	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k int) {
-		for r, t := range ds.treat {
-			x[r*k+j] = t
+	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
+		for r := from; r < to; r++ {
+			x[r*k+j] = ds.treat[r]
 		}
 	})
 
@@ -423,25 +425,25 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 		}
 	}
 	for m, name := range modNames {
-		ds.mCols = append(ds.mCols, add(name, roleModerator, func(x []float64, j, k int) {
-			for r := 0; r < ds.n; r++ {
+		ds.mCols = append(ds.mCols, add(name, roleModerator, func(x []float64, j, k, from, to int) {
+			for r := from; r < to; r++ {
 				x[r*k+j] = mod(r, m)
 			}
 		}))
 	}
 	for m, name := range modNames {
-		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k int) {
-			for r, t := range ds.treat {
-				x[r*k+j] = t * mod(r, m)
+		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
+			for r := from; r < to; r++ {
+				x[r*k+j] = ds.treat[r] * mod(r, m)
 			}
 		}))
 	}
 	for _, rc := range controls {
 		c := rc.col
 		if c.IsNumeric() {
-			add(c.Name, roleControl, func(x []float64, j, k int) {
-				for r, i := range ds.used {
-					x[r*k+j] = c.Num[i]
+			add(c.Name, roleControl, func(x []float64, j, k, from, to int) {
+				for r := from; r < to; r++ {
+					x[r*k+j] = c.Num[ds.used[r]]
 				}
 			})
 			continue
@@ -456,9 +458,9 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			if j == ref {
 				continue
 			}
-			add(fmt.Sprintf("%s = %s", c.Name, l), roleControl, func(x []float64, col, k int) {
-				for r, i := range ds.used {
-					if c.Text[i] == l {
+			add(fmt.Sprintf("%s = %s", c.Name, l), roleControl, func(x []float64, col, k, from, to int) {
+				for r := from; r < to; r++ {
+					if c.Text[ds.used[r]] == l {
 						x[r*k+col] = 1
 					}
 				}
@@ -467,8 +469,12 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 	}
 	ds.k = len(fills)
 	ds.x = make([]float64, ds.n*ds.k)
-	for j, f := range fills {
-		f(ds.x, j, ds.k)
+	const block = 2048
+	for from := 0; from < ds.n; from += block {
+		to := min(from+block, ds.n)
+		for j, f := range fills {
+			f(ds.x, j, ds.k, from, to)
+		}
 	}
 }
 
