@@ -74,7 +74,9 @@ func spliceDataSheet(tmp string, rows rowSource, decimalComma bool) (cut int, er
 		if err != nil {
 			return 0, err
 		}
-		if cut, err = writeDataSheet(w, empty, rows, decimalComma); err != nil {
+		if cut, err = packedAlongside(w, func(pw io.Writer) (int, error) {
+			return writeDataSheet(pw, empty, rows, decimalComma)
+		}); err != nil {
 			return 0, err
 		}
 	}
@@ -88,6 +90,42 @@ func spliceDataSheet(tmp string, rows rowSource, decimalComma bool) (cut int, er
 		return 0, err
 	}
 	return cut, os.Rename(out.Name(), tmp)
+}
+
+// packedAlongside runs write with its output compressed into w by
+// another goroutine, blocks of it handed over a channel, so that making
+// the sheet's XML and deflating it run side by side.
+func packedAlongside(w io.Writer, write func(io.Writer) (int, error)) (int, error) {
+	blocks := make(chan []byte, 8)
+	done := make(chan error, 1)
+	go func() {
+		var err error
+		for b := range blocks {
+			if err == nil {
+				_, err = w.Write(b)
+			}
+		}
+		done <- err
+	}()
+	cw := &chanWriter{blocks: blocks}
+	bw := bufio.NewWriterSize(cw, 256<<10)
+	n, err := write(bw)
+	if err == nil {
+		err = bw.Flush()
+	}
+	close(blocks)
+	if perr := <-done; err == nil {
+		err = perr
+	}
+	return n, err
+}
+
+// chanWriter sends a copy of each write on a channel.
+type chanWriter struct{ blocks chan<- []byte }
+
+func (c *chanWriter) Write(b []byte) (int, error) {
+	c.blocks <- append([]byte(nil), b...)
+	return len(b), nil
 }
 
 // writeDataSheet writes the worksheet: excelize's empty sheet with the
