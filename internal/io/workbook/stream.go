@@ -27,7 +27,6 @@ type Stream struct {
 	Rows int
 
 	tf   *TextFormat
-	opts Options
 	file os.FileInfo // the file as surveyed
 }
 
@@ -70,7 +69,7 @@ func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error)
 		return nil, err
 	}
 	b.finishSurvey()
-	return &Stream{Outline: t, Rows: b.rows, tf: tf, opts: opts, file: info}, nil
+	return &Stream{Outline: t, Rows: b.rows, tf: tf, file: info}, nil
 }
 
 // colSurvey counts what colBuilder needs to decide a column's kind,
