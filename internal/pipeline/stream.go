@@ -91,20 +91,76 @@ func usedColumns(o *workbook.Table, s estimate.Spec) []string {
 }
 
 // streamChunks adapts a stream's passes to the engine's chunks, as
-// EngineData adapts a table.
+// EngineData adapts a table. The file is read in a goroutine of its own a
+// few chunks ahead of the fit, so that parsing and fitting run side by
+// side; each chunk is a copy, since the stream reuses its slices.
 type streamChunks struct {
 	s     *workbook.Stream
 	names []string
 }
 
+// chunksAhead is how many chunks the reader may be ahead of the fit.
+const chunksAhead = 2
+
 func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data) error) error {
-	d := &estimate.Data{}
-	return c.s.Pass(ctx, c.names, streamChunkRows, func(rows []int, cols []*workbook.Column) error {
-		d.RowLabels = rows
-		d.Columns = d.Columns[:0]
-		for _, col := range cols {
-			d.Columns = append(d.Columns, engineColumn(col, len(rows)))
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	ready := make(chan *estimate.Data, chunksAhead)
+	spare := make(chan *estimate.Data, chunksAhead+2)
+	read := make(chan error, 1)
+	go func() {
+		defer close(ready)
+		read <- c.s.Pass(ctx, c.names, streamChunkRows, func(rows []int, cols []*workbook.Column) error {
+			var d *estimate.Data
+			select {
+			case d = <-spare:
+			default:
+				d = &estimate.Data{}
+			}
+			copyChunk(d, rows, cols)
+			select {
+			case ready <- d:
+				return nil
+			case <-ctx.Done():
+				return ctx.Err()
+			}
+		})
+	}()
+	var err error
+	for d := range ready {
+		if err == nil {
+			if err = each(d); err != nil {
+				cancel()
+			}
 		}
-		return each(d)
-	})
+		select {
+		case spare <- d:
+		default:
+		}
+	}
+	if rerr := <-read; err == nil {
+		err = rerr
+	}
+	return err
+}
+
+// copyChunk fills d with a copy of the stream's chunk, reusing d's
+// slices.
+func copyChunk(d *estimate.Data, rows []int, cols []*workbook.Column) {
+	d.RowLabels = append(d.RowLabels[:0], rows...)
+	if len(d.Columns) != len(cols) {
+		d.Columns = make([]estimate.Column, len(cols))
+	}
+	for j, col := range cols {
+		ec := engineColumn(col, len(rows))
+		dc := &d.Columns[j]
+		num, text := dc.Num, dc.Text
+		dc.Name, dc.Why, dc.Num, dc.Text = ec.Name, ec.Why, nil, nil
+		if ec.Num != nil {
+			dc.Num = append(num[:0], ec.Num...)
+		}
+		if ec.Text != nil {
+			dc.Text = append(text[:0], ec.Text...)
+		}
+	}
 }

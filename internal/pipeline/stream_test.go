@@ -2,6 +2,7 @@ package pipeline
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -11,6 +12,7 @@ import (
 	"testing"
 
 	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
 	"slopewise/internal/report"
 )
 
@@ -91,5 +93,32 @@ func TestStreamedAnalysisEqualsTable(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestStreamChunksStopEarly checks that a fit that stops at a chunk stops
+// the reader ahead of it and gets its own error back.
+func TestStreamChunksStopEarly(t *testing.T) {
+	path := writePilot(t, 3*streamChunkRows)
+	s, err := workbook.OpenStream(context.Background(), path, workbook.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	stop := errors.New("stop")
+	n := 0
+	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data) error {
+		n++
+		return stop
+	})
+	if !errors.Is(err, stop) || n != 1 {
+		t.Errorf("got %v after %d chunks, want the fit's own error after 1", err, n)
+	}
+	rows := 0
+	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data) error {
+		rows += len(d.RowLabels)
+		return nil
+	})
+	if err != nil || rows != s.Rows {
+		t.Errorf("a whole pass: %d rows, %v; want %d", rows, err, s.Rows)
 	}
 }
