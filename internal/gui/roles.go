@@ -241,21 +241,9 @@ func (s *rolesScreen) refreshControls() {
 		return
 	}
 	taken := map[string]bool{s.outcome.Selected: true, s.treatment.Selected: true, s.moderator.Selected: true, s.weights.Selected: true}
-	var opts []string
-	for _, c := range t.Columns {
-		if !taken[c.Name] && c.Kind != workbook.Text && c.Kind != workbook.Empty {
-			opts = append(opts, c.Name)
-		}
-	}
-	var keep []string
-	for _, sel := range s.controls.Selected {
-		if !taken[sel] {
-			keep = append(keep, sel)
-		}
-	}
-	s.controls.Options = opts
-	s.controls.Selected = keep
-	s.controls.Refresh()
+	keep := offer(s.controls, columnsWhere(t, func(c *workbook.Column) bool {
+		return !taken[c.Name] && c.Kind != workbook.Text && c.Kind != workbook.Empty
+	}), taken)
 
 	// More moderators: any column of groups, two values or numbers that
 	// has no other role.
@@ -263,21 +251,34 @@ func (s *rolesScreen) refreshControls() {
 	for _, c := range keep {
 		taken[c] = true
 	}
-	var candidates []string
+	offer(s.extra, columnsWhere(t, func(c *workbook.Column) bool {
+		return !taken[c.Name] && (c.Kind == workbook.Category || c.Kind == workbook.YesNo || c.Kind == workbook.Number)
+	}), taken)
+}
+
+// columnsWhere names the table's columns that satisfy ok, in order.
+func columnsWhere(t *workbook.Table, ok func(*workbook.Column) bool) []string {
+	var out []string
 	for _, c := range t.Columns {
-		if !taken[c.Name] && (c.Kind == workbook.Category || c.Kind == workbook.YesNo || c.Kind == workbook.Number) {
-			candidates = append(candidates, c.Name)
+		if ok(c) {
+			out = append(out, c.Name)
 		}
 	}
-	var chosen []string
-	for _, sel := range s.extra.Selected {
+	return out
+}
+
+// offer sets a check group's options and keeps the selections that are
+// not taken by another role; it returns what stays selected.
+func offer(g *widget.CheckGroup, options []string, taken map[string]bool) []string {
+	var keep []string
+	for _, sel := range g.Selected {
 		if !taken[sel] {
-			chosen = append(chosen, sel)
+			keep = append(keep, sel)
 		}
 	}
-	s.extra.Options = candidates
-	s.extra.Selected = chosen
-	s.extra.Refresh()
+	g.Options, g.Selected = options, keep
+	g.Refresh()
+	return keep
 }
 
 // moderators are the moderator and any more to try, in that order.
