@@ -88,6 +88,9 @@ Options:
   --sheet NAME             the sheet to read (default: the first)
   --header-row N           the row holding the column names (default: found)
   --out PATH               write the results into a copy at PATH instead
+  --copy-data auto|yes|no  for a .csv, .tsv or .txt file: copy its data into
+                           the results workbook too (auto, the default: when
+                           the file has at most 100,000 rows)
   --json                   also print the results as JSON on standard output
   --dry-run                fit and report, but write nothing
 
@@ -169,6 +172,7 @@ type modelFlags struct {
 	outcome, treatment, treated string
 	controls, cluster, weights  string
 	se, sheet, out              string
+	copyData                    string
 	randomized, json, dryRun    bool
 	alpha                       float64
 	headerRow                   int
@@ -199,6 +203,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.StringVar(&f.se, "se", "", "")
 	fs.StringVar(&f.sheet, "sheet", "", "")
 	fs.StringVar(&f.out, "out", "", "")
+	fs.StringVar(&f.copyData, "copy-data", "auto", "")
 	fs.BoolVar(&f.randomized, "randomized", false, "")
 	fs.BoolVar(&f.json, "json", false, "")
 	fs.BoolVar(&f.dryRun, "dry-run", false, "")
@@ -324,6 +329,9 @@ func (f *modelFlags) check() error {
 	}
 	if f.dryRun && f.out != "" {
 		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
+	}
+	if _, ok := copyDataChoices[f.copyData]; !ok {
+		return usagef("--copy-data must be auto, yes or no, not %q", f.copyData)
 	}
 	if f.set["equivalence-margin"] && !(f.margin > 0 && !math.IsInf(f.margin, 0)) {
 		return usagef("--equivalence-margin must be a positive number in the outcome's units, not %g", f.margin)
@@ -467,11 +475,14 @@ func (f *modelFlags) save(human io.Writer, save func(workbook.WriteOptions) (*wo
 		fmt.Fprintln(human, "\nDry run: nothing was written.")
 		return nil
 	}
-	w, err := save(workbook.WriteOptions{CopyTo: f.out})
+	w, err := save(workbook.WriteOptions{CopyTo: f.out, CopyData: copyDataChoices[f.copyData]})
 	if err != nil {
 		return err
 	}
 	fmt.Fprintf(human, "\nResults written to %s, sheet %q.\n", w.Path, w.Sheet)
+	if w.DataNotCopied > 0 {
+		fmt.Fprintf(human, "The data stay in %s only: at more than 100,000 rows a copy in the workbook would be slow to open (--copy-data yes copies them).\n", f.file)
+	}
 	if w.Backup != "" {
 		fmt.Fprintf(human, "The file as it was before is kept as %s.\n", w.Backup)
 	}
@@ -480,6 +491,9 @@ func (f *modelFlags) save(human io.Writer, save func(workbook.WriteOptions) (*wo
 	}
 	return nil
 }
+
+// copyDataChoices are the values of --copy-data.
+var copyDataChoices = map[string]workbook.CopyData{"auto": workbook.CopyDataAuto, "yes": workbook.CopyDataAlways, "no": workbook.CopyDataNever}
 
 // printJSON writes v as indented JSON.
 func printJSON(w io.Writer, v any) error {

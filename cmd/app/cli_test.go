@@ -6,6 +6,7 @@ import (
 	"context"
 	"crypto/sha256"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -91,6 +92,7 @@ func TestUsageErrors(t *testing.T) {
 		{"alpha not a number", with("--alpha", "five"), "invalid value"},
 		{"negative header row", with("--header-row", "-3"), "--header-row must be a row number"},
 		{"dry run with out", with("--dry-run", "--out", "x.xlsx"), "--dry-run writes nothing"},
+		{"bad copy-data", with("--copy-data", "sometimes"), `--copy-data must be auto, yes or no, not "sometimes"`},
 		{"no bootstrap without cluster", with("--no-bootstrap"), "--no-bootstrap is about the wild cluster bootstrap, which needs --cluster"},
 		{"draws without cluster", with("--draws", "999"), "--draws is about the wild cluster bootstrap"},
 		{"seed without cluster", with("--seed", "4"), "--seed is about the wild cluster bootstrap"},
@@ -499,6 +501,50 @@ func TestRemainingFlags(t *testing.T) {
 	bin := get("--moderator", demodata.ColFirstTime, "--moderator-type", "binary", "--reference", "yes")
 	if bin.Groups[0].Label != "yes" {
 		t.Errorf("binary with --reference yes: first group %q", bin.Groups[0].Label)
+	}
+}
+
+// TestCopyDataOfBigCSV runs analyze on a CSV of 100,001 rows (and a header): by default
+// the results workbook holds the results only and the command says where
+// the data stay; --copy-data yes copies them.
+func TestCopyDataOfBigCSV(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("y,t,g\n")
+	for i := range 100_001 {
+		fmt.Fprintf(&b, "%d,%d,%c\n", (i*7919)%101, i%2, 'a'+byte(i%3))
+	}
+	src := filepath.Join(dir, "big.csv")
+	if err := os.WriteFile(src, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	args := []string{"analyze", src, "--outcome", "y", "--treatment", "t", "--moderator", "g"}
+	code, out, errs := runCLI(t, args...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	if !strings.Contains(out, "The data stay in "+src+" only: at more than 100,000 rows") {
+		t.Errorf("no word of the data left out:\n%s", out)
+	}
+	sheets := func(path string) []string {
+		f, err := excelize.OpenFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer f.Close()
+		return f.GetSheetList()
+	}
+	results := filepath.Join(dir, "big results.xlsx")
+	if got := sheets(results); len(got) != 1 {
+		t.Errorf("sheets %v, want the results only", got)
+	}
+	copyTo := filepath.Join(dir, "with data.xlsx")
+	code, out, errs = runCLI(t, append(args, "--copy-data", "yes", "--out", copyTo)...)
+	if code != exitOK || strings.Contains(out, "The data stay") {
+		t.Fatalf("exit %d: %s\n%s", code, out, errs)
+	}
+	if got := sheets(copyTo); len(got) != 2 || got[0] != "Data" {
+		t.Errorf("sheets %v, want Data and the results", got)
 	}
 }
 

@@ -5,9 +5,11 @@ package main
 
 import (
 	"context"
+	"fmt"
 	"os"
 	"os/signal"
 	"path/filepath"
+	"runtime/pprof"
 )
 
 // version is set at build time with -ldflags "-X main.version=…".
@@ -23,7 +25,9 @@ func main() {
 		os.Exit(window(path))
 	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt)
+	stopProfile := startProfile()
 	code := cli(ctx, args, os.Stdout, os.Stderr)
+	stopProfile()
 	stop()
 	os.Exit(code)
 }
@@ -43,4 +47,26 @@ func opensFile(args []string) bool {
 		return true
 	}
 	return filepath.Ext(args[0]) != ""
+}
+
+// startProfile writes a CPU profile of a headless command to the file
+// named by SLOPEWISE_CPUPROFILE, for developers (DEVELOPERS.md,
+// "Profiling"); it returns the function that ends it.
+func startProfile() func() {
+	path := os.Getenv("SLOPEWISE_CPUPROFILE")
+	if path == "" {
+		return func() {}
+	}
+	f, err := os.Create(path)
+	if err == nil {
+		err = pprof.StartCPUProfile(f)
+	}
+	if err != nil {
+		fmt.Fprintf(os.Stderr, "slopewise: no CPU profile: %v\n", err)
+		return func() {}
+	}
+	return func() {
+		pprof.StopCPUProfile()
+		f.Close()
+	}
 }

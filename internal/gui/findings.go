@@ -237,6 +237,9 @@ func (s *findingsScreen) write(copyTo string) {
 		if len(w.Lost) > 0 {
 			msg += " The copy does not keep: " + strings.Join(w.Lost, "; ") + "."
 		}
+		if w.DataNotCopied > 0 {
+			msg += fmt.Sprintf(" The data stay in %s only: at more than 100,000 rows a copy in the workbook would be slow to open.", filepath.Base(u.path))
+		}
 		s.savedNote.SetText(msg)
 		u.setStatus("Saved.")
 		dialog.ShowInformation("Saved", msg, u.win)

@@ -1,8 +1,10 @@
 package workbook
 
 import (
+	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -50,10 +52,33 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	if strings.EqualFold(name, DataSheetName) {
 		name = DefaultSheetName
 	}
+	w := &Written{Path: target, Sheet: name}
+	switch opts.CopyData {
+	case CopyDataNever:
+		w.DataNotCopied = -1
+	case CopyDataAuto:
+		most := opts.CopyDataLines
+		if most <= 0 {
+			most = DefaultCopyDataLines
+		}
+		lines, err := countLines(src, most)
+		if err != nil {
+			return nil, statError(src, err)
+		}
+		if lines > most {
+			w.DataNotCopied = lines
+		}
+	}
 	limit, limitXML := opts.limits()
 	l := layOut(sheet)
 	tmp, err := buildInTemp(target, nil, limit, limitXML,
 		func(xf *excelize.File) error {
+			if w.DataNotCopied != 0 {
+				if err := xf.SetSheetName("Sheet1", name); err != nil {
+					return err
+				}
+				return drawCells(xf, name, l)
+			}
 			if err := xf.SetSheetName("Sheet1", DataSheetName); err != nil {
 				return err
 			}
@@ -67,7 +92,10 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		return nil, err
 	}
 	defer os.Remove(tmp)
-	cut, err := spliceDataSheet(tmp, rows, tf.DecimalComma)
+	cut := 0
+	if w.DataNotCopied == 0 {
+		cut, err = spliceDataSheet(tmp, rows, tf.DecimalComma)
+	}
 	if err != nil {
 		var e *Error
 		if errors.As(err, &e) {
@@ -75,7 +103,6 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		}
 		return nil, &Error{Path: target, Cause: ErrVerifyFailed, Detail: "writing the data sheet failed: " + err.Error(), Underlying: err}
 	}
-	w := &Written{Path: target, Sheet: name}
 	if cut > 0 {
 		w.Lost = append(w.Lost, fmt.Sprintf("the last %d rows of the data on sheet %q, which holds no more than %d rows (the results are from all rows)", cut, DataSheetName, excelize.TotalRows))
 	}
@@ -95,6 +122,40 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		return nil, err
 	}
 	return w, nil
+}
+
+// countLines counts the lines of the file at path, stopping once they
+// pass most (it then returns most+1): a quick measure of a text file's
+// size in rows, a record with a line break inside quotes counting as
+// two. A last line without a line break counts.
+func countLines(path string, most int) (int, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return 0, err
+	}
+	defer f.Close()
+	buf := make([]byte, 1<<20)
+	lines, last := 0, byte('\n')
+	for {
+		n, err := f.Read(buf)
+		if n > 0 {
+			lines += bytes.Count(buf[:n], []byte{'\n'})
+			last = buf[n-1]
+			if lines > most {
+				return most + 1, nil
+			}
+		}
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return 0, err
+		}
+	}
+	if last != '\n' {
+		lines++
+	}
+	return min(lines, most+1), nil
 }
 
 // leadingZero reports codes such as "007", digits only, whose zeros a

@@ -33,7 +33,37 @@ type WriteOptions struct {
 	// UnzipSizeLimit and UnzipXMLSizeLimit as in Options.
 	UnzipSizeLimit    int64
 	UnzipXMLSizeLimit int64
+	// CopyData says whether the workbook written beside a text source
+	// holds a copy of its data on a sheet of its own; by default only
+	// when the file has no more than CopyDataLines lines.
+	CopyData CopyData
+	// CopyDataLines replaces DefaultCopyDataLines when positive.
+	CopyDataLines int
 }
+
+// CopyData is the choice of copying a text source's data into the
+// workbook written beside it.
+type CopyData int
+
+const (
+	// CopyDataAuto copies the data when the text file is small enough
+	// for a spreadsheet program to open the copy quickly; a bigger file
+	// stays the data's only home and the workbook holds the results.
+	CopyDataAuto CopyData = iota
+	// CopyDataAlways copies the data whatever the file's size (up to the
+	// rows a sheet holds).
+	CopyDataAlways
+	// CopyDataNever writes the results only.
+	CopyDataNever
+)
+
+// DefaultCopyDataLines is the most lines a text file may have for its
+// data to be copied into the results workbook by default (100,000 rows
+// below a header line): at 100,000 rows of a dozen columns the copy is a few megabytes and opens in
+// seconds; a million-row copy takes a spreadsheet program much longer to
+// open than the results are worth waiting for, doubles the disk the data
+// take, and took more time to write than the whole analysis.
+const DefaultCopyDataLines = 100_001
 
 // Written says what WriteResults did.
 type Written struct {
@@ -47,6 +77,10 @@ type Written struct {
 	// Lost lists the features of the source that the copy does not keep
 	// (only when writing a copy; in place such a source is refused).
 	Lost []string
+	// DataNotCopied is set when the workbook written beside a text
+	// source holds the results but not a copy of the data: the text
+	// file's line count when that was over the limit, or -1 when asked.
+	DataNotCopied int
 }
 
 // WriteResults adds the results sheet to the workbook at src, or, for a

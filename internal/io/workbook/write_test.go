@@ -404,6 +404,62 @@ func TestWriteBesideCSV(t *testing.T) {
 	}
 }
 
+// A text file over the line limit keeps its data to itself by default:
+// the workbook beside it holds the results sheet only, and says so; asked
+// for, the copy is made whatever the size; asked not to, never.
+func TestWriteBesideCSVCopyData(t *testing.T) {
+	cases := []struct {
+		name     string
+		copyData CopyData
+		lines    int // CopyDataLines
+		data     bool
+		notCopy  int
+	}{
+		{"auto, under the limit", CopyDataAuto, 5, true, 0},
+		{"auto, at the limit", CopyDataAuto, 4, true, 0},
+		{"auto, over the limit", CopyDataAuto, 3, false, 4},
+		{"yes, over the limit", CopyDataAlways, 3, true, 0},
+		{"no, under the limit", CopyDataNever, 5, false, -1},
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			dir := t.TempDir()
+			// four lines, the last without a line break
+			src := writeFile(t, dir, "survey.csv", []byte("id,score\n1,2.5\n2,3.5\n3,4.5"))
+			w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyData: c.copyData, CopyDataLines: c.lines})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if w.DataNotCopied != c.notCopy {
+				t.Errorf("DataNotCopied = %d, want %d", w.DataNotCopied, c.notCopy)
+			}
+			rows := rawRows(t, w.Path)
+			if _, ok := rows[DataSheetName]; ok != c.data {
+				t.Errorf("data sheet there: %v, want %v (sheets %v)", ok, c.data, len(rows))
+			}
+			if c.data && !strings.Contains(rows[DataSheetName], `B4="4.5"`) {
+				t.Errorf("data sheet: %s", rows[DataSheetName])
+			}
+			if !strings.Contains(rows["Slopewise results"], `A1="Effect of the programme by group"`) || len(rows) != map[bool]int{true: 2, false: 1}[c.data] {
+				t.Errorf("sheets: %v", rows)
+			}
+		})
+	}
+}
+
+func TestCountLines(t *testing.T) {
+	dir := t.TempDir()
+	for _, c := range []struct {
+		text       string
+		most, want int
+	}{{"", 10, 0}, {"a", 10, 1}, {"a\n", 10, 1}, {"a\nb", 10, 2}, {"a\r\nb\r\n", 10, 2}, {"a\nb\nc\nd\n", 2, 3}} {
+		got, err := countLines(writeFile(t, dir, "f.csv", []byte(c.text)), c.most)
+		if err != nil || got != c.want {
+			t.Errorf("countLines(%q, %d) = %d, %v; want %d", c.text, c.most, got, err, c.want)
+		}
+	}
+}
+
 func TestWriteCopyOfWorkbookWithLostFeature(t *testing.T) {
 	dir := t.TempDir()
 	src := withWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).write(t, dir, "shared.xlsx")
