@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"hash"
 	"math"
+	"sync/atomic"
 )
 
 // histogramBins is the number of bars in a continuous moderator's histogram.
@@ -87,7 +88,6 @@ type rowFacts struct {
 func (ds *design) rowFacts(f *lsFit) *rowFacts {
 	rf := &rowFacts{outcomeBinary: true}
 	var sw, swy float64
-	h := newRowHash()
 	for i, y := range ds.y {
 		w := 1.0
 		if ds.w != nil {
@@ -98,9 +98,12 @@ func (ds *design) rowFacts(f *lsFit) *rowFacts {
 		if y != 0 && y != 1 {
 			rf.outcomeBinary = false
 		}
-		h.row(ds.x[i*ds.k:(i+1)*ds.k], y, ds.w, i, ds.cluster)
 	}
-	rf.hash = h.sum()
+	if ds.hash != nil {
+		rf.hash = ds.hash.wait()
+	} else {
+		rf.hash = ds.rowHash(nil)
+	}
 	mean := swy / sw
 	var tss float64
 	for i, y := range ds.y {
@@ -144,25 +147,65 @@ type rowHash struct {
 
 func newRowHash() *rowHash { return &rowHash{h: sha256.New(), buf: make([]byte, 0, 8*1024)} }
 
-// row adds row i; w and cluster are nil when the model has none.
+// row adds row i; w and cluster are nil when the model has none. The
+// buffer is handed to the hash before a row that might not fit, so that
+// the row's values are appended without a check each.
 func (rh *rowHash) row(x []float64, y float64, w []float64, i int, cluster []int) {
-	for _, v := range x {
-		rh.put(math.Float64bits(v))
-	}
-	rh.put(math.Float64bits(y))
-	if w != nil {
-		rh.put(math.Float64bits(w[i]))
-	}
-	if cluster != nil {
-		rh.put(uint64(cluster[i]))
-	}
-}
-
-func (rh *rowHash) put(v uint64) {
-	rh.buf = binary.LittleEndian.AppendUint64(rh.buf, v)
-	if len(rh.buf) == cap(rh.buf) {
+	if len(rh.buf)+8*(len(x)+3) > cap(rh.buf) {
 		rh.h.Write(rh.buf)
 		rh.buf = rh.buf[:0]
+	}
+	b := rh.buf
+	for _, v := range x {
+		b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
+	}
+	b = binary.LittleEndian.AppendUint64(b, math.Float64bits(y))
+	if w != nil {
+		b = binary.LittleEndian.AppendUint64(b, math.Float64bits(w[i]))
+	}
+	if cluster != nil {
+		b = binary.LittleEndian.AppendUint64(b, uint64(cluster[i]))
+	}
+	rh.buf = b
+}
+
+// rowHash returns the rowHash of the design's rows, or "" once stop is
+// set (stop may be nil).
+func (ds *design) rowHash(stop *atomic.Bool) string {
+	h := newRowHash()
+	for i, y := range ds.y {
+		if i%blockRows == 0 && stop != nil && stop.Load() {
+			return ""
+		}
+		h.row(ds.x[i*ds.k:(i+1)*ds.k], y, ds.w, i, ds.cluster)
+	}
+	return h.sum()
+}
+
+// hashJob is the rowHash of a design computed on a goroutine of its own.
+// SHA-256 is sequential, so instead of taking its turn it runs beside the
+// factorization and the variance, which use the other cores; the result
+// waits for it.
+type hashJob struct {
+	done chan string
+	stop atomic.Bool
+}
+
+// startHash starts computing the design's rowHash; the design's rows
+// must not change until it is waited for or stopped.
+func (ds *design) startHash() {
+	j := &hashJob{done: make(chan string, 1)}
+	ds.hash = j
+	go func() { j.done <- ds.rowHash(&j.stop) }()
+}
+
+// wait returns the hash.
+func (j *hashJob) wait() string { return <-j.done }
+
+// stopHash ends the computation of a hash that will not be used; nil-safe.
+func (j *hashJob) stopHash() {
+	if j != nil {
+		j.stop.Store(true)
 	}
 }
 

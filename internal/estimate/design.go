@@ -68,6 +68,8 @@ type design struct {
 
 	// facts, when set, were gathered by a streamed fit, which keeps no rows.
 	facts *rowFacts
+	// hash, when set, is computing the rowHash (startHash).
+	hash *hashJob
 }
 
 // roleColumn pairs a column with the words used for its role in messages.
@@ -374,7 +376,7 @@ func (ds *design) readCluster(c *Column) {
 // treatment × moderator, controls (METHODS §1). Each term is a function
 // that fills its column of the row-major matrix for a range of rows; the
 // matrix is filled a block of rows at a time, so that the block stays in
-// cache while each term writes its column of it.
+// cache while each term writes its column of it, the blocks in parallel.
 func (ds *design) assemble(s Spec, controls []roleColumn) {
 	type fill func(x []float64, j, k, from, to int)
 	var fills []fill
@@ -470,12 +472,11 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 	ds.k = len(fills)
 	ds.x = make([]float64, ds.n*ds.k)
 	const block = 2048
-	for from := 0; from < ds.n; from += block {
-		to := min(from+block, ds.n)
+	forRows(ds.n, block, func(_, from, to int) {
 		for j, f := range fills {
 			f(ds.x, j, ds.k, from, to)
 		}
-	}
+	})
 }
 
 // sortedLevels returns the keys in level order: numerically when every key

@@ -30,6 +30,8 @@ func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total 
 	if err := ds.check(d, s); err != nil {
 		return nil, err
 	}
+	ds.startHash()
+	defer ds.hash.stopHash()
 	x, y := ds.x, ds.y
 	if ds.w != nil {
 		x, y = weighted(ds.x, ds.y, ds.w, ds.k)
@@ -65,13 +67,15 @@ func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total 
 func weighted(x, y, w []float64, k int) ([]float64, []float64) {
 	xw := make([]float64, len(x))
 	yw := make([]float64, len(y))
-	for i, wi := range w {
-		r := math.Sqrt(wi)
-		yw[i] = r * y[i]
-		for j := 0; j < k; j++ {
-			xw[i*k+j] = r * x[i*k+j]
+	forRows(len(w), blockRows, func(_, from, to int) {
+		for i := from; i < to; i++ {
+			r := math.Sqrt(w[i])
+			yw[i] = r * y[i]
+			for j := 0; j < k; j++ {
+				xw[i*k+j] = r * x[i*k+j]
+			}
 		}
-	}
+	})
 	return xw, yw
 }
 
@@ -273,16 +277,18 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, VarianceType, 
 // type (White 1980; MacKinnon & White 1985). h is needed for HC2 and HC3.
 func hcVariance(f *lsFit, vt VarianceType, h []float64) []float64 {
 	omega := make([]float64, f.n)
-	for i, e := range f.resid {
-		e2 := e * e
-		switch vt {
-		case HC2:
-			e2 /= 1 - h[i]
-		case HC3:
-			e2 /= (1 - h[i]) * (1 - h[i])
+	forRows(f.n, blockRows, func(_, from, to int) {
+		for i := from; i < to; i++ {
+			e2 := f.resid[i] * f.resid[i]
+			switch vt {
+			case HC2:
+				e2 /= 1 - h[i]
+			case HC3:
+				e2 /= (1 - h[i]) * (1 - h[i])
+			}
+			omega[i] = e2
 		}
-		omega[i] = e2
-	}
+	})
 	v := f.sandwich(omega)
 	if vt == HC1 {
 		c := float64(f.n) / float64(f.n-f.k)

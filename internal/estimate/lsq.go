@@ -132,70 +132,111 @@ func (f *lsFit) inverseCrossProduct() []float64 {
 }
 
 // leverage returns hᵢ = xᵢᵀ(XᵀX)⁻¹xᵢ = ‖R2⁻ᵀ·PᵀD⁻¹xᵢ‖² for every row:
-// one triangular solve of K²/2 operations a row.
+// one triangular solve of K²/2 operations a row, blocks of rows in
+// parallel.
 func (f *lsFit) leverage() []float64 {
 	k, q := f.k, f.qr
 	h := make([]float64, f.n)
-	u := make([]float64, k)
-	for i := range h {
-		row := f.x[i*k : (i+1)*k]
-		for j, p := range q.perm {
-			u[j] = row[p] / q.d[p]
+	forBlocks(f.n, blockRows, func() func(b, from, to int) {
+		u := make([]float64, k)
+		return func(_, from, to int) {
+			for i := from; i < to; i++ {
+				row := f.x[i*k : (i+1)*k]
+				for j, p := range q.perm {
+					u[j] = row[p] / q.d[p]
+				}
+				q.solveRT(u)
+				var s float64
+				for _, v := range u {
+					s += v * v
+				}
+				h[i] = s
+			}
 		}
-		q.solveRT(u)
-		var s float64
-		for _, v := range u {
-			s += v * v
-		}
-		h[i] = s
-	}
+	})
 	return h
 }
 
 // sandwich returns B·(Σ ωᵢ xᵢxᵢᵀ)·B with B = (XᵀX)⁻¹ (White 1980); ωᵢ ≥ 0.
-// The middle is a symmetric rank update (Syrk) of the rows scaled by √ωᵢ.
+// The middle is a symmetric rank update (Syrk) of the rows scaled by √ωᵢ,
+// a chunk at a time; each block of chunks has its own part, the blocks in
+// parallel, and the parts are summed in block order.
 func (f *lsFit) sandwich(omega []float64) []float64 {
 	n, k := f.n, f.k
-	meat := blas64.Symmetric{Uplo: blas.Upper, N: k, Stride: k, Data: make([]float64, k*k)}
-	buf := make([]float64, chunkRows*k)
-	for start := 0; start < n; start += chunkRows {
-		rows := min(chunkRows, n-start)
-		w := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
-		for i := 0; i < rows; i++ {
-			o := math.Sqrt(omega[start+i])
-			row := f.x[(start+i)*k : (start+i+1)*k]
-			for j, v := range row {
-				w.Data[i*k+j] = o * v
+	parts := make([]float64, numBlocks(n, blockRows)*k*k)
+	forBlocks(n, blockRows, func() func(b, from, to int) {
+		buf := make([]float64, chunkRows*k)
+		return func(b, from, to int) {
+			meat := blas64.Symmetric{Uplo: blas.Upper, N: k, Stride: k, Data: parts[b*k*k : (b+1)*k*k]}
+			for start := from; start < to; start += chunkRows {
+				rows := min(chunkRows, to-start)
+				w := blas64.General{Rows: rows, Cols: k, Stride: k, Data: buf[:rows*k]}
+				for i := 0; i < rows; i++ {
+					o := math.Sqrt(omega[start+i])
+					row := f.x[(start+i)*k : (start+i+1)*k]
+					for j, v := range row {
+						w.Data[i*k+j] = o * v
+					}
+				}
+				blas64.Syrk(blas.Trans, 1, w, 1, meat)
 			}
 		}
-		blas64.Syrk(blas.Trans, 1, w, 1, meat)
+	})
+	meat := make([]float64, k*k)
+	for b := 0; b < len(parts); b += k * k {
+		for i, v := range parts[b : b+k*k] {
+			meat[i] += v
+		}
 	}
 	for i := 0; i < k; i++ {
 		for j := 0; j < i; j++ {
-			meat.Data[i*k+j] = meat.Data[j*k+i]
+			meat[i*k+j] = meat[j*k+i]
 		}
 	}
-	return f.wrap(meat.Data)
+	return f.wrap(meat)
 }
 
 // clusterSandwich returns B·(Σ_g s_g s_gᵀ)·B with the cluster score
 // s_g = Σ_{i∈g} xᵢeᵢ (Liang & Zeger 1986). cluster[i] is in [0, g).
+// The rows are sorted by cluster (stably, so each score adds its rows in
+// row order) and the clusters' scores computed in parallel.
 func (f *lsFit) clusterSandwich(cluster []int, g int) []float64 {
 	k := f.k
-	scores := make([]float64, g*k)
-	for i, c := range cluster {
-		e := f.resid[i]
-		row := f.x[i*k : (i+1)*k]
-		s := scores[c*k : (c+1)*k]
-		for j, v := range row {
-			s[j] += v * e
-		}
+	first := make([]int, g+1) // the rows of cluster c are order[first[c]:first[c+1]]
+	for _, c := range cluster {
+		first[c+1]++
 	}
+	for c := 0; c < g; c++ {
+		first[c+1] += first[c]
+	}
+	order := make([]int32, len(cluster))
+	next := append([]int(nil), first[:g]...)
+	for i, c := range cluster {
+		order[next[c]] = int32(i)
+		next[c]++
+	}
+	scores := make([]float64, g*k)
+	forRows(g, clusterBlock, func(_, from, to int) {
+		for c := from; c < to; c++ {
+			s := scores[c*k : (c+1)*k]
+			for _, i := range order[first[c]:first[c+1]] {
+				e := f.resid[i]
+				row := f.x[int(i)*k : (int(i)+1)*k]
+				for j, v := range row {
+					s[j] += v * e
+				}
+			}
+		}
+	})
 	sg := blas64.General{Rows: g, Cols: k, Stride: k, Data: scores}
 	meat := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
 	blas64.Gemm(blas.Trans, blas.NoTrans, 1, sg, sg, 0, meat)
 	return f.wrap(meat.Data)
 }
+
+// clusterBlock is the number of clusters whose scores one goroutine takes
+// at a time.
+const clusterBlock = 64
 
 // wrap returns B·M·B, symmetrised.
 func (f *lsFit) wrap(m []float64) []float64 {

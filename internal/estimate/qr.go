@@ -19,9 +19,14 @@ const chunkRows = 500
 // N×K matrix X, computed in two stages so that rows can be taken in chunks:
 //
 //  1. Unpivoted Householder QR of the rows, a chunk at a time: each chunk is
-//     stacked under the running triangle R0 and reduced to it again
-//     ("tall-skinny QR"; Golub & Van Loan, Matrix Computations, 4th ed.,
-//     §5.2.2 and §5.2.4). X = Q1·[R0; 0].
+//     stacked under a running triangle and reduced to it again ("tall-skinny
+//     QR"; Golub & Van Loan, Matrix Computations, 4th ed., §5.2.2 and
+//     §5.2.4). The chunks are grouped in blocks of blockChunks (parallel.go):
+//     each block starts from a zero triangle, so that blocks can be reduced
+//     on different cores, and the blocks' triangles are then merged into R0
+//     one after the other in block order, each merge the same reduction of
+//     a K-row chunk (the block's triangle) under R0. X = Q1·[R0; 0]. With
+//     one block (up to blockRows rows) this is the plain chunked reduction.
 //  2. Column scaling to unit norm (D = diag of the column norms of X, which
 //     are the column norms of R0), then Householder QR with column pivoting
 //     of the K×K matrix R0·D⁻¹ (LAPACK dgeqp3; Golub & Van Loan §5.4.2):
@@ -31,9 +36,17 @@ const chunkRows = 500
 // backward stable column by column, so scaling after stage 1 gives the same
 // rank decision as scaling before it. The reflectors of both stages are kept
 // so that Q and Qᵀ can be applied to vectors for iterative refinement.
+//
+// Each block's triangle is reduced from K rows of zeros stacked above its
+// rows, so Q1 acts on N + K·(number of blocks) rows: the rows of X and K
+// "phantom" rows a block. Vectors to which Q1 or Q1ᵀ is applied carry the
+// phantom rows of block 0 as top and those of the later blocks as ext
+// (len(merges)·K entries, the first K unused); both are zero for a vector
+// of the row space of X.
 type qrFactor struct {
 	n, k   int
 	chunks []qrChunk
+	merges []qrChunk // merges[b]: block b's triangle merged into R0 (b ≥ 1)
 	r0     []float64 // stage 1 triangle, K×K row-major
 
 	d    []float64 // column norms of X
@@ -52,30 +65,61 @@ type qrChunk struct {
 	tau         []float64
 }
 
-// factorQR computes the factorization of the n×k row-major matrix x.
+// factorQR computes the factorization of the n×k row-major matrix x, the
+// blocks of the first stage in parallel.
 func factorQR(x []float64, n, k int) *qrFactor {
-	q := &qrFactor{n: n, k: k, r0: make([]float64, k*k)}
-	for start := 0; start < n; start += chunkRows {
-		rows := min(chunkRows, n-start)
-		c := qrChunk{start: start, rows: rows, v: make([]float64, rows*k), tau: make([]float64, k)}
-		for i := 0; i < rows; i++ {
-			row := x[(start+i)*k : (start+i+1)*k]
-			for j, v := range row {
-				c.v[j*rows+i] = v
+	nb := numBlocks(n, blockRows)
+	q := &qrFactor{n: n, k: k, chunks: make([]qrChunk, numBlocks(n, chunkRows)), merges: make([]qrChunk, nb)}
+	tri := make([][]float64, nb)
+	forRows(n, blockRows, func(b, from, to int) {
+		r := make([]float64, k*k)
+		for start := from; start < to; start += chunkRows {
+			rows := min(chunkRows, to-start)
+			c := qrChunk{start: start, rows: rows, v: make([]float64, rows*k), tau: make([]float64, k)}
+			for i := 0; i < rows; i++ {
+				row := x[(start+i)*k : (start+i+1)*k]
+				for j, v := range row {
+					c.v[j*rows+i] = v
+				}
 			}
+			absorb(r, k, &c)
+			q.chunks[start/chunkRows] = c
 		}
-		q.absorb(&c)
-		q.chunks = append(q.chunks, c)
+		tri[b] = r
+	})
+	for b, t := range tri {
+		q.addBlock(b, t)
 	}
 	q.pivot()
 	return q
 }
 
-// absorb reduces [R0; chunk] to upper triangular form, updating R0 in place
-// and leaving the Householder vectors in the chunk (LAPACK dlarfg
-// convention: β = −sign(α)·‖(α, x)‖, τ = (β−α)/β, v = x/(α−β)).
-func (q *qrFactor) absorb(c *qrChunk) {
-	k, m, r := q.k, c.rows, q.r0
+// addBlock takes block b's triangle t into R0: as R0 for the first block,
+// else by reducing t stacked under R0, its reflectors kept in merges[b].
+func (q *qrFactor) addBlock(b int, t []float64) {
+	k := q.k
+	if b == 0 {
+		q.r0 = t
+		return
+	}
+	c := qrChunk{rows: k, v: make([]float64, k*k), tau: make([]float64, k)}
+	for i := 0; i < k; i++ {
+		for j := i; j < k; j++ {
+			c.v[j*k+i] = t[i*k+j]
+		}
+	}
+	absorb(q.r0, k, &c)
+	if q.merges != nil {
+		q.merges[b] = c
+	}
+}
+
+// absorb reduces [R; chunk] to upper triangular form, updating the K×K
+// triangle r in place and leaving the Householder vectors in the chunk
+// (LAPACK dlarfg convention: β = −sign(α)·‖(α, x)‖, τ = (β−α)/β,
+// v = x/(α−β)).
+func absorb(r []float64, k int, c *qrChunk) {
+	m := c.rows
 	for j := 0; j < k; j++ {
 		vj := c.v[j*m : (j+1)*m]
 		sigma := floats.Norm(vj, 2)
@@ -151,28 +195,62 @@ func (q *qrFactor) cond() float64 {
 	return math.Abs(q.a2[0]) / math.Abs(q.a2[(q.rank-1)*k+q.rank-1])
 }
 
-// applyQ1T overwrites (top, y) with Q1ᵀ·(top, y); top has K entries, y N.
-func (q *qrFactor) applyQ1T(top, y []float64) {
+// applyQ1T overwrites (top, ext, y) with Q1ᵀ·(top, ext, y); top has K
+// entries, ext K per block, y N. Afterwards top holds the coordinates along
+// R0 and ext and y the rest. The blocks run in parallel, then the merges
+// in block order.
+func (q *qrFactor) applyQ1T(top, ext, y []float64) {
 	k := q.k
-	for ci := range q.chunks {
-		c := &q.chunks[ci]
-		yc := y[c.start : c.start+c.rows]
+	forRows(len(q.chunks), blockChunks, func(b, from, to int) {
+		p := q.phantom(b, top, ext)
+		for ci := from; ci < to; ci++ {
+			c := &q.chunks[ci]
+			yc := y[c.start : c.start+c.rows]
+			for j := 0; j < k; j++ {
+				q.reflect(c, j, p, yc)
+			}
+		}
+	})
+	for b := 1; b < len(q.merges); b++ {
+		pb := ext[b*k : (b+1)*k]
 		for j := 0; j < k; j++ {
-			q.reflect(c, j, top, yc)
+			q.reflect(&q.merges[b], j, top, pb)
 		}
 	}
 }
 
-// applyQ1 overwrites (top, y) with Q1·(top, y).
-func (q *qrFactor) applyQ1(top, y []float64) {
-	for ci := len(q.chunks) - 1; ci >= 0; ci-- {
-		c := &q.chunks[ci]
-		yc := y[c.start : c.start+c.rows]
-		for j := q.k - 1; j >= 0; j-- {
-			q.reflect(c, j, top, yc)
+// applyQ1 overwrites (top, ext, y) with Q1·(top, ext, y).
+func (q *qrFactor) applyQ1(top, ext, y []float64) {
+	k := q.k
+	for b := len(q.merges) - 1; b >= 1; b-- {
+		pb := ext[b*k : (b+1)*k]
+		for j := k - 1; j >= 0; j-- {
+			q.reflect(&q.merges[b], j, top, pb)
 		}
 	}
+	forRows(len(q.chunks), blockChunks, func(b, from, to int) {
+		p := q.phantom(b, top, ext)
+		for ci := to - 1; ci >= from; ci-- {
+			c := &q.chunks[ci]
+			yc := y[c.start : c.start+c.rows]
+			for j := k - 1; j >= 0; j-- {
+				q.reflect(c, j, p, yc)
+			}
+		}
+	})
 }
+
+// phantom returns the phantom rows of block b: top for the first block,
+// its part of ext for the others.
+func (q *qrFactor) phantom(b int, top, ext []float64) []float64 {
+	if b == 0 {
+		return top
+	}
+	return ext[b*q.k : (b+1)*q.k]
+}
+
+// newExt returns zero phantom rows for the blocks after the first.
+func (q *qrFactor) newExt() []float64 { return make([]float64, len(q.merges)*q.k) }
 
 // reflect applies reflector j of chunk c (symmetric, so it is its own
 // inverse and transpose).
@@ -267,7 +345,7 @@ func (q *qrFactor) fromScaled(y []float64) []float64 {
 func (q *qrFactor) solveLS(y []float64) []float64 {
 	top := make([]float64, q.k)
 	yc := append([]float64(nil), y...)
-	q.applyQ1T(top, yc)
+	q.applyQ1T(top, q.newExt(), yc)
 	q.applyQ2T(top)
 	q.solveR(top)
 	return q.fromScaled(top)
@@ -287,14 +365,15 @@ func (q *qrFactor) solveAugmented(f, g []float64) []float64 {
 	h := q.toScaled(g)
 	q.solveRT(h)
 	f1 := make([]float64, k)
-	q.applyQ1T(f1, f)
+	ext := q.newExt()
+	q.applyQ1T(f1, ext, f)
 	q.applyQ2T(f1)
 	for i := range f1 {
 		f1[i] -= h[i]
 	}
 	q.solveR(f1)
 	q.applyQ2(h)
-	q.applyQ1(h, f)
+	q.applyQ1(h, ext, f)
 	return q.fromScaled(f1)
 }
 
@@ -305,31 +384,47 @@ func (q *qrFactor) solveAugmented(f, g []float64) []float64 {
 // (least squares when c = 0; column j of (XᵀX)⁻¹ when b = 0, c = −e_j) by
 // iterative refinement, the residuals of both equations accumulated in
 // compensated arithmetic. xm is X, n×k row-major.
+//
+// The residual pass runs in blocks of rows in parallel; each block sums its
+// part of c − Xᵀr in its own accumulators (the first block's starting from
+// c), and the parts are added in block order.
 func (q *qrFactor) refine(xm []float64, b, c, x []float64, maxIter int) {
 	n, k := q.n, q.k
 	kappa := q.cond()
 	r := residuals(xm, b, x, k)
 	f := make([]float64, n)
-	ga := make([]acc, k)
+	parts := make([]acc, numBlocks(n, blockRows)*k)
 	g := make([]float64, k)
 	for it := 0; it < maxIter; it++ {
-		for j := range ga {
-			ga[j] = acc{}
-			ga[j].add(c[j])
+		clear(parts)
+		for j := range k {
+			parts[j].add(c[j])
 		}
-		for i := 0; i < n; i++ {
-			var a acc
-			a.add(b[i])
-			a.add(-r[i])
-			row := xm[i*k : (i+1)*k]
-			for j, v := range row {
-				a.addProd(-v, x[j])
-				ga[j].addProd(-v, r[i])
+		forBlocks(n, blockRows, func() func(blk, from, to int) {
+			ga := make([]acc, k) // the block's sums, here so that no cache line is shared
+			return func(blk, from, to int) {
+				copy(ga, parts[blk*k:(blk+1)*k])
+				for i := from; i < to; i++ {
+					var a acc
+					a.add(b[i])
+					a.add(-r[i])
+					row := xm[i*k : (i+1)*k]
+					for j, v := range row {
+						a.addProd(-v, x[j])
+						ga[j].addProd(-v, r[i])
+					}
+					f[i] = a.value()
+				}
+				copy(parts[blk*k:(blk+1)*k], ga)
 			}
-			f[i] = a.value()
-		}
+		})
 		for j := range g {
-			g[j] = ga[j].value()
+			ga := parts[j]
+			for blk := k + j; blk < len(parts); blk += k {
+				ga.add(parts[blk].s)
+				ga.add(parts[blk].c)
+			}
+			g[j] = ga.value()
 		}
 		dx := q.solveAugmented(f, g)
 		// Each step shrinks the error by about κ·ε (κ the condition
@@ -354,16 +449,19 @@ func (q *qrFactor) refine(xm []float64, b, c, x []float64, maxIter int) {
 // residuals returns b − X·x, each entry accumulated in compensated
 // arithmetic so that it is correct to about working precision even when it
 // is the small difference of large numbers.
+// Blocks of rows run in parallel.
 func residuals(xm, b, x []float64, k int) []float64 {
 	r := make([]float64, len(b))
-	for i := range r {
-		var a acc
-		a.add(b[i])
-		row := xm[i*k : (i+1)*k]
-		for j, v := range row {
-			a.addProd(-v, x[j])
+	forRows(len(b), blockRows, func(_, from, to int) {
+		for i := from; i < to; i++ {
+			var a acc
+			a.add(b[i])
+			row := xm[i*k : (i+1)*k]
+			for j, v := range row {
+				a.addProd(-v, x[j])
+			}
+			r[i] = a.value()
 		}
-		r[i] = a.value()
-	}
+	})
 	return r
 }

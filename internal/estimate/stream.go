@@ -110,6 +110,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 			return nil, err
 		}
 		st.flushMeat()
+		st.endMeatBlock()
 		if st.changed {
 			return nil, ErrChangedBetweenPasses
 		}
@@ -164,6 +165,9 @@ type stream struct {
 	qr       *qrFactor // over K+1 columns until the pass ends, then K
 	block    []float64 // column-major, chunkRows × (K+1)
 	rows     int       // rows in block
+	tri      []float64 // the triangle of the current block of chunks (qr.go)
+	triDone  int       // chunks absorbed into tri
+	blocks   int       // blocks merged into the running triangle
 	qty      []float64 // Qᵀy, K entries
 	row      []float64
 	hash     *rowHash
@@ -178,9 +182,11 @@ type stream struct {
 	rss         acc
 	xte         []acc
 	tss, tssW   float64
-	meat        blas64.Symmetric
+	meat        blas64.Symmetric // the current block's part
+	meatTotal   []float64        // the finished blocks' parts, summed
 	meatBuf     []float64
 	meatRows    int
+	meatChunks  int // chunks of rows in meat
 	scores      []float64
 	meanY       float64 // of the outcome, weighted with the weights
 	meanYW      float64 // of √w·y, as checkExact takes it
@@ -491,7 +497,8 @@ func (st *stream) plan() (*design, error) {
 		return nil, needsMemory("the wild cluster bootstrap needs every row")
 	}
 	k := ds.k
-	st.qr = &qrFactor{n: ds.n, k: k + 1, r0: make([]float64, (k+1)*(k+1))}
+	st.qr = &qrFactor{n: ds.n, k: k + 1}
+	st.tri = make([]float64, (k+1)*(k+1))
 	st.block = make([]float64, chunkRows*(k+1))
 	st.row = make([]float64, k)
 	st.hash = newRowHash()
@@ -658,8 +665,8 @@ func (st *stream) usedRows(d *Data, fn func(i int, y, w float64)) error {
 	return nil
 }
 
-// flushBlock absorbs the rows gathered into the running triangle, as
-// factorQR does with each chunk.
+// flushBlock absorbs the rows gathered into the current block's triangle,
+// and a full block's triangle into the running one, as factorQR does.
 func (st *stream) flushBlock() {
 	m := st.rows
 	if m == 0 {
@@ -673,13 +680,29 @@ func (st *stream) flushBlock() {
 			copy(v[j*m:(j+1)*m], st.block[j*chunkRows:j*chunkRows+m])
 		}
 	}
-	st.qr.absorb(&qrChunk{rows: m, v: v[:m*k1], tau: make([]float64, k1)})
+	absorb(st.tri, k1, &qrChunk{rows: m, v: v[:m*k1], tau: make([]float64, k1)})
 	st.rows = 0
+	st.triDone++
+	if st.triDone == blockChunks {
+		st.endBlock()
+	}
+}
+
+// endBlock merges the current block's triangle into the running one.
+func (st *stream) endBlock() {
+	if st.triDone == 0 {
+		return
+	}
+	st.qr.addBlock(st.blocks, st.tri)
+	st.blocks++
+	st.tri = make([]float64, len(st.tri))
+	st.triDone = 0
 }
 
 // finishFactor splits the triangle of [X y] into X's, R, and Qᵀy.
 func (st *stream) finishFactor() {
 	st.flushBlock()
+	st.endBlock()
 	k := st.ds.k
 	big := st.qr.r0
 	q := &qrFactor{n: st.ds.n, k: k, r0: make([]float64, k*k)}
@@ -701,8 +724,10 @@ func (st *stream) startResiduals(f *lsFit) {
 	st.meanY = st.swy / st.sw
 	st.meanYW = st.swyW / float64(st.ds.n)
 	st.meat = blas64.Symmetric{Uplo: blas.Upper, N: k, Stride: k, Data: make([]float64, k*k)}
+	st.meatTotal = make([]float64, k*k)
 	st.meatBuf = make([]float64, chunkRows*k)
 	st.meatRows = 0
+	st.meatChunks = 0
 	st.scores = nil
 	if st.s.Variance == CR1 {
 		st.scores = make([]float64, len(st.ds.clusterLabels)*k)
@@ -782,8 +807,9 @@ func (st *stream) residuals(d *Data) error {
 	})
 }
 
-// flushMeat adds the gathered rows to the middle of the sandwich, as
-// sandwich does with each chunk.
+// flushMeat adds the gathered rows to the current block's part of the
+// middle of the sandwich, as sandwich does with each chunk, and a full
+// block's part to the sum.
 func (st *stream) flushMeat() {
 	if st.meatRows == 0 {
 		return
@@ -792,6 +818,23 @@ func (st *stream) flushMeat() {
 	w := blas64.General{Rows: st.meatRows, Cols: k, Stride: k, Data: st.meatBuf[:st.meatRows*k]}
 	blas64.Syrk(blas.Trans, 1, w, 1, st.meat)
 	st.meatRows = 0
+	st.meatChunks++
+	if st.meatChunks == blockChunks {
+		st.endMeatBlock()
+	}
+}
+
+// endMeatBlock adds the current block's part of the middle of the
+// sandwich to the sum, in block order as sandwich does.
+func (st *stream) endMeatBlock() {
+	if st.meatChunks == 0 {
+		return
+	}
+	for i, v := range st.meat.Data {
+		st.meatTotal[i] += v
+	}
+	clear(st.meat.Data)
+	st.meatChunks = 0
 }
 
 // correct applies one step of the corrected seminormal equations,
@@ -852,7 +895,7 @@ func (st *stream) variance(f *lsFit) ([]float64, int) {
 		}
 		return v, g - 1
 	}
-	m := st.meat.Data
+	m := st.meatTotal
 	for i := 0; i < k; i++ {
 		for j := 0; j < i; j++ {
 			m[i*k+j] = m[j*k+i]

@@ -156,6 +156,13 @@ func TestFitStreamEqualsFit(t *testing.T) {
 // and everything else exactly.
 func compareResults(t *testing.T, where string, got, want *Result) {
 	t.Helper()
+	compareResultsWithin(t, where, got, want, 1e-10)
+}
+
+// compareResultsWithin compares every float of two results to tol relative
+// (0: the same value) and everything else exactly.
+func compareResultsWithin(t *testing.T, where string, got, want *Result, tol float64) {
+	t.Helper()
 	var walk func(path string, a, b reflect.Value)
 	walk = func(path string, a, b reflect.Value) {
 		switch a.Kind() {
@@ -164,7 +171,7 @@ func compareResults(t *testing.T, where string, got, want *Result) {
 			if x == y || math.IsNaN(x) && math.IsNaN(y) {
 				return
 			}
-			if d := math.Abs(x - y); d > 1e-10*math.Max(math.Abs(x), math.Abs(y)) && d > 1e-300 {
+			if d := math.Abs(x - y); d > tol*math.Max(math.Abs(x), math.Abs(y)) && (tol == 0 || d > 1e-300) {
 				t.Errorf("%s: %s = %.17g, want %.17g", where, path, x, y)
 			}
 		case reflect.Pointer, reflect.Interface:

@@ -1,0 +1,117 @@
+package estimate
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"math/rand/v2"
+	"reflect"
+	"runtime"
+	"testing"
+)
+
+// TestSameOnAnyNumberOfCores fits specs on data of several blocks of rows
+// (parallel.go) with one core and with four, and requires the results, as
+// JSON, to be the same to the byte: blocks are fixed by the number of rows
+// and their partial results combined in block order, so the number of
+// goroutines must change nothing.
+func TestSameOnAnyNumberOfCores(t *testing.T) {
+	n := 3*blockRows + 1234
+	d := streamData(n)
+	// c3 is nearly 2·c1 + 1 (condition estimate above condRefine, so the
+	// inverse cross-product is refined too); c4 is exactly that (aliased).
+	rng := rand.New(rand.NewPCG(3, 4))
+	c1 := d.Columns[4].Num
+	c3 := Column{Name: "c3", Num: make([]float64, n)}
+	c4 := Column{Name: "c4", Num: make([]float64, n)}
+	for i, v := range c1 {
+		c3.Num[i] = 2*v + 1 + 1e-4*rng.NormFloat64()
+		c4.Num[i] = 2*v + 1
+	}
+	d.Columns = append(d.Columns, c3, c4)
+	base := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical},
+		Controls: []string{"c1", "c2"}}
+	cases := []struct {
+		name   string
+		change func(*Spec)
+	}{
+		{"HC3", func(s *Spec) {}},
+		{"HC2", func(s *Spec) { s.Variance = HC2 }},
+		{"CR1", func(s *Spec) { s.Cluster = "site name" }},
+		{"weights", func(s *Spec) { s.Weights = "w" }},
+		{"text control", func(s *Spec) { s.Controls = append(s.Controls, "kind") }},
+		{"continuous moderator", func(s *Spec) {
+			s.Moderator, s.Controls = Moderator{Column: "c2", Kind: ModeratorContinuous}, []string{"c1"}
+		}},
+		{"nearly collinear", func(s *Spec) { s.Controls = append(s.Controls, "c3") }},
+		{"aliased", func(s *Spec) { s.Controls = append(s.Controls, "c4") }},
+	}
+	type outcome struct {
+		res *Result
+		err error
+	}
+	fit := func(procs int, s Spec) outcome {
+		defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(procs))
+		res, err := FitContext(context.Background(), d, s, nil)
+		return outcome{res, err}
+	}
+	for _, c := range cases {
+		t.Run(c.name, func(t *testing.T) {
+			s := base
+			s.Controls = append([]string(nil), base.Controls...)
+			c.change(&s)
+			one, four := fit(1, s), fit(4, s)
+			if one.err != nil || four.err != nil {
+				if !reflect.DeepEqual(one.err, four.err) {
+					t.Errorf("errors differ between 1 and 4 cores:\n%v\n%v", one.err, four.err)
+				}
+				if c.name != "aliased" {
+					t.Error(one.err)
+				}
+				return
+			}
+			// JSON, as the results are saved, when it can be written (it
+			// cannot hold the infinities of some Johnson–Neyman bounds),
+			// and every number to the bit.
+			a, errA := json.Marshal(one.res)
+			b, errB := json.Marshal(four.res)
+			if errA == nil && errB == nil && !bytes.Equal(a, b) {
+				t.Errorf("JSON differs between 1 and 4 cores:\n%s\n%s", a, b)
+			}
+			compareResultsWithin(t, "4 cores", four.res, one.res, 0)
+			if c.name == "nearly collinear" && one.res.Model.Condition <= condRefine {
+				t.Errorf("condition estimate %.3g, want above %g (refinement of the inverse)", one.res.Model.Condition, condRefine)
+			}
+		})
+	}
+}
+
+// TestFitStreamEqualsFitBlocks is TestFitStreamEqualsFit on data of
+// several blocks of rows, where the streamed fit must merge its blocks'
+// triangles and sum its blocks' sandwich parts as Fit does. (CR1 is left
+// out: its code is the same for one block or many, and at this size a few
+// small off-diagonal covariances, the difference of large cluster scores,
+// already differed by a few 1e-10 between the two fits before blocks.)
+func TestFitStreamEqualsFitBlocks(t *testing.T) {
+	d := streamData(3*blockRows + 1234)
+	base := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical},
+		Controls: []string{"c1", "c2"}}
+	for name, change := range map[string]func(*Spec){
+		"HC3":     func(s *Spec) {},
+		"weights": func(s *Spec) { s.Weights, s.Variance = "w", HC1 },
+	} {
+		t.Run(name, func(t *testing.T) {
+			s := base
+			change(&s)
+			want, err := Fit(d, s)
+			if err != nil {
+				t.Fatal(err)
+			}
+			got, err := FitStream(context.Background(), &sliced{d: d, size: 777}, s)
+			if err != nil {
+				t.Fatal(err)
+			}
+			compareResults(t, "chunks of 777", got, want)
+		})
+	}
+}
