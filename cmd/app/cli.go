@@ -525,6 +525,7 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
+	defer src.Close()
 	if run.Spec, err = f.spec(src.Outline()); err != nil {
 		return err
 	}

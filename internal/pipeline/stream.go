@@ -41,6 +41,14 @@ func Open(ctx context.Context, run report.Run) (*Source, error) {
 	return &Source{Table: t}, nil
 }
 
+// Close lets go of what a streamed source keeps between passes (a
+// temporary file); a Source read whole has nothing to let go of.
+func (s *Source) Close() {
+	if s.Stream != nil {
+		s.Stream.Close()
+	}
+}
+
 // Outline is the sheet's columns (names, kinds, levels) for choosing
 // roles: the Table itself, or the stream's outline, which holds no rows.
 func (s *Source) Outline() *workbook.Table {

@@ -226,11 +226,21 @@ func (s *csvScanner) Next() (int, []rawCell, error) {
 	return s.row, s.cells, nil
 }
 
+// scannedText reports the sources whose cells' texts live only until
+// the next row.
+func scannedText(src rowSource) bool {
+	switch src.(type) {
+	case *csvScanner, *aheadSource:
+		return true
+	}
+	return false
+}
+
 // keptCells copies a row's cells so that they outlive the next call of
 // Next, with the texts too when the scanner handed them out.
 func keptCells(src rowSource, cells []rawCell) []rawCell {
 	kept := slices.Clone(cells)
-	if _, ok := src.(*csvScanner); ok {
+	if scannedText(src) {
 		for i := range kept {
 			kept[i].Text = strings.Clone(kept[i].Text)
 		}

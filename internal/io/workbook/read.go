@@ -170,7 +170,7 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		}
 	}
 	_, isText := src.(*textSource)
-	_, isScanned := src.(*csvScanner)
+	isScanned := scannedText(src)
 	b.fixedWidth = (isText || isScanned) && t.HeaderRow > 0
 	if t.HeaderRow > 0 {
 		b.header = map[int]string{}
@@ -258,12 +258,17 @@ type tableBuilder struct {
 	blankRows    int
 	firstBlank   int
 	cached       []int
+	cachedAdders []colAdder // the columns in the order of cached
+	dense        []colAdder // cols by index, for the indexes seen
 	// fixedWidth: a text file's rows may not be wider than its header.
 	fixedWidth bool
 	width      int
 }
 
 func (b *tableBuilder) col(i int) colAdder {
+	if i < len(b.dense) && b.dense[i] != nil {
+		return b.dense[i]
+	}
 	c, ok := b.cols[i]
 	if !ok {
 		c = b.newCol(i)
@@ -272,8 +277,18 @@ func (b *tableBuilder) col(i int) colAdder {
 		}
 		b.cols[i] = c
 	}
+	if i < maxDenseColumns {
+		if i >= len(b.dense) {
+			b.dense = append(b.dense, make([]colAdder, i+1-len(b.dense))...)
+		}
+		b.dense[i] = c
+	}
 	return c
 }
+
+// maxDenseColumns bounds the column indexes tableBuilder finds by
+// position rather than in its map (a sheet has at most 16,384 columns).
+const maxDenseColumns = 1 << 14
 
 func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 	if isBlankRow(cells) {
@@ -298,8 +313,9 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 	}
 	b.rows++
 	j := 0
-	for _, idx := range b.sortedIndexes() {
-		cb := b.cols[idx]
+	idxs := b.sortedIndexes()
+	for k, idx := range idxs {
+		cb := b.cachedAdders[k]
 		for j < len(cells) && cells[j].Col < idx {
 			j++
 		}
@@ -321,6 +337,10 @@ func (b *tableBuilder) sortedIndexes() []int {
 			b.cached = append(b.cached, i)
 		}
 		sort.Ints(b.cached)
+		b.cachedAdders = b.cachedAdders[:0]
+		for _, i := range b.cached {
+			b.cachedAdders = append(b.cachedAdders, b.cols[i])
+		}
 	}
 	return b.cached
 }

@@ -26,8 +26,16 @@ type Stream struct {
 	// Rows is the number of data rows.
 	Rows int
 
-	tf   *TextFormat
-	file os.FileInfo // the file as surveyed
+	tf     *TextFormat
+	file   os.FileInfo // the file as surveyed
+	replay *replay     // the first pass's chunks, for the passes after it
+}
+
+// Close removes the temporary copy of the first pass's chunks, if any.
+// The Stream's passes parse the file again after it.
+func (s *Stream) Close() {
+	s.replay.close()
+	s.replay = nil
 }
 
 // ErrChangedWhileRead is the cause of a pass that did not see the rows
@@ -54,10 +62,11 @@ func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error)
 	if err != nil {
 		return nil, err
 	}
-	src, err := openScanner(path, tf)
+	scan, err := openScanner(path, tf)
 	if err != nil {
 		return nil, err
 	}
+	src := newAheadSource(scan)
 	defer src.Close()
 	t := &Table{Path: path, Text: tf}
 	if tf.Encoding != "UTF-8" {
@@ -215,12 +224,41 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	for i, c := range cols {
 		out[i] = &c.Column
 	}
+	skip := 0 // chunks already given from a replay that broke off
+	if s.replay.matches(names, size) {
+		played, err := s.replay.play(cols, out, each)
+		if !errors.Is(err, errBadReplay) {
+			return err
+		}
+		// Unreadable (a full or failing disk): parse the file, going on
+		// after the chunks already given.
+		s.Close()
+		skip = played
+		for _, c := range cols {
+			c.Numbers, c.Texts, c.Missing = c.Numbers[:0], c.Texts[:0], c.Missing[:0]
+		}
+	}
+	var rec *replay
+	if s.replay == nil && skip == 0 {
+		rec = newReplay(names, size)
+		defer func() {
+			if rec != nil && s.replay != rec {
+				rec.close()
+			}
+		}()
+	}
 	var rows []int
 	flush := func() error {
 		if len(rows) == 0 {
 			return nil
 		}
-		if err := each(rows, out); err != nil {
+		if rec != nil && !rec.record(rows, out) {
+			rec.close()
+			rec = nil
+		}
+		if skip > 0 {
+			skip--
+		} else if err := each(rows, out); err != nil {
 			return err
 		}
 		rows = rows[:0]
@@ -262,6 +300,9 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	}
 	if seen != s.Rows {
 		return &Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: fmt.Sprintf("%d data rows were read first, %d now", s.Rows, seen)}
+	}
+	if rec != nil && rec.finish() {
+		s.replay = rec
 	}
 	return nil
 }

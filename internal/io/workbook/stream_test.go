@@ -80,6 +80,10 @@ func messyCSV(rng *rand.Rand, rows int, delim string) []byte {
 // gives every column the kind, levels and distinct values Read gives it,
 // and every cell Read's value, text and missing reason.
 func TestStreamMatchesRead(t *testing.T) {
+	// Batches of a few rows, so that the survey's read-ahead crosses
+	// batches often.
+	defer func(n int) { aheadRows = n }(aheadRows)
+	aheadRows = 5
 	dir := t.TempDir()
 	rng := rand.New(rand.NewPCG(3, 9))
 	for n := 0; n < 60; n++ {
@@ -116,6 +120,19 @@ func compareStream(t *testing.T, path string, opts Options) {
 		}
 		names = append(names, wc.Name)
 	}
+	defer s.Close()
+	// The first pass parses the file and keeps a replay; the second plays
+	// it back; both must give Read's cells.
+	for pass := range 2 {
+		if pass == 1 && !s.replay.matches(names, 7) {
+			t.Fatalf("%s: no replay after the first pass", path)
+		}
+		comparePass(t, s, want, names, path)
+	}
+}
+
+func comparePass(t *testing.T, s *Stream, want *Table, names []string, path string) {
+	t.Helper()
 	at := 0
 	err := s.Pass(context.Background(), names, 7, func(rows []int, cols []*Column) error {
 		for r, num := range rows {
@@ -258,4 +275,86 @@ func TestStreamFileChanged(t *testing.T) {
 	if !errors.Is(err, ErrChangedWhileRead) {
 		t.Errorf("got %v, want ErrChangedWhileRead", err)
 	}
+}
+
+// TestReplayFallsBack checks the replay's edges: a first pass that ends
+// early keeps none; a pass over other columns parses the file; a replay
+// that does not read back (a damaged temporary file) is dropped and the
+// pass parses the file, giving Read's cells all the same.
+func TestReplayFallsBack(t *testing.T) {
+	dir := t.TempDir()
+	rng := rand.New(rand.NewPCG(5, 5))
+	path := filepath.Join(dir, "messy.csv")
+	var want *Table
+	for want == nil { // a messy file that reads (some have ragged rows)
+		if err := os.WriteFile(path, messyCSV(rng, 300, ","), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		want, _ = Read(context.Background(), path, Options{})
+	}
+	s, err := OpenStream(context.Background(), path, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
+	var names []string
+	for _, c := range want.Columns {
+		names = append(names, c.Name)
+	}
+	stop := errors.New("stop")
+	if err := s.Pass(context.Background(), names, 7, func([]int, []*Column) error { return stop }); err != stop {
+		t.Fatalf("stopped pass: %v", err)
+	}
+	if s.replay != nil {
+		t.Fatal("a pass that ended early kept a replay")
+	}
+	comparePass(t, s, want, names, path)
+	if !s.replay.matches(names, 7) || s.replay.matches(names[:1], 7) || s.replay.matches(names, 8) {
+		t.Fatal("the replay does not match the pass it recorded, or matches another")
+	}
+	if s.replay.path != "" {
+		t.Errorf("the replay file %s was not removed while open", s.replay.path)
+	}
+	chunks := 0
+	if err := s.Pass(context.Background(), names[:1], 7, func([]int, []*Column) error { chunks++; return nil }); err != nil || chunks != (want.Len()+6)/7 {
+		t.Fatalf("a pass over one column: %d chunks, %v", chunks, err)
+	}
+	// Damage the replay: cut it in the middle of a chunk, and where a
+	// chunk ends.
+	chunkEnd := int64(0)
+	for _, cut := range []string{"middle", "end of a chunk"} {
+		info, err := s.replay.f.Stat()
+		if err != nil {
+			t.Fatal(err)
+		}
+		size := info.Size() / 2
+		if cut == "end of a chunk" {
+			size = chunkEnd
+		}
+		if err := s.replay.f.Truncate(size); err != nil {
+			t.Fatal(err)
+		}
+		comparePass(t, s, want, names, path)
+		if s.replay != nil {
+			t.Fatalf("cut at the %s: the damaged replay was kept", cut)
+		}
+		comparePass(t, s, want, names, path) // records anew
+		if !s.replay.matches(names, 7) {
+			t.Fatal("no new replay after a damaged one")
+		}
+		// Where the second chunk ends: the replay's size after two.
+		rec := newReplay(names, 7)
+		n := 0
+		if err := s.Pass(context.Background(), names, 7, func(rows []int, cols []*Column) error {
+			if n++; n <= 2 {
+				rec.record(rows, cols)
+			}
+			return nil
+		}); err != nil {
+			t.Fatal(err)
+		}
+		chunkEnd = rec.bytes
+		rec.close()
+	}
+	comparePass(t, s, want, names, path)
 }

@@ -25,9 +25,10 @@ func ResultsPathFor(src string) string {
 	return filepath.Join(dir, strings.TrimSuffix(base, filepath.Ext(base))+" results.xlsx")
 }
 
-// writeBesideText writes a new workbook holding the text file's data on
-// a sheet of its own (numbers as numbers, as the reader understood them)
-// and the results sheet. The text file itself is only read.
+// writeBesideText writes a new workbook holding the results sheet and,
+// as opts.CopyData says, the text file's data on a sheet of its own
+// (numbers as numbers, as the reader understood them). The text file
+// itself is only read.
 func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Written, error) {
 	target := opts.CopyTo
 	if target == "" {
@@ -39,15 +40,6 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	if lock := lockFile(target); lock != "" {
 		return nil, &Error{Path: target, Cause: ErrOpenElsewhere, Detail: "a lock file is beside it: " + filepath.Base(lock)}
 	}
-	tf, err := sniffText(src)
-	if err != nil {
-		return nil, err
-	}
-	rows, err := openScanner(src, tf)
-	if err != nil {
-		return nil, err
-	}
-	defer rows.Close()
 	name := cleanSheetName(sheet.Name)
 	if strings.EqualFold(name, DataSheetName) {
 		name = DefaultSheetName
@@ -94,7 +86,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	defer os.Remove(tmp)
 	cut := 0
 	if w.DataNotCopied == 0 {
-		cut, err = spliceDataSheet(tmp, rows, tf.DecimalComma)
+		cut, err = copyData(src, tmp)
 	}
 	if err != nil {
 		var e *Error
@@ -122,6 +114,21 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		return nil, err
 	}
 	return w, nil
+}
+
+// copyData puts the text file's data on the data sheet of the workbook
+// at tmp (spliceDataSheet).
+func copyData(src, tmp string) (int, error) {
+	tf, err := sniffText(src)
+	if err != nil {
+		return 0, err
+	}
+	rows, err := openScanner(src, tf)
+	if err != nil {
+		return 0, err
+	}
+	defer rows.Close()
+	return spliceDataSheet(tmp, rows, tf.DecimalComma)
 }
 
 // countLines counts the lines of the file at path, stopping once they
