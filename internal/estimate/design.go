@@ -178,27 +178,44 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	}
 
 	ds := &design{rowsRead: n, used: make([]int, 0, n)}
-	countAt := map[[2]string]int{}
-	for i := 0; i < n; i++ {
-		reason, kind := "", ""
-		var at roleColumn
-		for _, rc := range checks {
-			if reason, kind = rc.problem(i); reason != "" {
-				at = rc
-				break
+	// The rows are checked in blocks in parallel, each block listing its
+	// dropped rows; the lists are then read in row order.
+	type drop struct {
+		row          int
+		at           roleColumn
+		reason, kind string
+	}
+	drops := make([][]drop, numBlocks(n, blockRows))
+	forRows(n, blockRows, func(b, from, to int) {
+		for i := from; i < to; i++ {
+			for _, rc := range checks {
+				if reason, kind := rc.problem(i); reason != "" {
+					drops[b] = append(drops[b], drop{i, rc, reason, kind})
+					break
+				}
 			}
 		}
-		if reason == "" {
-			ds.used = append(ds.used, i)
-			continue
+	})
+	countAt := map[[2]string]int{}
+	for b, list := range drops {
+		next := b * blockRows
+		for _, dr := range list {
+			for ; next < dr.row; next++ {
+				ds.used = append(ds.used, next)
+			}
+			next = dr.row + 1
+			at := dr.at
+			ds.dropped = append(ds.dropped, DroppedRow{Row: d.label(dr.row), Column: at.col.Name, Reason: dr.reason})
+			key := [2]string{at.col.Name, dr.kind}
+			if j, ok := countAt[key]; ok {
+				ds.counts[j].Rows++
+			} else {
+				countAt[key] = len(ds.counts)
+				ds.counts = append(ds.counts, DropCount{Column: at.col.Name, Reason: countReason(at, dr.kind), Rows: 1})
+			}
 		}
-		ds.dropped = append(ds.dropped, DroppedRow{Row: d.label(i), Column: at.col.Name, Reason: reason})
-		key := [2]string{at.col.Name, kind}
-		if j, ok := countAt[key]; ok {
-			ds.counts[j].Rows++
-		} else {
-			countAt[key] = len(ds.counts)
-			ds.counts = append(ds.counts, DropCount{Column: at.col.Name, Reason: countReason(at, kind), Rows: 1})
+		for ; next < min(n, (b+1)*blockRows); next++ {
+			ds.used = append(ds.used, next)
 		}
 	}
 	if len(ds.used) == 0 {
@@ -312,9 +329,21 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 		}
 		return nil
 	}
+	// Counted in blocks in parallel; counts do not depend on the order in
+	// which the blocks are added.
+	parts := make([]map[string]int, numBlocks(ds.n, blockRows))
+	forRows(ds.n, blockRows, func(b, from, to int) {
+		m := map[string]int{}
+		for _, i := range ds.used[from:to] {
+			m[c.key(i)]++
+		}
+		parts[b] = m
+	})
 	count := map[string]int{}
-	for _, i := range ds.used {
-		count[c.key(i)]++
+	for _, m := range parts {
+		for l, v := range m {
+			count[l] += v
+		}
 	}
 	ds.levels = sortedLevels(count)
 	if m.Kind == ModeratorBinary && len(ds.levels) > 2 {
@@ -338,9 +367,11 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 		ds.ref = largestLevel(ds.levels, count)
 	}
 	ds.modLevel = make([]int, ds.n)
-	for r, i := range ds.used {
-		ds.modLevel[r] = index[c.key(i)]
-	}
+	forRows(ds.n, blockRows, func(_, from, to int) {
+		for r := from; r < to; r++ {
+			ds.modLevel[r] = index[c.key(ds.used[r])]
+		}
+	})
 	return nil
 }
 

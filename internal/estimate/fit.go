@@ -96,15 +96,20 @@ func (ds *design) check(d *Data, s Spec) error {
 			return fail(ErrConstant, mcol, fmt.Sprintf("The moderator %q is %s in every row used, so there is nothing to compare. Pick a moderator that varies.", mcol, formatNumber(ds.modValue[0])))
 		}
 		if binaryT {
-			for arm, name := range []string{"untreated", "treated"} {
-				var vals []float64
-				for r, t := range ds.treat {
-					if int(t) == arm {
-						vals = append(vals, ds.modValue[r])
-					}
+			// Both arms have rows: the treatment is 0/1 and not constant.
+			var first [2]float64
+			var seen, varies [2]bool
+			for r, t := range ds.treat {
+				arm, m := int(t), ds.modValue[r]
+				if !seen[arm] {
+					seen[arm], first[arm] = true, m
+				} else if m != first[arm] {
+					varies[arm] = true
 				}
-				if constant(vals) {
-					return fail(ErrNoContrast, mcol, fmt.Sprintf("The moderator %q never varies among %s rows (it is always %s), so the interaction cannot be estimated. The moderator must take several values in both arms.", mcol, name, formatNumber(vals[0])))
+			}
+			for arm, name := range []string{"untreated", "treated"} {
+				if !varies[arm] {
+					return fail(ErrNoContrast, mcol, fmt.Sprintf("The moderator %q never varies among %s rows (it is always %s), so the interaction cannot be estimated. The moderator must take several values in both arms.", mcol, name, formatNumber(first[arm])))
 				}
 			}
 		}
@@ -112,33 +117,40 @@ func (ds *design) check(d *Data, s Spec) error {
 		if len(ds.levels) < 2 {
 			return fail(ErrConstant, mcol, fmt.Sprintf("The moderator %q has only one group (%q) among the rows used, so there is nothing to compare. Pick a moderator with at least two groups.", mcol, ds.levels[0]))
 		}
+		// One pass gathers each group's rows, treated rows and whether
+		// its treatment varies; the rows of a group with a problem are
+		// listed only then.
+		groups := make([]groupStats, len(ds.levels))
+		for r, lev := range ds.modLevel {
+			groups[lev].add(ds.treat[r])
+		}
+		members := func(j int) []int {
+			var m []int
+			for r, lev := range ds.modLevel {
+				if lev == j {
+					m = append(m, label(r))
+				}
+			}
+			return m
+		}
 		var problems []string
 		var rows []int
 		for j, l := range ds.levels {
-			var n, treated int
-			var tvals []float64
-			var members []int
-			for r, lev := range ds.modLevel {
-				if lev == j {
-					n++
-					treated += int(ds.treat[r])
-					tvals = append(tvals, ds.treat[r])
-					members = append(members, label(r))
-				}
-			}
+			g := groups[j]
+			n, treated := g.n, g.treated
 			switch {
 			case n == 1:
-				problems = append(problems, fmt.Sprintf("group %q has only 1 row (row %d)", l, members[0]))
+				problems = append(problems, fmt.Sprintf("group %q has only 1 row (row %d)", l, members(j)[0]))
 			case binaryT && treated == n:
 				problems = append(problems, fmt.Sprintf("in group %q all %d rows are treated", l, n))
 			case binaryT && treated == 0:
 				problems = append(problems, fmt.Sprintf("in group %q none of the %d rows is treated", l, n))
-			case !binaryT && constant(tvals):
-				problems = append(problems, fmt.Sprintf("in group %q the treatment is %s in all %d rows", l, formatNumber(tvals[0]), n))
+			case !binaryT && !g.tVaries:
+				problems = append(problems, fmt.Sprintf("in group %q the treatment is %s in all %d rows", l, formatNumber(g.firstT), n))
 			default:
 				continue
 			}
-			rows = append(rows, members...)
+			rows = append(rows, members(j)...)
 		}
 		if problems != nil {
 			return fail(ErrNoContrast, mcol, fmt.Sprintf("The treatment's effect cannot be estimated in every group of %q: %s. Each group needs both treated and untreated rows; merge small groups with a neighbour or leave them out.", mcol, strings.Join(problems, "; ")), rows...)

@@ -94,6 +94,67 @@ func factorQR(x []float64, n, k int) *qrFactor {
 	return q
 }
 
+// factorQRy factors [X y] (x n×k row-major) as factorQR does X, in the
+// same chunks and blocks, but keeps no reflectors: it returns the
+// factorization of X without them (R0, D, P and R2, enough for everything
+// but refinement, and the same to the bit as factorQR's for up to
+// blockRows rows) and Qᵀy, from which b = D⁻¹·P·R2⁻¹·Q2ᵀ·Qᵀy. Householder
+// QR works column by column, so the last column changes nothing in the
+// others. Not keeping the reflectors saves a copy of X.
+func factorQRy(x, y []float64, n, k int) (*qrFactor, []float64) {
+	k1 := k + 1
+	tri := make([][]float64, numBlocks(n, blockRows))
+	forBlocks(n, blockRows, func() func(b, from, to int) {
+		v := make([]float64, chunkRows*k1)
+		tau := make([]float64, k1)
+		return func(b, from, to int) {
+			r := make([]float64, k1*k1)
+			for start := from; start < to; start += chunkRows {
+				rows := min(chunkRows, to-start)
+				c := qrChunk{rows: rows, v: v[:rows*k1], tau: tau}
+				for i := 0; i < rows; i++ {
+					row := x[(start+i)*k : (start+i+1)*k]
+					for j, val := range row {
+						c.v[j*rows+i] = val
+					}
+					c.v[k*rows+i] = y[start+i]
+				}
+				absorb(r, k1, &c)
+			}
+			tri[b] = r
+		}
+	})
+	big := &qrFactor{n: n, k: k1}
+	for b, t := range tri {
+		big.addBlock(b, t)
+	}
+	q, qty := big.splitAugmented()
+	q.pivot()
+	return q, qty
+}
+
+// splitAugmented splits the first-stage triangle of [X y] into X's, R0,
+// and Qᵀy.
+func (big *qrFactor) splitAugmented() (*qrFactor, []float64) {
+	k1 := big.k
+	k := k1 - 1
+	q := &qrFactor{n: big.n, k: k, r0: make([]float64, k*k)}
+	qty := make([]float64, k)
+	for i := 0; i < k; i++ {
+		copy(q.r0[i*k:(i+1)*k], big.r0[i*k1:i*k1+k])
+		qty[i] = big.r0[i*k1+k]
+	}
+	return q, qty
+}
+
+// solveQty returns b = D⁻¹·P·R2⁻¹·Q2ᵀ·z from z = Qᵀy (factorQRy).
+func (q *qrFactor) solveQty(qty []float64) []float64 {
+	z := append([]float64(nil), qty...)
+	q.applyQ2T(z)
+	q.solveR(z)
+	return q.fromScaled(z)
+}
+
 // addBlock takes block b's triangle t into R0: as R0 for the first block,
 // else by reducing t stacked under R0, its reflectors kept in merges[b].
 func (q *qrFactor) addBlock(b int, t []float64) {

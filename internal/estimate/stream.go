@@ -98,10 +98,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 		return nil, needsMemory(fmt.Sprintf("the model's columns are nearly collinear (condition estimate %.3g), and the solution must be refined against the whole data", q.cond()))
 	}
 	f := &lsFit{n: ds.n, k: ds.k, qr: q}
-	f.coef = append([]float64(nil), st.qty...)
-	q.applyQ2T(f.coef)
-	q.solveR(f.coef)
-	f.coef = q.fromScaled(f.coef)
+	f.coef = q.solveQty(st.qty)
 	f.bread = f.inverseCrossProduct()
 
 	for range 2 {
@@ -200,6 +197,16 @@ type groupStats struct {
 	n, treated int
 	firstT     float64
 	tVaries    bool
+}
+
+// add counts a row of the group with treatment t.
+func (g *groupStats) add(t float64) {
+	if g.n == 0 {
+		g.firstT = t
+	}
+	g.n++
+	g.treated += int(t)
+	g.tVaries = g.tVaries || t != g.firstT
 }
 
 // keyCache remembers the category key of numeric cells, so that a numeric
@@ -376,12 +383,10 @@ func (st *stream) survey(d *Data) error {
 		st.modCount[key]++
 		g := st.modStats[key]
 		if g == nil {
-			g = &groupStats{firstT: t}
+			g = &groupStats{}
 			st.modStats[key] = g
 		}
-		g.n++
-		g.treated += int(t)
-		g.tVaries = g.tVaries || t != g.firstT
+		g.add(t)
 		for j, ci := range st.iControls {
 			if cc := st.controlCount[j]; cc != nil {
 				cc[d.Columns[ci].Text[i]]++
@@ -703,15 +708,7 @@ func (st *stream) endBlock() {
 func (st *stream) finishFactor() {
 	st.flushBlock()
 	st.endBlock()
-	k := st.ds.k
-	big := st.qr.r0
-	q := &qrFactor{n: st.ds.n, k: k, r0: make([]float64, k*k)}
-	st.qty = make([]float64, k)
-	for i := 0; i < k; i++ {
-		copy(q.r0[i*k:(i+1)*k], big[i*(k+1):i*(k+1)+k])
-		st.qty[i] = big[i*(k+1)+k]
-	}
-	st.qr = q
+	st.qr, st.qty = st.qr.splitAugmented()
 }
 
 // startResiduals readies the residual pass for the coefficients of f.
