@@ -115,3 +115,44 @@ func TestFitStreamEqualsFitBlocks(t *testing.T) {
 		})
 	}
 }
+
+// TestLeverageIsSolveRT checks that leverage, which solves four rows side
+// by side, gives for every row exactly what solveRT gives it alone (as the
+// streamed fit computes it), on blocks whose ends fall inside a group of
+// four.
+func TestLeverageIsSolveRT(t *testing.T) {
+	n := 2*blockRows + 3
+	d := streamData(n)
+	s, err := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical},
+		Controls: []string{"c1", "c2", "kind"}}.withDefaults()
+	if err != nil {
+		t.Fatal(err)
+	}
+	ds, err := buildDesign(d, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ds.n%4 == 0 {
+		t.Fatalf("%d rows used: a multiple of four", ds.n)
+	}
+	f, aliased := fitLS(ds.x, ds.y, ds.n, ds.k)
+	if aliased != nil {
+		t.Fatal(aliased)
+	}
+	h := f.leverage()
+	k, q := f.k, f.qr
+	u := make([]float64, k)
+	for i := range ds.n {
+		for j, p := range q.perm {
+			u[j] = ds.x[i*k+p] / q.d[p]
+		}
+		q.solveRT(u)
+		var want float64
+		for _, v := range u {
+			want += v * v
+		}
+		if h[i] != want {
+			t.Fatalf("row %d: leverage %.17g, solveRT %.17g", i, h[i], want)
+		}
+	}
+}
