@@ -2,6 +2,7 @@ package estimate
 
 import (
 	"math"
+	"runtime"
 
 	"gonum.org/v1/gonum/blas"
 	"gonum.org/v1/gonum/blas/blas64"
@@ -311,33 +312,24 @@ func (f *lsFit) sandwich(omega []float64) []float64 {
 
 // clusterSandwich returns B·(Σ_g s_g s_gᵀ)·B with the cluster score
 // s_g = Σ_{i∈g} xᵢeᵢ (Liang & Zeger 1986). cluster[i] is in [0, g).
-// The rows are sorted by cluster (stably, so each score adds its rows in
-// row order) and the clusters' scores computed in parallel.
+// The clusters are split into as many ranges as there are cores, and each
+// range's goroutine reads every row in order and adds those of its
+// clusters: each score adds its rows in row order whatever the split, and
+// the rows are read in order (sorting them by cluster would make every
+// row a cache miss).
 func (f *lsFit) clusterSandwich(cluster []int, g int) []float64 {
 	k := f.k
-	first := make([]int, g+1) // the rows of cluster c are order[first[c]:first[c+1]]
-	for _, c := range cluster {
-		first[c+1]++
-	}
-	for c := 0; c < g; c++ {
-		first[c+1] += first[c]
-	}
-	order := make([]int32, len(cluster))
-	next := append([]int(nil), first[:g]...)
-	for i, c := range cluster {
-		order[next[c]] = int32(i)
-		next[c]++
-	}
 	scores := make([]float64, g*k)
-	forRows(g, clusterBlock, func(_, from, to int) {
-		for c := from; c < to; c++ {
+	forRows(g, numBlocks(g, runtime.GOMAXPROCS(0)), func(_, from, to int) {
+		for i, c := range cluster {
+			if c < from || c >= to {
+				continue
+			}
+			e := f.resid[i]
+			row := f.x[i*k : (i+1)*k]
 			s := scores[c*k : (c+1)*k]
-			for _, i := range order[first[c]:first[c+1]] {
-				e := f.resid[i]
-				row := f.x[int(i)*k : (int(i)+1)*k]
-				for j, v := range row {
-					s[j] += v * e
-				}
+			for j, v := range row {
+				s[j] += v * e
 			}
 		}
 	})
@@ -346,10 +338,6 @@ func (f *lsFit) clusterSandwich(cluster []int, g int) []float64 {
 	blas64.Gemm(blas.Trans, blas.NoTrans, 1, sg, sg, 0, meat)
 	return f.wrap(meat.Data)
 }
-
-// clusterBlock is the number of clusters whose scores one goroutine takes
-// at a time.
-const clusterBlock = 64
 
 // wrap returns B·M·B, symmetrised.
 func (f *lsFit) wrap(m []float64) []float64 {
