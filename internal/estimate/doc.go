@@ -13,7 +13,10 @@
 // windows. Bad data returns an *Error that says, in plain words, what is
 // wrong and what to do; it never panics.
 //
-// The fit is a pivoted Householder QR with iterative refinement (qr.go);
+// The fit is a pivoted Householder QR (qr.go), refined iteratively when
+// its error bound asks for it (lsq.go), its work on rows split into fixed
+// blocks run on all cores with the same results on any number of them
+// (parallel.go);
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
 // adjustments in adjust.go and screen.go, the wild cluster bootstrap in
