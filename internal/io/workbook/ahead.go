@@ -1,7 +1,9 @@
 package workbook
 
 import (
+	"errors"
 	"io"
+	"math"
 	"unsafe"
 )
 
@@ -9,8 +11,9 @@ import (
 // ahead of the caller, so that splitting the text into cells and taking
 // the cells in (a survey, a table) run side by side on two cores. The
 // rows and cells are the scanner's, in the same order, with the same
-// errors at the same place; a batch's texts live in one block of bytes
-// until the caller has moved two batches on.
+// errors at the same place. A batch hands over only the cells' bytes and
+// where they end: rebuilding a row's cells on the caller's side is
+// cheaper than moving whole cells from one core's cache to the other's.
 type aheadSource struct {
 	scan  *csvScanner
 	ready chan *rowBatch
@@ -19,24 +22,30 @@ type aheadSource struct {
 	done  chan struct{}
 	cur   *rowBatch
 	next  int // the row of cur to give next
+	cells []rawCell
 	err   error
 }
 
-// rowBatch is a run of rows: row k's cells are cells[ends[k-1]:ends[k]].
+// rowBatch is a run of rows; row k's cells are numbers rows[k-1].cells
+// to rows[k].cells of cols and ends, their texts ending at ends in
+// arena. The scanner gives every cell of a row the row's first line.
 type rowBatch struct {
-	nums  []int
-	ends  []int
-	cells []rawCell
-	offs  []int // each cell's text's start in arena
+	rows  []aheadRow
+	cols  []int32
+	ends  []int32
 	arena []byte
 	err   error // what the scanner said after the last row (io.EOF at the end)
 }
 
+type aheadRow struct {
+	num, line, cells int
+}
+
 // aheadRows is how many rows a batch holds (a variable for tests).
-var aheadRows = 2048
+var aheadRows = 256
 
 func newAheadSource(scan *csvScanner) *aheadSource {
-	a := &aheadSource{scan: scan, ready: make(chan *rowBatch, 2), spare: make(chan *rowBatch, 4),
+	a := &aheadSource{scan: scan, ready: make(chan *rowBatch, 4), spare: make(chan *rowBatch, 6),
 		stop: make(chan struct{}), done: make(chan struct{})}
 	go a.fill()
 	return a
@@ -53,30 +62,24 @@ func (a *aheadSource) fill() {
 		default:
 			b = &rowBatch{}
 		}
-		b.nums, b.ends, b.cells, b.offs, b.arena, b.err = b.nums[:0], b.ends[:0], b.cells[:0], b.offs[:0], b.arena[:0], nil
-		for len(b.nums) < aheadRows {
+		b.rows, b.cols, b.ends, b.arena, b.err = b.rows[:0], b.cols[:0], b.ends[:0], b.arena[:0], nil
+		for len(b.rows) < aheadRows {
 			num, cells, err := a.scan.Next()
+			if err == nil && len(b.arena) > math.MaxInt32-(1<<28) {
+				err = errors.New("a batch of rows too long") // not reached: a cell is at most a few megabytes
+			}
 			if err != nil {
 				b.err = err
 				break
 			}
-			b.nums = append(b.nums, num)
+			line := 0
 			for _, c := range cells {
-				b.offs = append(b.offs, len(b.arena))
+				line = c.Line
 				b.arena = append(b.arena, c.Text...)
-				b.cells = append(b.cells, c)
+				b.cols = append(b.cols, int32(c.Col))
+				b.ends = append(b.ends, int32(len(b.arena)))
 			}
-			b.ends = append(b.ends, len(b.cells))
-		}
-		// The texts point into the arena only now that it has stopped
-		// growing.
-		for i := range b.cells {
-			n := len(b.cells[i].Text)
-			if n == 0 {
-				b.cells[i].Text = ""
-				continue
-			}
-			b.cells[i].Text = unsafe.String(&b.arena[b.offs[i]], n)
+			b.rows = append(b.rows, aheadRow{num: num, line: line, cells: len(b.cols)})
 		}
 		select {
 		case a.ready <- b:
@@ -91,7 +94,7 @@ func (a *aheadSource) fill() {
 
 // Next implements rowSource.
 func (a *aheadSource) Next() (int, []rawCell, error) {
-	for a.cur == nil || a.next == len(a.cur.nums) {
+	for a.cur == nil || a.next == len(a.cur.rows) {
 		if a.err != nil {
 			return 0, nil, a.err
 		}
@@ -112,13 +115,32 @@ func (a *aheadSource) Next() (int, []rawCell, error) {
 		}
 		a.cur, a.next = b, 0
 	}
-	k := a.next
+	b, k := a.cur, a.next
 	a.next++
-	start := 0
+	first, text := 0, 0
 	if k > 0 {
-		start = a.cur.ends[k-1]
+		first = b.rows[k-1].cells
+		if first > 0 {
+			text = int(b.ends[first-1])
+		}
 	}
-	return a.cur.nums[k], a.cur.cells[start:a.cur.ends[k]], nil
+	r := b.rows[k]
+	n := r.cells - first
+	if cap(a.cells) < n {
+		a.cells = make([]rawCell, n, 2*n)
+	}
+	cells := a.cells[:n]
+	for j := range cells {
+		i := first + j
+		end := int(b.ends[i])
+		c := &cells[j]
+		c.Col, c.Type, c.Line, c.Text = int(b.cols[i]), cellText, r.line, ""
+		if end > text {
+			c.Text = unsafe.String(&b.arena[text], end-text)
+		}
+		text = end
+	}
+	return r.num, cells, nil
 }
 
 // Close stops the goroutine and closes the file.

@@ -206,11 +206,6 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	if info, err := os.Stat(s.Outline.Path); err != nil || info.Size() != s.file.Size() || !info.ModTime().Equal(s.file.ModTime()) {
 		return &Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: "it was saved again while it was being analyzed; run the analysis again"}
 	}
-	src, err := openScanner(s.Outline.Path, s.tf)
-	if err != nil {
-		return err
-	}
-	defer src.Close()
 	cols := make([]*chunkColumn, len(names))
 	for i, name := range names {
 		oc := s.Outline.Column(name)
@@ -238,6 +233,12 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 			c.Numbers, c.Texts, c.Missing = c.Numbers[:0], c.Texts[:0], c.Missing[:0]
 		}
 	}
+	scan, err := openScanner(s.Outline.Path, s.tf)
+	if err != nil {
+		return err
+	}
+	src := newAheadSource(scan)
+	defer src.Close()
 	var rec *replay
 	if s.replay == nil && skip == 0 {
 		rec = newReplay(names, size)
