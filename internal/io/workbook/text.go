@@ -3,6 +3,7 @@ package workbook
 import (
 	"bufio"
 	"bytes"
+	"encoding/binary"
 	"encoding/csv"
 	"errors"
 	"fmt"
@@ -138,6 +139,22 @@ func sniffText(path string) (*TextFormat, error) {
 // scanEncoding reads the whole file: UTF-8 if every byte sequence is
 // valid, else Windows-1252 if no byte is one that code page leaves
 // unassigned, else not text. A zero byte means a binary file.
+// isASCII reports whether b holds only bytes below 0x80, eight at a time.
+func isASCII(b []byte) bool {
+	for len(b) >= 8 {
+		if binary.LittleEndian.Uint64(b)&0x8080808080808080 != 0 {
+			return false
+		}
+		b = b[8:]
+	}
+	for _, c := range b {
+		if c >= 0x80 {
+			return false
+		}
+	}
+	return true
+}
+
 func scanEncoding(path string, br *bufio.Reader, tf *TextFormat) error {
 	valid := true
 	var carry []byte
@@ -151,16 +168,20 @@ func scanEncoding(path string, br *bufio.Reader, tf *TextFormat) error {
 		if i := bytes.IndexByte(chunk, 0); i >= 0 {
 			return fail(path, ErrNotText, fmt.Sprintf("it contains a zero byte at line %d", line+bytes.Count(chunk[:i], []byte{'\n'})))
 		}
-		for _, c := range chunk {
-			if undefined1252[c] && bad1252 == 0 {
-				bad1252 = line
-			}
-			if c == '\n' {
-				line++
+		if bad1252 == 0 && !isASCII(chunk) {
+			for i, c := range chunk {
+				if undefined1252[c] {
+					bad1252 = line + bytes.Count(chunk[:i], []byte{'\n'})
+					break
+				}
 			}
 		}
+		line += bytes.Count(chunk, []byte{'\n'})
 		if valid {
-			data := append(carry, chunk...)
+			data := chunk
+			if len(carry) > 0 {
+				data = append(carry, chunk...)
+			}
 			// Keep an incomplete sequence at the end for the next chunk.
 			cut := len(data)
 			for k := 1; k <= 3 && k <= len(data); k++ {

@@ -3,6 +3,7 @@ package workbook
 import (
 	"context"
 	"errors"
+	"strconv"
 	"strings"
 	"testing"
 )
@@ -126,5 +127,28 @@ func TestCSVRagged(t *testing.T) {
 	var e *Error
 	if !errors.As(err, &e) || !errors.Is(err, ErrRaggedRow) || e.Cell != "line 3" {
 		t.Errorf("long row: %v", err)
+	}
+}
+
+// TestEncodingScanFarDown puts the one byte that is neither UTF-8 nor
+// Windows-1252 far below the first read, past many pure-ASCII blocks.
+func TestEncodingScanFarDown(t *testing.T) {
+	var b strings.Builder
+	b.WriteString("id,name\n")
+	for i := range 100_000 {
+		b.WriteString(strconv.Itoa(i) + ",plain\n")
+	}
+	b.WriteString("7,caf\xc3\n8,\x81x\n")
+	_, err := readText(t, "far.csv", b.String())
+	if err == nil || !strings.Contains(err.Error(), "the first byte that fits neither is on line 100003") {
+		t.Errorf("got %v", err)
+	}
+	for _, c := range []struct {
+		s    string
+		want bool
+	}{{"", true}, {"abc", true}, {"abcdefgh", true}, {"abcdefgh\x80", false}, {"\xffabcdefgh", false}, {"abcdefghijklmnop\xc3\xa9", false}} {
+		if got := isASCII([]byte(c.s)); got != c.want {
+			t.Errorf("isASCII(%q) = %v", c.s, got)
+		}
 	}
 }
