@@ -27,14 +27,16 @@ type aheadSource struct {
 }
 
 // rowBatch is a run of rows; row k's cells are numbers rows[k-1].cells
-// to rows[k].cells of cols and ends, their texts ending at ends in
-// arena. The scanner gives every cell of a row the row's first line.
+// to rows[k].cells of cols, starts and ends, their texts
+// arena[starts[i]:ends[i]]. The scanner gives every cell of a row the
+// row's first line.
 type rowBatch struct {
-	rows  []aheadRow
-	cols  []int32
-	ends  []int32
-	arena []byte
-	err   error // what the scanner said after the last row (io.EOF at the end)
+	rows   []aheadRow
+	cols   []int32
+	starts []int32
+	ends   []int32
+	arena  []byte
+	err    error // what the scanner said after the last row (io.EOF at the end)
 }
 
 type aheadRow struct {
@@ -62,9 +64,9 @@ func (a *aheadSource) fill() {
 		default:
 			b = &rowBatch{}
 		}
-		b.rows, b.cols, b.ends, b.arena, b.err = b.rows[:0], b.cols[:0], b.ends[:0], b.arena[:0], nil
+		b.rows, b.cols, b.starts, b.ends, b.arena, b.err = b.rows[:0], b.cols[:0], b.starts[:0], b.ends[:0], b.arena[:0], nil
 		for len(b.rows) < aheadRows {
-			num, cells, err := a.scan.Next()
+			line, err := a.scan.advance()
 			if err == nil && len(b.arena) > math.MaxInt32-(1<<28) {
 				err = errors.New("a batch of rows too long") // not reached: a cell is at most a few megabytes
 			}
@@ -72,14 +74,19 @@ func (a *aheadSource) fill() {
 				b.err = err
 				break
 			}
-			line := 0
-			for _, c := range cells {
-				line = c.Line
-				b.arena = append(b.arena, c.Text...)
-				b.cols = append(b.cols, int32(c.Col))
-				b.ends = append(b.ends, int32(len(b.arena)))
+			// The record's fields, the empty ones left out as Next leaves
+			// them out.
+			rec, base, prev := a.scan.record, int32(len(b.arena)), 0
+			b.arena = append(b.arena, rec[:a.scan.ends[len(a.scan.ends)-1]]...)
+			for j, end := range a.scan.ends {
+				if end > prev {
+					b.cols = append(b.cols, int32(j))
+					b.starts = append(b.starts, base+int32(prev))
+					b.ends = append(b.ends, base+int32(end))
+				}
+				prev = end
 			}
-			b.rows = append(b.rows, aheadRow{num: num, line: line, cells: len(b.cols)})
+			b.rows = append(b.rows, aheadRow{num: a.scan.row, line: line, cells: len(b.cols)})
 		}
 		select {
 		case a.ready <- b:
@@ -117,12 +124,9 @@ func (a *aheadSource) Next() (int, []rawCell, error) {
 	}
 	b, k := a.cur, a.next
 	a.next++
-	first, text := 0, 0
+	first := 0
 	if k > 0 {
 		first = b.rows[k-1].cells
-		if first > 0 {
-			text = int(b.ends[first-1])
-		}
 	}
 	r := b.rows[k]
 	n := r.cells - first
@@ -132,13 +136,9 @@ func (a *aheadSource) Next() (int, []rawCell, error) {
 	cells := a.cells[:n]
 	for j := range cells {
 		i := first + j
-		end := int(b.ends[i])
 		c := &cells[j]
-		c.Col, c.Type, c.Line, c.Text = int(b.cols[i]), cellText, r.line, ""
-		if end > text {
-			c.Text = unsafe.String(&b.arena[text], end-text)
-		}
-		text = end
+		c.Col, c.Type, c.Line = int(b.cols[i]), cellText, r.line
+		c.Text = unsafe.String(&b.arena[b.starts[i]], b.ends[i]-b.starts[i])
 	}
 	return r.num, cells, nil
 }

@@ -192,17 +192,36 @@ parseField:
 
 // Next implements rowSource, numbering rows as textSource does.
 func (s *csvScanner) Next() (int, []rawCell, error) {
+	line, err := s.advance()
+	if err != nil {
+		return 0, nil, err
+	}
+	s.cells = s.cells[:0]
+	prev := 0
+	for j, end := range s.ends {
+		if end > prev {
+			s.cells = append(s.cells, rawCell{Col: j, Type: cellText, Text: unsafe.String(&s.record[prev], end-prev), Line: line})
+		}
+		prev = end
+	}
+	return s.row, s.cells, nil
+}
+
+// advance reads the next record into s.record and s.ends (field j is
+// s.record[s.ends[j-1]:s.ends[j]]) and numbers its row (s.row), as Next
+// gives them; line is the line the record starts on.
+func (s *csvScanner) advance() (line int, err error) {
 	if err := s.readRecord(); err != nil {
 		if err == io.EOF {
-			return 0, nil, io.EOF
+			return 0, io.EOF
 		}
 		var pe *csv.ParseError
 		if errors.Is(err, errScannerRefused) || errors.As(err, &pe) {
-			return 0, nil, err
+			return 0, err
 		}
-		return 0, nil, &Error{Path: s.path, Cause: ErrNotText, Underlying: err}
+		return 0, &Error{Path: s.path, Cause: ErrNotText, Underlying: err}
 	}
-	line := s.fieldLine[0]
+	line = s.fieldLine[0]
 	if s.endLine > 0 && line > s.endLine+1 {
 		s.row += line - s.endLine - 1
 	} else if s.endLine == 0 && line > 1 {
@@ -215,15 +234,7 @@ func (s *csvScanner) Next() (int, []rawCell, error) {
 		start = s.ends[last-1]
 	}
 	s.endLine = s.fieldLine[last] + bytes.Count(s.record[start:s.ends[last]], []byte{'\n'})
-	s.cells = s.cells[:0]
-	prev := 0
-	for j, end := range s.ends {
-		if end > prev {
-			s.cells = append(s.cells, rawCell{Col: j, Type: cellText, Text: unsafe.String(&s.record[prev], end-prev), Line: line})
-		}
-		prev = end
-	}
-	return s.row, s.cells, nil
+	return line, nil
 }
 
 // scannedText reports the sources whose cells' texts live only until
