@@ -79,6 +79,18 @@ type roleColumn struct {
 	numeric bool
 }
 
+// fine reports whether row i can be used for this role, as problem
+// does, without wording why not: for the rows of the streamed fit's later
+// passes, whose reasons the survey has already taken.
+func (rc roleColumn) fine(i int) bool {
+	c := rc.col
+	if !c.IsNumeric() {
+		return c.Text[i] != ""
+	}
+	v := c.Num[i]
+	return !math.IsNaN(v) && !math.IsInf(v, 0) && (rc.role != "weight" || v > 0)
+}
+
 // problem says why row i cannot be used for this role, or "" if it can.
 func (rc roleColumn) problem(i int) (reason, kind string) {
 	c := rc.col

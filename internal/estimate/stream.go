@@ -14,11 +14,14 @@ import (
 // does not hold the rows in memory (FitStream).
 type Chunks interface {
 	// Pass calls each with successive chunks of the rows, from the first,
-	// the same rows in the same order at every pass. Every chunk has the
-	// same columns, with the same names and kinds. A chunk and its slices
-	// may be reused once each returns, so each keeps no part of them.
-	// Pass stops at the first error of each or of reading, and returns it.
-	Pass(ctx context.Context, each func(chunk *Data) error) error
+	// the same rows in the same order at every pass, one call at a time.
+	// Every chunk has the same columns, with the same names and kinds.
+	// A chunk stays each's until it calls the chunk's release, once, from
+	// any goroutine, during the call or after it (so that the fit can work
+	// on a few chunks at once); only then may Pass reuse the chunk and its
+	// slices. A chunk never released is never reused. Pass stops at the
+	// first error of each or of reading, and returns it.
+	Pass(ctx context.Context, each func(chunk *Data, release func()) error) error
 }
 
 // ErrNeedsMemory is the cause of a streamed fit that cannot finish without
@@ -75,14 +78,17 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 		return nil, needsMemory("a continuous moderator's percentiles need all its values")
 	}
 	st := &stream{s: s}
-	if err := src.Pass(ctx, st.survey); err != nil {
+	if err := src.Pass(ctx, func(d *Data, release func()) error {
+		defer release()
+		return st.survey(d)
+	}); err != nil {
 		return nil, err
 	}
 	ds, err := st.plan()
 	if err != nil {
 		return nil, err
 	}
-	if err := src.Pass(ctx, st.factor); err != nil {
+	if err := pass(ctx, src, &st.parts, st.factorRows, st.factor); err != nil {
 		return nil, err
 	}
 	if st.changed {
@@ -103,7 +109,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 
 	for range 2 {
 		st.startResiduals(f)
-		if err := src.Pass(ctx, st.residuals); err != nil {
+		if err := pass(ctx, src, &st.parts, st.residualRows, st.residuals); err != nil {
 			return nil, err
 		}
 		st.flushMeat()
@@ -159,16 +165,15 @@ type stream struct {
 	levelRows, levelTreated []int
 
 	// Factorization.
-	qr       *qrFactor // over K+1 columns until the pass ends, then K
-	block    []float64 // column-major, chunkRows × (K+1)
-	rows     int       // rows in block
-	tri      []float64 // the triangle of the current block of chunks (qr.go)
-	triDone  int       // chunks absorbed into tri
-	blocks   int       // blocks merged into the running triangle
-	qty      []float64 // Qᵀy, K entries
-	row      []float64
-	hash     *rowHash
-	clusters []int // the current row's cluster number, for the hash
+	qr      *qrFactor // over K+1 columns until the pass ends, then K
+	block   []float64 // column-major, chunkRows × (K+1)
+	rows    int       // rows in block
+	tri     []float64 // the triangle of the current block of chunks (qr.go)
+	triDone int       // chunks absorbed into tri
+	blocks  int       // blocks merged into the running triangle
+	qty     []float64 // Qᵀy, K entries
+	hash    *rowHash
+	parts   []*chunkPart // spare parts for the passes' chunks (streampipe.go)
 
 	sw, swy       float64
 	swyW          float64 // sum of the weighted outcome
@@ -187,7 +192,6 @@ type stream struct {
 	scores      []float64
 	meanY       float64 // of the outcome, weighted with the weights
 	meanYW      float64 // of √w·y, as checkExact takes it
-	u           []float64
 	leverageOne bool
 	changed     bool // a later pass met what the survey did not see
 }
@@ -214,18 +218,24 @@ func (g *groupStats) add(t float64) {
 type keyCache map[float64]string
 
 func (kc keyCache) key(c *Column, i int) string {
-	if c.Num == nil {
-		return c.Text[i]
-	}
-	v := c.Num[i]
-	if k, ok := kc[v]; ok {
-		return k
-	}
-	k := c.key(i)
-	if len(kc) < 1<<16 {
-		kc[v] = k
+	k, kept := kc.lookup(c, i)
+	if !kept && len(kc) < 1<<16 {
+		kc[c.Num[i]] = k
 	}
 	return k
+}
+
+// lookup returns the key of row i and whether there is nothing to
+// remember (text, or a number the cache holds). It changes nothing, so
+// that goroutines may share the cache after the survey.
+func (kc keyCache) lookup(c *Column, i int) (string, bool) {
+	if c.Num == nil {
+		return c.Text[i], true
+	}
+	if k, ok := kc[c.Num[i]]; ok {
+		return k, true
+	}
+	return c.key(i), false
 }
 
 // resolve finds the spec's columns in the first chunk.
@@ -290,45 +300,53 @@ func (st *stream) resolve(d *Data) error {
 }
 
 // roleChecks lists the chunk's columns in the order Fit checks them for
-// missing values (buildDesign).
-func (st *stream) roleChecks(d *Data) []roleColumn {
+// missing values (buildDesign), in checks' memory.
+func (st *stream) roleChecks(d *Data, checks []roleColumn) []roleColumn {
 	s := st.s
 	rc := func(i int, role string, numeric bool) roleColumn {
 		return roleColumn{col: &d.Columns[i], role: role, numeric: numeric}
 	}
-	st.checks = append(st.checks[:0], rc(st.iOut, "outcome", true),
+	checks = append(checks[:0], rc(st.iOut, "outcome", true),
 		rc(st.iTreat, "treatment", s.Treatment.Kind != TreatmentLabels),
 		rc(st.iMod, "moderator", false))
 	for _, i := range st.iControls {
-		st.checks = append(st.checks, rc(i, "control", false))
+		checks = append(checks, rc(i, "control", false))
 	}
 	if st.iClus >= 0 {
-		st.checks = append(st.checks, rc(st.iClus, "cluster", false))
+		checks = append(checks, rc(st.iClus, "cluster", false))
 	}
 	if st.iWeight >= 0 {
-		st.checks = append(st.checks, rc(st.iWeight, "weight", true))
+		checks = append(checks, rc(st.iWeight, "weight", true))
 	}
-	return st.checks
+	return checks
 }
 
-// usable reports whether row i of the chunk enters the fit; in the survey
-// (record), it also notes why a row does not.
-func (st *stream) usable(d *Data, checks []roleColumn, i int, record bool) bool {
+// usable reports whether row i of the chunk enters the fit.
+func usable(checks []roleColumn, i int) bool {
+	for _, rc := range checks {
+		if !rc.fine(i) {
+			return false
+		}
+	}
+	return true
+}
+
+// keep reports whether row i of the chunk enters the fit, as usable does,
+// and notes why when it does not (the survey).
+func (st *stream) keep(d *Data, checks []roleColumn, i int) bool {
 	for _, rc := range checks {
 		reason, kind := rc.problem(i)
 		if reason == "" {
 			continue
 		}
-		if record {
-			ds := st.ds
-			ds.dropped = append(ds.dropped, DroppedRow{Row: d.label(i), Column: rc.col.Name, Reason: reason})
-			key := [2]string{rc.col.Name, kind}
-			if j, ok := st.countAt[key]; ok {
-				ds.counts[j].Rows++
-			} else {
-				st.countAt[key] = len(ds.counts)
-				ds.counts = append(ds.counts, DropCount{Column: rc.col.Name, Reason: countReason(rc, kind), Rows: 1})
-			}
+		ds := st.ds
+		ds.dropped = append(ds.dropped, DroppedRow{Row: d.label(i), Column: rc.col.Name, Reason: reason})
+		key := [2]string{rc.col.Name, kind}
+		if j, ok := st.countAt[key]; ok {
+			ds.counts[j].Rows++
+		} else {
+			st.countAt[key] = len(ds.counts)
+			ds.counts = append(ds.counts, DropCount{Column: rc.col.Name, Reason: countReason(rc, kind), Rows: 1})
 		}
 		return false
 	}
@@ -359,10 +377,11 @@ func (st *stream) survey(d *Data) error {
 		return err
 	}
 	s, ds := st.s, st.ds
-	checks := st.roleChecks(d)
+	st.checks = st.roleChecks(d, st.checks)
+	checks := st.checks
 	for i := 0; i < n; i++ {
 		ds.rowsRead++
-		if !st.usable(d, checks, i, true) {
+		if !st.keep(d, checks, i) {
 			continue
 		}
 		y := d.Columns[st.iOut].Num[i]
@@ -412,17 +431,6 @@ func (st *stream) clusterNumber(c *Column, i int) int {
 		st.clusterByValue[c.Num[i]] = j
 	} else {
 		st.clusterByText[c.Text[i]] = j
-	}
-	return j
-}
-
-// knownCluster returns the number the survey gave row i's cluster, or
-// −1, noting the change, when the survey did not see it.
-func (st *stream) knownCluster(c *Column, i int) int {
-	j, ok := st.lookupCluster(c, i)
-	if !ok {
-		st.changed = true
-		return -1
 	}
 	return j
 }
@@ -505,12 +513,8 @@ func (st *stream) plan() (*design, error) {
 	st.qr = &qrFactor{n: ds.n, k: k + 1}
 	st.tri = make([]float64, (k+1)*(k+1))
 	st.block = make([]float64, chunkRows*(k+1))
-	st.row = make([]float64, k)
 	st.hash = newRowHash()
 	st.outcomeBinary = true
-	if st.iClus >= 0 {
-		st.clusters = make([]int, 1)
-	}
 	return ds, nil
 }
 
@@ -566,15 +570,16 @@ func (st *stream) terms() {
 	ds.k = len(ds.names)
 }
 
-// fill writes row i's model row into st.row, unweighted, as assemble does.
-func (st *stream) fill(d *Data, i int) {
-	ds, x := st.ds, st.row
+// fill writes row i's model row into x, unweighted, as assemble does,
+// and reports whether the survey saw its group and levels.
+func (st *stream) fill(d *Data, i int, x []float64) bool {
+	ds := st.ds
 	clear(x)
 	x[0] = 1
 	t := st.treatment(d, i)
 	x[ds.tCol] = t
-	level, ok := st.levelIndex[st.modKeys.key(&d.Columns[st.iMod], i)]
-	st.changed = st.changed || !ok
+	key, _ := st.modKeys.lookup(&d.Columns[st.iMod], i)
+	level, known := st.levelIndex[key]
 	m := 0
 	for j := range ds.levels {
 		if j == ds.ref {
@@ -595,53 +600,121 @@ func (st *stream) fill(d *Data, i int) {
 			x[st.controlCol[j]] = c.Num[i]
 			continue
 		}
-		st.changed = st.changed || st.controlCount[j][c.Text[i]] == 0
+		known = known && st.controlCount[j][c.Text[i]] != 0
 		for l, level := range levels {
 			if c.Text[i] == level {
 				x[st.controlCol[j]+l] = 1
 			}
 		}
 	}
+	return known
 }
 
-// weight returns row i's weight, 1 without weights.
-func (st *stream) weight(d *Data, i int) float64 {
+// designRows is the chunk's own work common to the later passes: the rows
+// that enter the fit, into p: their model rows (times √w with weights;
+// also without, in p.raw, when raw is set), outcomes, weights and
+// clusters.
+func (st *stream) designRows(w *chunkWorker, p *chunkPart, raw bool) error {
+	d, k := p.d, st.ds.k
+	n, err := d.rows()
+	if err != nil {
+		return err
+	}
+	weighted := st.iWeight >= 0
+	p.x, p.y, p.yw = grow(p.x, n*k), grow(p.y, n), grow(p.yw, n)
+	if weighted {
+		p.w = grow(p.w, n)
+	}
+	if raw {
+		p.raw = grow(p.raw, n*k)
+	}
+	if st.iClus >= 0 {
+		p.cluster = grow(p.cluster, n)
+	}
+	w.checks = st.roleChecks(d, w.checks)
+	out := d.Columns[st.iOut].Num
+	r := 0
+	for i := 0; i < n; i++ {
+		if !usable(w.checks, i) {
+			continue
+		}
+		x := p.x[r*k : (r+1)*k]
+		p.changed = !st.fill(d, i, x) || p.changed
+		y := out[i]
+		p.y[r], p.yw[r] = y, y
+		if raw {
+			copy(p.raw[r*k:(r+1)*k], x)
+		}
+		if weighted {
+			wi := d.Columns[st.iWeight].Num[i]
+			p.w[r] = wi
+			rw := math.Sqrt(wi)
+			p.yw[r] = rw * y
+			for j := range x {
+				x[j] *= rw
+			}
+		}
+		if st.iClus >= 0 {
+			c, ok := st.lookupCluster(&d.Columns[st.iClus], i)
+			if !ok {
+				c = -1
+				p.changed = true
+			}
+			p.cluster[r] = c
+		}
+		r++
+	}
+	p.n = r
+	return nil
+}
+
+// weights returns the part's weights, nil without weights.
+func (st *stream) weights(p *chunkPart) []float64 {
+	if st.iWeight < 0 {
+		return nil
+	}
+	return p.w
+}
+
+// weight returns the weight of the part's row r, 1 without weights.
+func (st *stream) weight(p *chunkPart, r int) float64 {
 	if st.iWeight < 0 {
 		return 1
 	}
-	return d.Columns[st.iWeight].Num[i]
+	return p.w[r]
 }
 
-// factor is the second pass: [√w·X √w·y] into the QR factorization.
-func (st *stream) factor(d *Data) error {
+// factorRows is the chunk's own work in the second pass.
+func (st *stream) factorRows(w *chunkWorker, p *chunkPart) error {
+	return st.designRows(w, p, st.iWeight >= 0)
+}
+
+// factor is the second pass, in chunk order: the hash of the rows, and
+// [√w·X √w·y] into the QR factorization.
+func (st *stream) factor(p *chunkPart) {
 	k := st.ds.k
-	var w []float64
+	raw := p.x
 	if st.iWeight >= 0 {
-		w = make([]float64, 1)
+		raw = p.raw
 	}
-	return st.usedRows(d, func(i int, y, wi float64) {
-		if w != nil {
-			w[0] = wi
-		}
-		if st.clusters != nil {
-			st.clusters[0] = st.knownCluster(&d.Columns[st.iClus], i)
-		}
-		st.hash.row(st.row, y, w, 0, st.clusters)
+	ws := st.weights(p)
+	var clusters []int
+	if st.iClus >= 0 {
+		clusters = p.cluster
+	}
+	st.changed = st.changed || p.changed
+	for r := 0; r < p.n; r++ {
+		y, wi := p.y[r], st.weight(p, r)
+		st.hash.row(raw[r*k:(r+1)*k], y, ws, r, clusters)
 		st.sw += wi
 		st.swy += wi * y
 		if y != 0 && y != 1 {
 			st.outcomeBinary = false
 		}
-		if w != nil {
-			r := math.Sqrt(wi)
-			y = r * y
-			for j := range st.row {
-				st.row[j] *= r
-			}
-		}
+		y = p.yw[r]
 		st.swyW += y
 		m := chunkRows
-		for j, v := range st.row {
+		for j, v := range p.x[r*k : (r+1)*k] {
 			st.block[j*m+st.rows] = v
 		}
 		st.block[k*m+st.rows] = y
@@ -649,25 +722,7 @@ func (st *stream) factor(d *Data) error {
 		if st.rows == chunkRows {
 			st.flushBlock()
 		}
-	})
-}
-
-// usedRows calls fn with each row of the chunk that enters the fit, its
-// outcome and its weight (1 without weights), its model row in st.row.
-func (st *stream) usedRows(d *Data, fn func(i int, y, w float64)) error {
-	n, err := d.rows()
-	if err != nil {
-		return err
 	}
-	checks := st.roleChecks(d)
-	for i := 0; i < n; i++ {
-		if !st.usable(d, checks, i, false) {
-			continue
-		}
-		st.fill(d, i)
-		fn(i, d.Columns[st.iOut].Num[i], st.weight(d, i))
-	}
-	return nil
 }
 
 // flushBlock absorbs the rows gathered into the current block's triangle,
@@ -729,62 +784,48 @@ func (st *stream) startResiduals(f *lsFit) {
 	if st.s.Variance == CR1 {
 		st.scores = make([]float64, len(st.ds.clusterLabels)*k)
 	}
-	st.u = make([]float64, k)
 	st.leverageOne = false
 }
 
-// residuals is the third pass: the residuals, their sums, the leverage and
-// the middle of the sandwich, as Fit's residuals, leverage, hcVariance and
-// clusterSandwich compute them, row for row.
-func (st *stream) residuals(d *Data) error {
+// residualRows is the chunk's own work in the residual pass: each row's
+// residual eᵢ in compensated arithmetic, and for HC0–HC3 its leverage and
+// its row of the middle of the sandwich, √ωᵢ·xᵢ, as Fit's residuals,
+// leverage and hcVariance compute them, row for row.
+func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
+	if err := st.designRows(w, p, false); err != nil {
+		return err
+	}
 	s, k, q := st.s, st.ds.k, st.qr
-	return st.usedRows(d, func(i int, y, wi float64) {
-		st.tss += wi * (y - st.meanY) * (y - st.meanY)
-		x := st.row
-		if st.iWeight >= 0 {
-			r := math.Sqrt(wi)
-			y = r * y
-			for j := range x {
-				x[j] *= r
-			}
-		}
-		st.tssW += (y - st.meanYW) * (y - st.meanYW)
+	hc := s.Variance != CR1 && s.Variance != Classical
+	p.e = grow(p.e, p.n)
+	if hc {
+		p.meat = grow(p.meat, p.n*k)
+		w.u = grow(w.u, k)
+	}
+	for r := 0; r < p.n; r++ {
+		x := p.x[r*k : (r+1)*k]
 		var a acc
-		a.add(y)
+		a.add(p.yw[r])
 		for j, v := range x {
 			a.addProd(-v, st.coef[j])
 		}
 		e := a.value()
-		st.rss.addProd(e, e)
-		for j, v := range x {
-			st.xte[j].addProd(v, e)
-		}
-		switch s.Variance {
-		case CR1:
-			c := st.knownCluster(&d.Columns[st.iClus], i)
-			if c < 0 {
-				return
-			}
-			sc := st.scores[c*k : (c+1)*k]
-			for j, v := range x {
-				sc[j] += v * e
-			}
-			return
-		case Classical:
-			return
+		p.e[r] = e
+		if !hc {
+			continue
 		}
 		e2 := e * e
 		if s.Variance == HC2 || s.Variance == HC3 {
-			for j, p := range q.perm {
-				st.u[j] = x[p] / q.d[p]
+			for j, pj := range q.perm {
+				w.u[j] = x[pj] / q.d[pj]
 			}
-			q.solveRT(st.u)
+			q.solveRT(w.u)
 			var h float64
-			for _, v := range st.u {
+			for _, v := range w.u {
 				h += v * v
 			}
 			if 1-h <= 1e-10 {
-				st.leverageOne = true
+				p.levOne = true
 			}
 			if s.Variance == HC2 {
 				e2 /= 1 - h
@@ -793,15 +834,56 @@ func (st *stream) residuals(d *Data) error {
 			}
 		}
 		o := math.Sqrt(e2)
-		row := st.meatBuf[st.meatRows*k : (st.meatRows+1)*k]
+		row := p.meat[r*k : (r+1)*k]
 		for j, v := range x {
 			row[j] = o * v
 		}
-		st.meatRows++
+	}
+	return nil
+}
+
+// residuals is the third pass, in chunk order: the sums of the residuals
+// and of the outcome, Xᵀe, and the middle of the sandwich (or the cluster
+// scores), as Fit's residuals, hcVariance and clusterSandwich compute
+// them.
+func (st *stream) residuals(p *chunkPart) {
+	k := st.ds.k
+	st.changed = st.changed || p.changed
+	st.leverageOne = st.leverageOne || p.levOne
+	for r := 0; r < p.n; r++ {
+		y, wi := p.y[r], st.weight(p, r)
+		st.tss += wi * (y - st.meanY) * (y - st.meanY)
+		y = p.yw[r]
+		st.tssW += (y - st.meanYW) * (y - st.meanYW)
+		e := p.e[r]
+		st.rss.addProd(e, e)
+		x := p.x[r*k : (r+1)*k]
+		for j, v := range x {
+			st.xte[j].addProd(v, e)
+		}
+		if st.scores != nil {
+			c := p.cluster[r]
+			if c < 0 {
+				continue
+			}
+			sc := st.scores[c*k : (c+1)*k]
+			for j, v := range x {
+				sc[j] += v * e
+			}
+		}
+	}
+	if st.s.Variance == CR1 || st.s.Variance == Classical {
+		return
+	}
+	for r := 0; r < p.n; {
+		m := min(p.n-r, chunkRows-st.meatRows)
+		copy(st.meatBuf[st.meatRows*k:], p.meat[r*k:(r+m)*k])
+		st.meatRows += m
+		r += m
 		if st.meatRows == chunkRows {
 			st.flushMeat()
 		}
-	})
+	}
 }
 
 // flushMeat adds the gathered rows to the current block's part of the

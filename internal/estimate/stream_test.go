@@ -7,26 +7,30 @@ import (
 	"math"
 	"math/rand/v2"
 	"reflect"
+	"sync"
 	"testing"
 )
 
-// sliced serves a Data in chunks of a fixed number of rows, reusing one
-// chunk value, as a file reader would.
+// sliced serves a Data in chunks of a fixed number of rows, reusing the
+// chunk values it is handed back, as a file reader would. A chunk handed
+// back is emptied at once, so that a fit still reading it fails.
 type sliced struct {
 	d      *Data
 	size   int
 	passes int
+	mu     sync.Mutex
+	spare  []*Data
 }
 
-func (s *sliced) Pass(ctx context.Context, each func(*Data) error) error {
+func (s *sliced) Pass(ctx context.Context, each func(*Data, func()) error) error {
 	s.passes++
 	n, err := s.d.rows()
 	if err != nil {
 		return err
 	}
-	chunk := &Data{Columns: make([]Column, len(s.d.Columns))}
 	for start := 0; start < n; start += s.size {
 		end := min(n, start+s.size)
+		chunk := s.chunk()
 		for j, c := range s.d.Columns {
 			cc := Column{Name: c.Name}
 			if c.Num != nil {
@@ -52,11 +56,34 @@ func (s *sliced) Pass(ctx context.Context, each func(*Data) error) error {
 		if err := ctx.Err(); err != nil {
 			return err
 		}
-		if err := each(chunk); err != nil {
+		released := false
+		if err := each(chunk, func() {
+			if released {
+				panic("a chunk released twice")
+			}
+			released = true
+			s.mu.Lock()
+			defer s.mu.Unlock()
+			clear(chunk.Columns)
+			chunk.RowLabels = nil
+			s.spare = append(s.spare, chunk)
+		}); err != nil {
 			return err
 		}
 	}
 	return nil
+}
+
+// chunk returns a chunk handed back, or a new one.
+func (s *sliced) chunk() *Data {
+	s.mu.Lock()
+	defer s.mu.Unlock()
+	if k := len(s.spare); k > 0 {
+		d := s.spare[k-1]
+		s.spare = s.spare[:k-1]
+		return d
+	}
+	return &Data{Columns: make([]Column, len(s.d.Columns))}
 }
 
 // streamData is N rows with a text moderator of four groups, a numeric
@@ -255,6 +282,28 @@ func TestFitStreamHandsBack(t *testing.T) {
 	}
 }
 
+// TestFineIsProblem checks that fine, which the later passes use, takes
+// a row exactly when problem finds nothing, for every role, on cells of
+// every kind: numbers, missing with and without a reason, text in numbers,
+// infinities, weights of 0 and less, blanks in text.
+func TestFineIsProblem(t *testing.T) {
+	d := streamData(2000)
+	w := &d.Columns[7]
+	w.Num[3], w.Num[4], w.Num[5] = 0, -1, math.NaN()
+	w.Text = make([]string, len(w.Num))
+	w.Text[5] = "n/a"
+	for _, c := range d.Columns {
+		for _, role := range []string{"outcome", "treatment", "moderator", "control", "cluster", "weight"} {
+			rc := roleColumn{col: &c, role: role, numeric: c.IsNumeric()}
+			for i := range c.Len() {
+				if reason, _ := rc.problem(i); rc.fine(i) != (reason == "") {
+					t.Fatalf("column %q as %s, row %d: fine %v, problem %q", c.Name, role, i, rc.fine(i), reason)
+				}
+			}
+		}
+	}
+}
+
 // TestFitStreamCancelled checks that a cancelled context stops the fit.
 func TestFitStreamCancelled(t *testing.T) {
 	ctx, cancel := context.WithCancel(context.Background())
@@ -294,7 +343,7 @@ type changing struct {
 	change func(*Data)
 }
 
-func (c *changing) Pass(ctx context.Context, each func(*Data) error) error {
+func (c *changing) Pass(ctx context.Context, each func(*Data, func()) error) error {
 	if c.passes+1 == c.from {
 		c.change(c.d)
 	}

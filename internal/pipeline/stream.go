@@ -4,6 +4,10 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"math"
+	"slices"
+	"strconv"
+	"sync"
 
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
@@ -101,20 +105,33 @@ func usedColumns(o *workbook.Table, s estimate.Spec) []string {
 // streamChunks adapts a stream's passes to the engine's chunks, as
 // EngineData adapts a table. The file is read in a goroutine of its own a
 // few chunks ahead of the fit, so that parsing and fitting run side by
-// side; each chunk is a copy, since the stream reuses its slices.
+// side; each chunk is a copy, since the stream reuses its slices, and is
+// the fit's until it releases it, so that the fit can work on a few at
+// once; a released chunk's slices are reused for a later one.
 type streamChunks struct {
 	s     *workbook.Stream
 	names []string
 }
 
-// chunksAhead is how many chunks the reader may be ahead of the fit.
-const chunksAhead = 2
+// chunksAhead is how many chunks the reader may be ahead of the fit, and
+// chunksKept how many released chunks are kept for reuse (the fit holds a
+// few at once).
+const (
+	chunksAhead = 2
+	chunksKept  = chunksAhead + 6
+)
 
-func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data) error) error {
+func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data, func()) error) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	ready := make(chan *estimate.Data, chunksAhead)
-	spare := make(chan *estimate.Data, chunksAhead+2)
+	spare := make(chan *estimate.Data, chunksKept)
+	recycle := func(d *estimate.Data) {
+		select {
+		case spare <- d:
+		default:
+		}
+	}
 	read := make(chan error, 1)
 	go func() {
 		defer close(ready)
@@ -136,14 +153,12 @@ func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data) error)
 	}()
 	var err error
 	for d := range ready {
-		if err == nil {
-			if err = each(d); err != nil {
-				cancel()
-			}
+		if err != nil {
+			recycle(d)
+			continue
 		}
-		select {
-		case spare <- d:
-		default:
+		if err = each(d, sync.OnceFunc(func() { recycle(d) })); err != nil {
+			cancel()
 		}
 	}
 	if rerr := <-read; err == nil {
@@ -153,15 +168,21 @@ func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data) error)
 }
 
 // copyChunk fills d with a copy of the stream's chunk, reusing d's
-// slices.
+// slices. The values are engineColumn's; a yes/no column of two numbers
+// has each of its levels parsed once instead of every cell.
 func copyChunk(d *estimate.Data, rows []int, cols []*workbook.Column) {
 	d.RowLabels = append(d.RowLabels[:0], rows...)
 	if len(d.Columns) != len(cols) {
 		d.Columns = make([]estimate.Column, len(cols))
 	}
 	for j, col := range cols {
-		ec := engineColumn(col, len(rows))
 		dc := &d.Columns[j]
+		if col.Kind == workbook.YesNo && numericLevels(col.Levels) {
+			dc.Name, dc.Why, dc.Text = col.Name, whys(col), nil
+			dc.Num = levelNumbers(dc.Num[:0], col)
+			continue
+		}
+		ec := engineColumn(col, len(rows))
 		num, text := dc.Num, dc.Text
 		dc.Name, dc.Why, dc.Num, dc.Text = ec.Name, ec.Why, nil, nil
 		if ec.Num != nil {
@@ -171,4 +192,26 @@ func copyChunk(d *estimate.Data, rows []int, cols []*workbook.Column) {
 			dc.Text = append(text[:0], ec.Text...)
 		}
 	}
+}
+
+// levelNumbers appends to num the cells of a yes/no column whose levels
+// are numbers, as engineColumn reads them: NaN for a blank, else the
+// number the text reads as.
+func levelNumbers(num []float64, c *workbook.Column) []float64 {
+	values := make([]float64, len(c.Levels))
+	for l, s := range c.Levels {
+		values[l], _ = strconv.ParseFloat(s, 64)
+	}
+	for _, s := range c.Texts {
+		v := math.NaN()
+		if s != "" {
+			if l := slices.Index(c.Levels, s); l >= 0 {
+				v = values[l]
+			} else {
+				v, _ = strconv.ParseFloat(s, 64)
+			}
+		}
+		num = append(num, v)
+	}
+	return num
 }

@@ -8,6 +8,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -106,19 +107,101 @@ func TestStreamChunksStopEarly(t *testing.T) {
 	}
 	stop := errors.New("stop")
 	n := 0
-	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data) error {
+	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
 		n++
+		release()
 		return stop
 	})
 	if !errors.Is(err, stop) || n != 1 {
 		t.Errorf("got %v after %d chunks, want the fit's own error after 1", err, n)
 	}
 	rows := 0
-	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data) error {
+	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
 		rows += len(d.RowLabels)
+		release()
 		return nil
 	})
 	if err != nil || rows != s.Rows {
 		t.Errorf("a whole pass: %d rows, %v; want %d", rows, err, s.Rows)
+	}
+}
+
+// TestStreamChunksKeptUntilReleased checks that a chunk the fit has not
+// released is not reused for a later one, and that released chunks are:
+// the fit keeps a few chunks at once and checks each, when it releases
+// it, against what it held when it came.
+func TestStreamChunksKeptUntilReleased(t *testing.T) {
+	path := writePilot(t, 12*streamChunkRows+100)
+	s, err := workbook.OpenStream(context.Background(), path, workbook.Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	type kept struct {
+		d       *estimate.Data
+		labels  []int
+		region  []string
+		release func()
+	}
+	check := func(k kept) {
+		if !slices.Equal(k.d.RowLabels, k.labels) || !slices.Equal(k.d.Columns[1].Text, k.region) {
+			t.Fatalf("the chunk of rows %d to %d changed before it was released", k.labels[0], k.labels[len(k.labels)-1])
+		}
+		k.release()
+	}
+	for _, hold := range []int{1, 5} {
+		var held []kept
+		seen := map[*estimate.Data]bool{}
+		reused, next := 0, 2 // the header is row 1
+		err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
+			if d.RowLabels[0] != next {
+				t.Fatalf("a chunk from row %d, want %d", d.RowLabels[0], next)
+			}
+			next = d.RowLabels[len(d.RowLabels)-1] + 1
+			if seen[d] {
+				reused++
+			}
+			seen[d] = true
+			held = append(held, kept{d, slices.Clone(d.RowLabels), slices.Clone(d.Columns[1].Text), release})
+			if len(held) > hold {
+				check(held[0])
+				held = held[1:]
+			}
+			return nil
+		})
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, k := range held {
+			check(k)
+		}
+		if reused == 0 {
+			t.Errorf("holding %d: no chunk was reused", hold)
+		}
+	}
+}
+
+// TestCopyChunkIsEngineColumn checks that a chunk's copy holds, to the
+// bit, what engineColumn makes of its columns, yes/no columns of numbers
+// (whose levels copyChunk parses once) included.
+func TestCopyChunkIsEngineColumn(t *testing.T) {
+	cols := []*workbook.Column{
+		{Name: "treated", Kind: workbook.YesNo, Levels: []string{"0", "1"}, Texts: []string{"1", "", "0", "1", "0"}},
+		{Name: "dose", Kind: workbook.YesNo, Levels: []string{"0.10", "2.5e1"}, Texts: []string{"2.5e1", "0.10", "", "0.1", "25"}},
+		{Name: "arm", Kind: workbook.YesNo, Levels: []string{"no", "yes"}, Texts: []string{"yes", "no", "", "yes", "no"}},
+		{Name: "age", Kind: workbook.Number, Numbers: []float64{1, math.NaN(), 3, 4, 5}, Missing: []workbook.Reason{0, workbook.ErrorValue, 0, 0, 0}},
+	}
+	d := &estimate.Data{}
+	for range 2 { // the second time into the first's slices
+		copyChunk(d, []int{2, 3, 4, 5, 6}, cols)
+		for j, col := range cols {
+			want, got := engineColumn(col, 5), d.Columns[j]
+			same := func(a, b float64) bool {
+				return math.Float64bits(a) == math.Float64bits(b) || math.IsNaN(a) && math.IsNaN(b)
+			}
+			if got.Name != want.Name || !slices.Equal(got.Text, want.Text) || !slices.Equal(got.Why, want.Why) ||
+				!slices.EqualFunc(got.Num, want.Num, same) || (got.Num == nil) != (want.Num == nil) {
+				t.Errorf("column %q: %+v, want %+v", col.Name, got, want)
+			}
+		}
 	}
 }
