@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"math/rand/v2"
 	"reflect"
 	"runtime"
@@ -112,6 +113,44 @@ func TestFitStreamEqualsFitBlocks(t *testing.T) {
 				t.Fatal(err)
 			}
 			compareResults(t, "chunks of 777", got, want)
+		})
+	}
+}
+
+// TestFitStreamSameOnAnyNumberOfCores checks that the streamed fit, whose
+// chunks are worked on side by side (streampipe.go), gives the same result
+// to the bit with one core and with four, on several chunks and blocks of
+// rows, with chunks that do not line up with the blocks.
+func TestFitStreamSameOnAnyNumberOfCores(t *testing.T) {
+	d := streamData(3*blockRows + 1234)
+	base := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical},
+		Controls: []string{"c1", "c2"}}
+	fit := func(procs, size int, s Spec) *Result {
+		t.Helper()
+		defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(procs))
+		res, err := FitStream(context.Background(), &sliced{d: d, size: size}, s)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return res
+	}
+	for name, change := range map[string]func(*Spec){
+		"HC3":     func(s *Spec) {},
+		"CR1":     func(s *Spec) { s.Cluster = "site name" },
+		"weights": func(s *Spec) { s.Weights, s.Controls = "w", []string{"c1", "kind", "c2"} },
+	} {
+		t.Run(name, func(t *testing.T) {
+			s := base
+			change(&s)
+			for _, size := range []int{777, 8192} {
+				one, four := fit(1, size, s), fit(4, size, s)
+				a, errA := json.Marshal(one)
+				b, errB := json.Marshal(four)
+				if errA == nil && errB == nil && !bytes.Equal(a, b) {
+					t.Errorf("chunks of %d: JSON differs between 1 and 4 cores:\n%s\n%s", size, a, b)
+				}
+				compareResultsWithin(t, fmt.Sprintf("chunks of %d, 4 cores", size), four, one, 0)
+			}
 		})
 	}
 }
