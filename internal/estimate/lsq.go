@@ -216,59 +216,73 @@ func (f *lsFit) inverseCrossProduct() []float64 {
 }
 
 // leverage returns hᵢ = xᵢᵀ(XᵀX)⁻¹xᵢ = ‖R2⁻ᵀ·PᵀD⁻¹xᵢ‖² for every row:
-// one triangular solve of K²/2 operations a row, blocks of rows in
-// parallel. The solve is solveRT's, operation for operation (so the
-// values are the same to the bit), but with R2's columns copied into
-// contiguous rows and four rows of X solved side by side: each row's
-// solve is one long chain of dependent operations, and four independent
-// chains keep the processor busy.
+// one triangular solve of K²/2 operations a row (leverageRows), blocks of
+// rows in parallel.
 func (f *lsFit) leverage() []float64 {
 	k, q := f.k, f.qr
-	r := q.rank
+	rt := q.columnsOfR2()
+	h := make([]float64, f.n)
+	forBlocks(f.n, blockRows, func() func(b, from, to int) {
+		u := make([]float64, 4*k)
+		return func(_, from, to int) {
+			q.leverageRows(rt, f.x[from*k:to*k], h[from:to], u)
+		}
+	})
+	return h
+}
+
+// columnsOfR2 returns R2's columns above the diagonal as the rows of a
+// K×K matrix, for leverageRows.
+func (q *qrFactor) columnsOfR2() []float64 {
+	k := q.k
 	rt := make([]float64, k*k) // row i: column i of R2 above the diagonal
-	for i := 0; i < r; i++ {
+	for i := 0; i < q.rank; i++ {
 		for j := 0; j < i; j++ {
 			rt[i*k+j] = q.a2[j*k+i]
 		}
 	}
-	h := make([]float64, f.n)
-	forBlocks(f.n, blockRows, func() func(b, from, to int) {
-		const rows = 4
-		u := make([]float64, rows*k)
-		return func(_, from, to int) {
-			for i := from; i < to; i += rows {
-				m := min(rows, to-i)
-				for l := 0; l < rows; l++ {
-					ul := u[l*k : (l+1)*k]
-					row := f.x[min(i+l, to-1)*k:][:k] // past the block's end: a copy of its last row
-					for j, p := range q.perm {
-						ul[j] = row[p] / q.d[p]
-					}
-				}
-				u0, u1, u2, u3 := u[:k], u[k:2*k], u[2*k:3*k], u[3*k:]
-				for c := 0; c < r; c++ {
-					rc := rt[c*k : c*k+c]
-					s0, s1, s2, s3 := u0[c], u1[c], u2[c], u3[c]
-					for j, v := range rc {
-						s0 -= v * u0[j]
-						s1 -= v * u1[j]
-						s2 -= v * u2[j]
-						s3 -= v * u3[j]
-					}
-					d := q.a2[c*k+c]
-					u0[c], u1[c], u2[c], u3[c] = s0/d, s1/d, s2/d, s3/d
-				}
-				for l := 0; l < m; l++ {
-					var s float64
-					for _, v := range u[l*k : (l+1)*k] {
-						s += v * v
-					}
-					h[i+l] = s
-				}
+	return rt
+}
+
+// leverageRows writes to h the leverage of each row of x (len(h) rows,
+// row-major), with rt from columnsOfR2 and u scratch space of 4·K. The
+// solve is solveRT's, operation for operation (so the values are the same
+// to the bit), but with R2's columns in contiguous rows and four rows
+// solved side by side: each row's solve is one long chain of dependent
+// operations, and four independent chains keep the processor busy.
+func (q *qrFactor) leverageRows(rt, x, h, u []float64) {
+	const rows = 4
+	k, r, n := q.k, q.rank, len(h)
+	for i := 0; i < n; i += rows {
+		m := min(rows, n-i)
+		for l := 0; l < rows; l++ {
+			ul := u[l*k : (l+1)*k]
+			row := x[min(i+l, n-1)*k:][:k] // past the end: a copy of the last row
+			for j, p := range q.perm {
+				ul[j] = row[p] / q.d[p]
 			}
 		}
-	})
-	return h
+		u0, u1, u2, u3 := u[:k], u[k:2*k], u[2*k:3*k], u[3*k:]
+		for c := 0; c < r; c++ {
+			rc := rt[c*k : c*k+c]
+			s0, s1, s2, s3 := u0[c], u1[c], u2[c], u3[c]
+			for j, v := range rc {
+				s0 -= v * u0[j]
+				s1 -= v * u1[j]
+				s2 -= v * u2[j]
+				s3 -= v * u3[j]
+			}
+			d := q.a2[c*k+c]
+			u0[c], u1[c], u2[c], u3[c] = s0/d, s1/d, s2/d, s3/d
+		}
+		for l := 0; l < m; l++ {
+			var s float64
+			for _, v := range u[l*k : (l+1)*k] {
+				s += v * v
+			}
+			h[i+l] = s
+		}
+	}
 }
 
 // sandwich returns B·(Σ ωᵢ xᵢxᵢᵀ)·B with B = (XᵀX)⁻¹ (White 1980); ωᵢ ≥ 0.

@@ -156,9 +156,9 @@ func TestFitStreamSameOnAnyNumberOfCores(t *testing.T) {
 }
 
 // TestLeverageIsSolveRT checks that leverage, which solves four rows side
-// by side, gives for every row exactly what solveRT gives it alone (as the
-// streamed fit computes it), on blocks whose ends fall inside a group of
-// four.
+// by side (leverageRows, as the streamed fit does a chunk's rows), gives
+// for every row exactly what solveRT gives it alone, on blocks whose ends
+// fall inside a group of four.
 func TestLeverageIsSolveRT(t *testing.T) {
 	n := 2*blockRows + 3
 	d := streamData(n)

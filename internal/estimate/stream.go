@@ -77,7 +77,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if s.Moderator.Kind == ModeratorContinuous {
 		return nil, needsMemory("a continuous moderator's percentiles need all its values")
 	}
-	st := &stream{s: s}
+	st := &stream{s: s, parts: make(chan *chunkPart, spareParts)}
 	if err := src.Pass(ctx, func(d *Data, release func()) error {
 		defer release()
 		return st.survey(d)
@@ -88,7 +88,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
-	if err := pass(ctx, src, &st.parts, st.factorRows, st.factor); err != nil {
+	if err := pass(ctx, src, st.parts, passWork{st.factorRows, st.factor, st.hashRows}); err != nil {
 		return nil, err
 	}
 	if st.changed {
@@ -109,7 +109,7 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 
 	for range 2 {
 		st.startResiduals(f)
-		if err := pass(ctx, src, &st.parts, st.residualRows, st.residuals); err != nil {
+		if err := pass(ctx, src, st.parts, passWork{prepare: st.residualRows, combine: st.residuals}); err != nil {
 			return nil, err
 		}
 		st.flushMeat()
@@ -173,7 +173,7 @@ type stream struct {
 	blocks  int       // blocks merged into the running triangle
 	qty     []float64 // Qᵀy, K entries
 	hash    *rowHash
-	parts   []*chunkPart // spare parts for the passes' chunks (streampipe.go)
+	parts   chan *chunkPart // spare parts for the passes' chunks (streampipe.go)
 
 	sw, swy       float64
 	swyW          float64 // sum of the weighted outcome
@@ -193,7 +193,8 @@ type stream struct {
 	meanY       float64 // of the outcome, weighted with the weights
 	meanYW      float64 // of √w·y, as checkExact takes it
 	leverageOne bool
-	changed     bool // a later pass met what the survey did not see
+	r2Columns   []float64 // for the leverage (leverageRows)
+	changed     bool      // a later pass met what the survey did not see
 }
 
 // groupStats are the facts the checks need about one moderator group.
@@ -689,23 +690,30 @@ func (st *stream) factorRows(w *chunkWorker, p *chunkPart) error {
 	return st.designRows(w, p, st.iWeight >= 0)
 }
 
-// factor is the second pass, in chunk order: the hash of the rows, and
-// [√w·X √w·y] into the QR factorization.
-func (st *stream) factor(p *chunkPart) {
+// hashRows is the second pass's hash of the rows, in chunk order; it
+// runs beside factor.
+func (st *stream) hashRows(p *chunkPart) {
 	k := st.ds.k
 	raw := p.x
 	if st.iWeight >= 0 {
 		raw = p.raw
 	}
-	ws := st.weights(p)
 	var clusters []int
 	if st.iClus >= 0 {
 		clusters = p.cluster
 	}
+	for r := 0; r < p.n; r++ {
+		st.hash.row(raw[r*k:(r+1)*k], p.y[r], st.weights(p), r, clusters)
+	}
+}
+
+// factor is the second pass, in chunk order: [√w·X √w·y] into the QR
+// factorization.
+func (st *stream) factor(p *chunkPart) {
+	k := st.ds.k
 	st.changed = st.changed || p.changed
 	for r := 0; r < p.n; r++ {
 		y, wi := p.y[r], st.weight(p, r)
-		st.hash.row(raw[r*k:(r+1)*k], y, ws, r, clusters)
 		st.sw += wi
 		st.swy += wi * y
 		if y != 0 && y != 1 {
@@ -785,11 +793,12 @@ func (st *stream) startResiduals(f *lsFit) {
 		st.scores = make([]float64, len(st.ds.clusterLabels)*k)
 	}
 	st.leverageOne = false
+	st.r2Columns = f.qr.columnsOfR2()
 }
 
 // residualRows is the chunk's own work in the residual pass: each row's
 // residual eᵢ in compensated arithmetic, and for HC0–HC3 its leverage and
-// its row of the middle of the sandwich, √ωᵢ·xᵢ, as Fit's residuals,
+// the √ωᵢ of its row of the middle of the sandwich, as Fit's residuals,
 // leverage and hcVariance compute them, row for row.
 func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
 	if err := st.designRows(w, p, false); err != nil {
@@ -798,9 +807,13 @@ func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
 	s, k, q := st.s, st.ds.k, st.qr
 	hc := s.Variance != CR1 && s.Variance != Classical
 	p.e = grow(p.e, p.n)
+	lev := s.Variance == HC2 || s.Variance == HC3
 	if hc {
-		p.meat = grow(p.meat, p.n*k)
-		w.u = grow(w.u, k)
+		p.o = grow(p.o, p.n)
+	}
+	if lev {
+		w.u, w.h = grow(w.u, 4*k), grow(w.h, p.n)
+		q.leverageRows(st.r2Columns, p.x[:p.n*k], w.h, w.u)
 	}
 	for r := 0; r < p.n; r++ {
 		x := p.x[r*k : (r+1)*k]
@@ -815,15 +828,8 @@ func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
 			continue
 		}
 		e2 := e * e
-		if s.Variance == HC2 || s.Variance == HC3 {
-			for j, pj := range q.perm {
-				w.u[j] = x[pj] / q.d[pj]
-			}
-			q.solveRT(w.u)
-			var h float64
-			for _, v := range w.u {
-				h += v * v
-			}
+		if lev {
+			h := w.h[r]
 			if 1-h <= 1e-10 {
 				p.levOne = true
 			}
@@ -833,11 +839,7 @@ func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
 				e2 /= (1 - h) * (1 - h)
 			}
 		}
-		o := math.Sqrt(e2)
-		row := p.meat[r*k : (r+1)*k]
-		for j, v := range x {
-			row[j] = o * v
-		}
+		p.o[r] = math.Sqrt(e2)
 	}
 	return nil
 }
@@ -875,11 +877,13 @@ func (st *stream) residuals(p *chunkPart) {
 	if st.s.Variance == CR1 || st.s.Variance == Classical {
 		return
 	}
-	for r := 0; r < p.n; {
-		m := min(p.n-r, chunkRows-st.meatRows)
-		copy(st.meatBuf[st.meatRows*k:], p.meat[r*k:(r+m)*k])
-		st.meatRows += m
-		r += m
+	for r := 0; r < p.n; r++ {
+		o := p.o[r]
+		row := st.meatBuf[st.meatRows*k : (st.meatRows+1)*k]
+		for j, v := range p.x[r*k : (r+1)*k] {
+			row[j] = o * v
+		}
+		st.meatRows++
 		if st.meatRows == chunkRows {
 			st.flushMeat()
 		}

@@ -35,7 +35,7 @@ type chunkPart struct {
 	w        []float64 // the weights (with weights only)
 	cluster  []int     // the cluster numbers, −1 for one the survey did not see (with clusters only)
 	e        []float64 // the residuals (residual pass)
-	meat     []float64 // n×K: the rows of the sandwich's middle, √ω·x (residual pass, HC0–HC3)
+	o        []float64 // √ωᵢ: row i of the sandwich's middle is √ωᵢ·xᵢ (residual pass, HC0–HC3)
 	changed  bool      // a group, level or cluster the survey did not see
 	levOne   bool      // a row of leverage 1 (residual pass, HC2 and HC3)
 	err      error
@@ -55,26 +55,42 @@ func grow[T any](s []T, n int) []T {
 // chunkWorker is one goroutine's scratch space for the chunks' own work.
 type chunkWorker struct {
 	checks []roleColumn
-	u      []float64 // K: a row's leverage solve
+	u, h   []float64 // the leverage's scratch space, and the chunk's leverages
 }
 
-// chunkPipe runs one pass: prepare on the workers, combine in chunk order
-// on the goroutine that calls each and finish.
-type chunkPipe struct {
+// passWork is a pass's work on its chunks.
+type passWork struct {
+	// prepare is each chunk's own work, on any goroutine.
 	prepare func(w *chunkWorker, p *chunkPart) error
+	// combine takes the prepared parts in chunk order, on the goroutine
+	// that receives the chunks.
 	combine func(p *chunkPart)
-	jobs    chan *chunkPart
-	queue   []*chunkPart // handed out, in chunk order, not yet combined
-	spare   *[]*chunkPart
-	inline  *chunkWorker // with one core: the chunk's work runs on the caller
-	wg      sync.WaitGroup
+	// then, when set, takes the combined parts in chunk order too, but on
+	// a goroutine of its own: sequential work (the hash) that need not
+	// hold up the combining.
+	then func(p *chunkPart)
 }
 
-// pass runs a pass over src with the chunks' own work in prepare and the
-// combining in combine; parts are taken from and returned to spare, so
-// that the passes of a fit share them.
-func pass(ctx context.Context, src Chunks, spare *[]*chunkPart, prepare func(*chunkWorker, *chunkPart) error, combine func(*chunkPart)) error {
-	cp := &chunkPipe{prepare: prepare, combine: combine, spare: spare}
+// spareParts is the most parts kept for reuse between chunks and passes:
+// those in flight, those waiting for then, and a few more.
+const spareParts = 2*pipeDepth + 2
+
+// chunkPipe runs one pass.
+type chunkPipe struct {
+	passWork
+	jobs   chan *chunkPart
+	queue  []*chunkPart // handed out, in chunk order, not yet combined
+	later  chan *chunkPart
+	spare  chan *chunkPart
+	inline *chunkWorker // with one core: everything runs on the caller
+	wg     sync.WaitGroup
+	thenWG sync.WaitGroup
+}
+
+// pass runs a pass over src; parts are taken from and returned to spare,
+// so that the passes of a fit share them.
+func pass(ctx context.Context, src Chunks, spare chan *chunkPart, work passWork) error {
+	cp := &chunkPipe{passWork: work, spare: spare}
 	if workers := min(runtime.GOMAXPROCS(0), pipeDepth); workers <= 1 {
 		cp.inline = &chunkWorker{}
 	} else {
@@ -85,6 +101,15 @@ func pass(ctx context.Context, src Chunks, spare *[]*chunkPart, prepare func(*ch
 				for p := range cp.jobs {
 					cp.work(w, p)
 					p.prepared <- struct{}{}
+				}
+			})
+		}
+		if cp.then != nil {
+			cp.later = make(chan *chunkPart, pipeDepth)
+			cp.thenWG.Go(func() {
+				for p := range cp.later {
+					cp.then(p)
+					cp.recycle(p)
 				}
 			})
 		}
@@ -135,14 +160,22 @@ func (cp *chunkPipe) each(d *Data, release func()) error {
 	return nil
 }
 
-// done combines a prepared part, or returns its error, and keeps the part
-// for another chunk.
+// done combines a prepared part, or returns its error, and passes the
+// part on to then, or keeps it for another chunk.
 func (cp *chunkPipe) done(p *chunkPart) error {
-	defer func() { *cp.spare = append(*cp.spare, p) }()
 	if p.err != nil {
 		return p.err
 	}
 	cp.combine(p)
+	switch {
+	case cp.then == nil:
+		cp.recycle(p)
+	case cp.later != nil:
+		cp.later <- p
+	default:
+		cp.then(p)
+		cp.recycle(p)
+	}
 	return nil
 }
 
@@ -160,17 +193,28 @@ func (cp *chunkPipe) finish(combine bool) error {
 		}
 		cp.wg.Wait()
 	}
+	if cp.later != nil {
+		close(cp.later)
+		cp.thenWG.Wait()
+	}
 	cp.queue = nil
 	return err
 }
 
 // part returns a spare part, or a new one.
 func (cp *chunkPipe) part() *chunkPart {
-	s := *cp.spare
-	if len(s) == 0 {
+	select {
+	case p := <-cp.spare:
+		return p
+	default:
 		return &chunkPart{prepared: make(chan struct{}, 1)}
 	}
-	p := s[len(s)-1]
-	*cp.spare = s[:len(s)-1]
-	return p
+}
+
+// recycle keeps a part for another chunk, when there is room.
+func (cp *chunkPipe) recycle(p *chunkPart) {
+	select {
+	case cp.spare <- p:
+	default:
+	}
 }
