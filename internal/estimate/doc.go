@@ -16,7 +16,8 @@
 // The fit is a pivoted Householder QR (qr.go), refined iteratively when
 // its error bound asks for it (lsq.go), its work on rows split into fixed
 // blocks run on all cores with the same results on any number of them
-// (parallel.go);
+// (parallel.go); the streamed fit (stream.go) works on a few chunks at
+// once and combines them in chunk order, to the same end (streampipe.go);
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
 // adjustments in adjust.go and screen.go, the wild cluster bootstrap in
