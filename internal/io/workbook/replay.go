@@ -5,9 +5,9 @@ import (
 	"encoding/binary"
 	"errors"
 	"io"
-	"math"
 	"os"
 	"slices"
+	"unsafe"
 )
 
 // A replay is the chunks of a stream's first pass kept in a temporary
@@ -21,9 +21,12 @@ import (
 // passes parse the text as before.
 //
 // A chunk is: its row count n (uvarint); n row numbers (uvarints, each
-// the step from the row before); then for each column n numbers (8 bytes
-// each, little-endian IEEE 754 bits), n reasons (a byte each) and, for a
-// column of texts, n texts (uvarint length, then the bytes).
+// the step from the row before); then for each column n numbers (their
+// 8 bytes each in this machine's order: the file never leaves the
+// process), n reasons (a byte each) and, for a column of texts, n text
+// numbers (uvarints: the text's place in the first pass's table of the
+// column's texts plus one, or 0 followed by the text's length and bytes
+// for a text past that table's limit).
 type replay struct {
 	names []string
 	size  int
@@ -34,6 +37,8 @@ type replay struct {
 	rows  int  // the rows recorded
 	done  bool // the first pass ended well: the file holds every chunk
 	buf   []byte
+	texts [][]string // by column, the texts numbered in the file
+	ends  []int64    // where each chunk ends in the file (for tests)
 }
 
 // maxReplayBytes bounds a replay file; a pass that would write more
@@ -64,7 +69,7 @@ func (r *replay) matches(names []string, size int) bool {
 }
 
 // record appends a chunk; false when the replay has to be given up.
-func (r *replay) record(rows []int, cols []*Column) bool {
+func (r *replay) record(rows []int, cols []*chunkColumn) bool {
 	b := r.buf[:0]
 	b = binary.AppendUvarint(b, uint64(len(rows)))
 	prev := 0
@@ -73,22 +78,22 @@ func (r *replay) record(rows []int, cols []*Column) bool {
 		prev = row
 	}
 	for _, c := range cols {
-		for _, v := range c.Numbers {
-			b = binary.LittleEndian.AppendUint64(b, math.Float64bits(v))
-		}
-		for _, m := range c.Missing {
-			b = append(b, byte(m))
-		}
+		b = append(b, floatBytes(c.Numbers)...)
+		b = append(b, reasonBytes(c.Missing)...)
 		if textKind(c.Kind) {
-			for _, s := range c.Texts {
-				b = binary.AppendUvarint(b, uint64(len(s)))
-				b = append(b, s...)
+			for i, id := range c.ids {
+				b = binary.AppendUvarint(b, uint64(id))
+				if id == 0 {
+					b = binary.AppendUvarint(b, uint64(len(c.Texts[i])))
+					b = append(b, c.Texts[i]...)
+				}
 			}
 		}
 	}
 	r.buf = b
 	r.rows += len(rows)
 	r.bytes += int64(len(b))
+	r.ends = append(r.ends, r.bytes)
 	if r.bytes > maxReplayBytes {
 		return false
 	}
@@ -96,10 +101,30 @@ func (r *replay) record(rows []int, cols []*Column) bool {
 	return err == nil
 }
 
-// finish marks the replay complete after a first pass that ended well.
-func (r *replay) finish() bool {
+// floatBytes is xs's memory as bytes.
+func floatBytes(xs []float64) []byte {
+	if len(xs) == 0 {
+		return nil
+	}
+	return unsafe.Slice((*byte)(unsafe.Pointer(&xs[0])), 8*len(xs))
+}
+
+// reasonBytes is rs's memory as bytes (a Reason is one byte).
+func reasonBytes(rs []Reason) []byte {
+	if len(rs) == 0 {
+		return nil
+	}
+	return unsafe.Slice((*byte)(unsafe.Pointer(&rs[0])), len(rs))
+}
+
+// finish marks the replay complete after a first pass that ended well,
+// keeping the columns' tables of texts.
+func (r *replay) finish(cols []*chunkColumn) bool {
 	if r.w.Flush() != nil {
 		return false
+	}
+	for _, c := range cols {
+		r.texts = append(r.texts, c.texts)
 	}
 	r.done = true
 	return true
@@ -149,22 +174,29 @@ func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, 
 			prev += int(d)
 			rows = append(rows, prev)
 		}
-		for _, c := range cols {
-			if raw, err = readN(br, raw, int(n)*9); err != nil {
+		for j, c := range cols {
+			c.Numbers = slices.Grow(c.Numbers[:0], int(n))[:n]
+			c.Missing = slices.Grow(c.Missing[:0], int(n))[:n]
+			if _, err := io.ReadFull(br, floatBytes(c.Numbers)); err != nil {
 				return played, errBadReplay
 			}
-			c.Numbers, c.Missing = c.Numbers[:0], c.Missing[:0]
-			for i := range int(n) {
-				c.Numbers = append(c.Numbers, math.Float64frombits(binary.LittleEndian.Uint64(raw[8*i:])))
-			}
-			for _, m := range raw[8*n:] {
-				c.Missing = append(c.Missing, Reason(m))
+			if _, err := io.ReadFull(br, reasonBytes(c.Missing)); err != nil {
+				return played, errBadReplay
 			}
 			if !textKind(c.Kind) {
 				continue
 			}
 			c.Texts = c.Texts[:0]
+			texts := r.texts[j]
 			for range n {
+				id, err := binary.ReadUvarint(br)
+				switch {
+				case err != nil || id > uint64(len(texts)):
+					return played, errBadReplay
+				case id > 0:
+					c.Texts = append(c.Texts, texts[id-1])
+					continue
+				}
 				l, err := binary.ReadUvarint(br)
 				if err != nil || l > maxCellBytes {
 					return played, errBadReplay
@@ -172,7 +204,7 @@ func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, 
 				if raw, err = readN(br, raw, int(l)); err != nil {
 					return played, errBadReplay
 				}
-				c.Texts = append(c.Texts, c.keepBytes(raw))
+				c.Texts = append(c.Texts, string(raw))
 			}
 		}
 		if err := each(rows, out); err != nil {
@@ -198,12 +230,3 @@ func readN(br *bufio.Reader, buf []byte, n int) ([]byte, error) {
 
 // textKind reports the kinds whose chunk columns hold texts.
 func textKind(k Kind) bool { return k == YesNo || k == Category || k == Text }
-
-// keepBytes is keep for a text given as bytes, allocating only for a
-// text not seen before.
-func (c *chunkColumn) keepBytes(b []byte) string {
-	if k, ok := c.intern[string(b)]; ok {
-		return k
-	}
-	return c.keep(string(b))
-}

@@ -213,7 +213,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 			return fmt.Errorf("%s has no column %q", s.Outline.Path, name)
 		}
 		cols[i] = &chunkColumn{Column: Column{Name: oc.Name, Letter: oc.Letter, Index: oc.Index, Kind: oc.Kind, Levels: oc.Levels, Distinct: oc.Distinct},
-			intern: map[string]string{}}
+			intern: map[string]uint32{}}
 	}
 	out := make([]*Column, len(cols))
 	for i, c := range cols {
@@ -230,7 +230,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		s.Close()
 		skip = played
 		for _, c := range cols {
-			c.Numbers, c.Texts, c.Missing = c.Numbers[:0], c.Texts[:0], c.Missing[:0]
+			c.Numbers, c.Texts, c.Missing, c.ids = c.Numbers[:0], c.Texts[:0], c.Missing[:0], c.ids[:0]
 		}
 	}
 	scan, err := openScanner(s.Outline.Path, s.tf)
@@ -253,7 +253,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		if len(rows) == 0 {
 			return nil
 		}
-		if rec != nil && !rec.record(rows, out) {
+		if rec != nil && !rec.record(rows, cols) {
 			rec.close()
 			rec = nil
 		}
@@ -264,7 +264,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		}
 		rows = rows[:0]
 		for _, c := range cols {
-			c.Numbers, c.Texts, c.Missing = c.Numbers[:0], c.Texts[:0], c.Missing[:0]
+			c.Numbers, c.Texts, c.Missing, c.ids = c.Numbers[:0], c.Texts[:0], c.Missing[:0], c.ids[:0]
 		}
 		return nil
 	}
@@ -302,19 +302,24 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	if seen != s.Rows {
 		return &Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: fmt.Sprintf("%d data rows were read first, %d now", s.Rows, seen)}
 	}
-	if rec != nil && rec.finish() {
+	if rec != nil && rec.finish(cols) {
 		s.replay = rec
 	}
 	return nil
 }
 
-// internLimit bounds the texts a column keeps one copy of.
-const internLimit = 1 << 16
+// internLimit bounds the texts a column keeps one copy of (a variable
+// for tests).
+var internLimit = 1 << 16
 
 // chunkColumn is one column of a chunk, filled cell by cell.
 type chunkColumn struct {
 	Column
-	intern map[string]string
+	// ids has, for a column of texts, each cell's text's number in
+	// texts plus one, or 0 for a text not kept there (past internLimit).
+	ids    []uint32
+	intern map[string]uint32
+	texts  []string
 }
 
 // add appends the row's cell of this column, converted as colBuilder.add
@@ -335,7 +340,7 @@ func (c *chunkColumn) add(cells []rawCell, decimalComma bool) {
 	if found {
 		reason = classifyText(s)
 	}
-	num, text := math.NaN(), ""
+	num, text, id := math.NaN(), "", uint32(0)
 	if reason == Present {
 		switch c.Kind {
 		case Number:
@@ -367,24 +372,29 @@ func (c *chunkColumn) add(cells []rawCell, decimalComma bool) {
 				}
 				break
 			}
-			text = c.keep(s)
+			text, id = c.keep(s)
 		}
 	}
 	c.Numbers = append(c.Numbers, num)
 	c.Missing = append(c.Missing, reason)
-	if c.Kind == YesNo || c.Kind == Category || c.Kind == Text {
+	if textKind(c.Kind) {
 		c.Texts = append(c.Texts, text)
+		c.ids = append(c.ids, id)
 	}
 }
 
-// keep returns s as a string that outlives the chunk, one copy a text.
-func (c *chunkColumn) keep(s string) string {
-	if k, ok := c.intern[s]; ok {
-		return k
+// keep returns s as a string that outlives the chunk, one copy a text,
+// and its number in c.texts plus one (0 past internLimit texts).
+func (c *chunkColumn) keep(s string) (string, uint32) {
+	if id, ok := c.intern[s]; ok {
+		return c.texts[id-1], id
 	}
 	k := strings.Clone(s)
-	if len(c.intern) < internLimit {
-		c.intern[k] = k
+	if len(c.texts) >= internLimit {
+		return k, 0
 	}
-	return k
+	c.texts = append(c.texts, k)
+	id := uint32(len(c.texts))
+	c.intern[k] = id
+	return k, id
 }
