@@ -41,9 +41,11 @@ type replay struct {
 	ends  []int64    // where each chunk ends in the file (for tests)
 }
 
-// maxReplayBytes bounds a replay file; a pass that would write more
-// parses the text instead.
-const maxReplayBytes = 8 << 30
+// maxReplayBytes bounds a replay file (about 14 million rows of a dozen
+// columns); a pass that would write more gives the replay up, and the
+// later passes parse the text. The bound matters where the temporary
+// folder lives in memory (a tmpfs /tmp).
+const maxReplayBytes = 1 << 30
 
 // newReplay starts a replay file in the system's temporary folder; nil
 // when it cannot be made.
