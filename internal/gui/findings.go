@@ -29,6 +29,7 @@ type findingsScreen struct {
 	copyBtn   *widget.Button
 	undoBtn   *widget.Button
 	savedNote *widget.Label
+	where     *widget.Label // what becomes of the sheet shown
 	view      fyne.CanvasObject
 }
 
@@ -160,17 +161,13 @@ func (s *findingsScreen) content() fyne.CanvasObject {
 	if !s.u.finished() {
 		return widget.NewLabel("Run the analysis to see the findings.")
 	}
-	target := filepath.Base(s.u.path)
-	if !isWorkbook(s.u.path) {
-		target = filepath.Base(workbook.ResultsPathFor(s.u.path))
-	}
-	where := widget.NewLabel(fmt.Sprintf("This is the sheet that will be added to %s. Nothing has been written yet.", target))
-	where.Wrapping = fyne.TextWrapWord
+	s.where = widget.NewLabel(s.unsaved())
+	s.where.Wrapping = fyne.TextWrapWord
 	if s.u.written != nil {
-		where.SetText("Saved.")
+		s.where.SetText(s.saved(s.u.written))
 	}
 	actions := container.NewHBox(s.saveBtn, s.copyBtn, s.undoBtn)
-	top := container.NewVBox(heading("What we found"), where, actions, s.savedNote)
+	top := container.NewVBox(heading("What we found"), s.where, actions, s.savedNote)
 	return container.NewBorder(top, nil, nil, nil, s.view)
 }
 
@@ -229,6 +226,9 @@ func (s *findingsScreen) write(copyTo string) {
 			return
 		}
 		u.written = w
+		if s.where != nil {
+			s.where.SetText(s.saved(w))
+		}
 		msg := fmt.Sprintf("The results are in %s, sheet %q.", w.Path, w.Sheet)
 		if w.Backup != "" {
 			msg += fmt.Sprintf(" The file as it was is kept as %s.", filepath.Base(w.Backup))
@@ -266,6 +266,20 @@ func (s *findingsScreen) saveFailed(err error) {
 	d.Show()
 }
 
+// unsaved says where the sheet shown will go.
+func (s *findingsScreen) unsaved() string {
+	target := filepath.Base(s.u.path)
+	if !isWorkbook(s.u.path) {
+		target = filepath.Base(workbook.ResultsPathFor(s.u.path))
+	}
+	return fmt.Sprintf("This is the sheet that will be added to %s. Nothing has been written yet.", target)
+}
+
+// saved says where the sheet shown went.
+func (s *findingsScreen) saved(w *workbook.Written) string {
+	return fmt.Sprintf("This sheet has been added to %s as sheet %q.", filepath.Base(w.Path), w.Sheet)
+}
+
 // restore puts the backup back in place of the workbook, after asking.
 func (s *findingsScreen) restore() {
 	u := s.u
@@ -286,6 +300,9 @@ func (s *findingsScreen) restore() {
 			s.undoBtn.Hide()
 			s.savedNote.SetText(fmt.Sprintf("%s is back as it was before the results were added.", filepath.Base(w.Path)))
 			u.written = nil
+			if s.where != nil {
+				s.where.SetText(s.unsaved())
+			}
 		}, u.win)
 }
 

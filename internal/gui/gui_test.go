@@ -2,6 +2,7 @@ package gui
 
 import (
 	"flag"
+	"image/png"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -202,6 +203,9 @@ func TestWholePath(t *testing.T) {
 	h.tapButton("OK")
 	test.Tap(u.findingsScreen.undoBtn)
 	h.tapButton("Yes")
+	if got := u.findingsScreen.where.Text; !strings.Contains(got, "Nothing has been written yet.") {
+		t.Errorf("above the sheet after putting the original back: %q", got)
+	}
 	after, _ := os.ReadFile(filepath.Join(u.opts.DemoDir, "slopewise-demo.xlsx"))
 	if string(after) != string(backup) {
 		t.Error("putting the original back did not restore the backup's bytes")
@@ -488,5 +492,58 @@ func TestLinearityShown(t *testing.T) {
 	}
 	if !found {
 		t.Error("the sheet has no linearity block to show")
+	}
+}
+
+// TestBigCSVKeepsItsData: the results saved beside a text file of more
+// than 100,000 rows hold the results only, and the saved dialog says the
+// data stay in the text file.
+func TestBigCSVKeepsItsData(t *testing.T) {
+	dir := fixedDir(t, "big")
+	var b strings.Builder
+	b.WriteString("score,tutored,area\n")
+	for i := range 100_001 {
+		b.WriteString(strconv.Itoa((i*7919)%101) + "," + strconv.Itoa(i%2) + "," + string(rune('a'+i%3)) + "\n")
+	}
+	src := filepath.Join(dir, "pupils.csv")
+	if err := os.WriteFile(src, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	h := newHarness(t, Options{ChooseOpen: func(done func(string)) { done(src) }})
+	u := h.u
+	test.Tap(u.openScreen.openBtn)
+	h.wait()
+	test.Tap(u.next)
+	r := u.rolesScreen
+	r.outcome.SetSelected("score")
+	r.treatment.SetSelected("tutored")
+	r.moderator.SetSelected("area")
+	test.Tap(u.next)
+	test.Tap(u.next) // run
+	h.wait()
+	if u.analysis == nil {
+		t.Fatalf("no analysis: %s", h.overlayText())
+	}
+	test.Tap(u.findingsScreen.saveBtn)
+	h.wait()
+	text := h.overlayText()
+	if !strings.Contains(text, "The data stay in pupils.csv only: at more than 100,000 rows") {
+		t.Errorf("the saved dialog does not say where the data stay:\n%s", text)
+	}
+	if u.written == nil || u.written.DataNotCopied == 0 || u.written.Path != filepath.Join(dir, "pupils results.xlsx") {
+		t.Errorf("written: %+v", u.written)
+	}
+	if got := u.findingsScreen.where.Text; got != `This sheet has been added to pupils results.xlsx as sheet "Results".` {
+		t.Errorf("above the sheet after saving: %q", got)
+	}
+	if path := os.Getenv("SLOPEWISE_GUI_SHOT"); path != "" {
+		f, err := os.Create(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer f.Close()
+		if err := png.Encode(f, h.w.Canvas().Capture()); err != nil {
+			t.Fatal(err)
+		}
 	}
 }
