@@ -1,9 +1,7 @@
 package workbook
 
 import (
-	"errors"
 	"io"
-	"math"
 	"unsafe"
 )
 
@@ -33,8 +31,8 @@ type aheadSource struct {
 type rowBatch struct {
 	rows   []aheadRow
 	cols   []int32
-	starts []int32
-	ends   []int32
+	starts []int
+	ends   []int
 	arena  []byte
 	err    error // what the scanner said after the last row (io.EOF at the end)
 }
@@ -43,8 +41,12 @@ type aheadRow struct {
 	num, line, cells int
 }
 
-// aheadRows is how many rows a batch holds (a variable for tests).
+// aheadRows is how many rows a batch holds at most (a variable for
+// tests), and aheadBytes about how many bytes of text: a batch ends at
+// the row that reaches it.
 var aheadRows = 256
+
+const aheadBytes = 4 << 20
 
 func newAheadSource(scan *csvScanner) *aheadSource {
 	a := &aheadSource{scan: scan, ready: make(chan *rowBatch, 4), spare: make(chan *rowBatch, 6),
@@ -65,24 +67,21 @@ func (a *aheadSource) fill() {
 			b = &rowBatch{}
 		}
 		b.rows, b.cols, b.starts, b.ends, b.arena, b.err = b.rows[:0], b.cols[:0], b.starts[:0], b.ends[:0], b.arena[:0], nil
-		for len(b.rows) < aheadRows {
+		for len(b.rows) < aheadRows && len(b.arena) < aheadBytes {
 			line, err := a.scan.advance()
-			if err == nil && len(b.arena) > math.MaxInt32-(1<<28) {
-				err = errors.New("a batch of rows too long") // not reached: a cell is at most a few megabytes
-			}
 			if err != nil {
 				b.err = err
 				break
 			}
 			// The record's fields, the empty ones left out as Next leaves
 			// them out.
-			rec, base, prev := a.scan.record, int32(len(b.arena)), 0
+			rec, base, prev := a.scan.record, len(b.arena), 0
 			b.arena = append(b.arena, rec[:a.scan.ends[len(a.scan.ends)-1]]...)
 			for j, end := range a.scan.ends {
 				if end > prev {
 					b.cols = append(b.cols, int32(j))
-					b.starts = append(b.starts, base+int32(prev))
-					b.ends = append(b.ends, base+int32(end))
+					b.starts = append(b.starts, base+prev)
+					b.ends = append(b.ends, base+end)
 				}
 				prev = end
 			}

@@ -2,8 +2,11 @@ package workbook
 
 import (
 	"bufio"
+	"bytes"
+	"context"
 	"encoding/binary"
 	"errors"
+	"hash/crc32"
 	"io"
 	"os"
 	"slices"
@@ -20,13 +23,15 @@ import (
 // cannot be written (no space, no temporary folder) is dropped and the
 // passes parse the text as before.
 //
-// A chunk is: its row count n (uvarint); n row numbers (uvarints, each
-// the step from the row before); then for each column n numbers (their
-// 8 bytes each in this machine's order: the file never leaves the
-// process), n reasons (a byte each) and, for a column of texts, n text
-// numbers (uvarints: the text's place in the first pass's table of the
-// column's texts plus one, or 0 followed by the text's length and bytes
-// for a text past that table's limit).
+// A chunk is framed as its length (uvarint), its bytes, and their
+// CRC-32C (4 bytes), so that a copy damaged on disk is found rather than
+// read. Its bytes are: the row count n (uvarint); n row numbers
+// (uvarints, each the step from the row before); then for each column n
+// numbers (their 8 bytes each in this machine's order: the file never
+// leaves the process), n reasons (a byte each) and, for a column of
+// texts, n text numbers (uvarints: the text's place in the first pass's
+// table of the column's texts plus one, or 0 followed by the text's
+// length and bytes for a text past that table's limit).
 type replay struct {
 	names []string
 	size  int
@@ -73,6 +78,7 @@ func (r *replay) matches(names []string, size int) bool {
 // record appends a chunk; false when the replay has to be given up.
 func (r *replay) record(rows []int, cols []*chunkColumn) bool {
 	b := r.buf[:0]
+	b = append(b, make([]byte, binary.MaxVarintLen64)...) // room for the length
 	b = binary.AppendUvarint(b, uint64(len(rows)))
 	prev := 0
 	for _, row := range rows {
@@ -92,7 +98,15 @@ func (r *replay) record(rows []int, cols []*chunkColumn) bool {
 			}
 		}
 	}
+	// The length goes just before the chunk's bytes, in the room left.
+	body := b[binary.MaxVarintLen64:]
+	var head [binary.MaxVarintLen64]byte
+	h := binary.PutUvarint(head[:], uint64(len(body)))
+	start := binary.MaxVarintLen64 - h
+	copy(b[start:], head[:h])
+	b = binary.LittleEndian.AppendUint32(b, crc32.Checksum(body, castagnoli))
 	r.buf = b
+	b = b[start:]
 	r.rows += len(rows)
 	r.bytes += int64(len(b))
 	r.ends = append(r.ends, r.bytes)
@@ -150,39 +164,63 @@ var errBadReplay = errors.New("the pass's temporary copy does not read back")
 // each column's kind) and calls each with them; played counts the chunks
 // given to each, so that a pass that meets errBadReplay can go on from
 // there.
-func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, cols []*Column) error) (played int, err error) {
+func (r *replay) play(ctx context.Context, cols []*chunkColumn, out []*Column, each func(rows []int, cols []*Column) error) (played int, err error) {
 	if _, err := r.f.Seek(0, io.SeekStart); err != nil {
 		return 0, errBadReplay
 	}
 	br := bufio.NewReaderSize(r.f, 1<<20)
 	var rows []int
-	var raw []byte
-	total := 0
+	var frame, raw []byte
+	var cr bytes.Reader
+	total, last := 0, 0
 	for {
-		n, err := binary.ReadUvarint(br)
+		if err := ctx.Err(); err != nil {
+			return played, err
+		}
+		size, err := binary.ReadUvarint(br)
 		if err == io.EOF && total == r.rows {
 			return played, nil
 		}
-		if err != nil || n == 0 || n > uint64(r.size) {
+		if err != nil || size > maxChunkBytes {
 			return played, errBadReplay
 		}
+		if frame, err = readN(br, frame, int(size)+4); err != nil {
+			return played, errBadReplay
+		}
+		body := frame[:size]
+		if crc32.Checksum(body, castagnoli) != binary.LittleEndian.Uint32(frame[size:]) {
+			return played, errBadReplay
+		}
+		cr.Reset(body)
+		n, err := binary.ReadUvarint(&cr)
+		// Every chunk but the last is full, so that a pass that goes on
+		// after the chunks given counts them right.
+		if err != nil || n == 0 || n > uint64(r.size) || n < uint64(r.size) && total+int(n) != r.rows {
+			return played, errBadReplay
+		}
+		// Row numbers (from 1) rise strictly, within a chunk and from one
+		// chunk to the next.
 		rows = rows[:0]
 		prev := 0
 		for range n {
-			d, err := binary.ReadUvarint(br)
-			if err != nil {
+			d, err := binary.ReadUvarint(&cr)
+			if err != nil || d == 0 || d > 1<<40 {
 				return played, errBadReplay
 			}
 			prev += int(d)
 			rows = append(rows, prev)
 		}
+		if rows[0] <= last {
+			return played, errBadReplay
+		}
+		last = prev
 		for j, c := range cols {
 			c.Numbers = slices.Grow(c.Numbers[:0], int(n))[:n]
 			c.Missing = slices.Grow(c.Missing[:0], int(n))[:n]
-			if _, err := io.ReadFull(br, floatBytes(c.Numbers)); err != nil {
+			if _, err := io.ReadFull(&cr, floatBytes(c.Numbers)); err != nil {
 				return played, errBadReplay
 			}
-			if _, err := io.ReadFull(br, reasonBytes(c.Missing)); err != nil {
+			if _, err := io.ReadFull(&cr, reasonBytes(c.Missing)); err != nil {
 				return played, errBadReplay
 			}
 			if !textKind(c.Kind) {
@@ -191,7 +229,7 @@ func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, 
 			c.Texts = c.Texts[:0]
 			texts := r.texts[j]
 			for range n {
-				id, err := binary.ReadUvarint(br)
+				id, err := binary.ReadUvarint(&cr)
 				switch {
 				case err != nil || id > uint64(len(texts)):
 					return played, errBadReplay
@@ -199,15 +237,18 @@ func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, 
 					c.Texts = append(c.Texts, texts[id-1])
 					continue
 				}
-				l, err := binary.ReadUvarint(br)
-				if err != nil || l > maxCellBytes {
+				l, err := binary.ReadUvarint(&cr)
+				if err != nil || l > uint64(cr.Len()) {
 					return played, errBadReplay
 				}
-				if raw, err = readN(br, raw, int(l)); err != nil {
+				if raw, err = readN(&cr, raw, int(l)); err != nil {
 					return played, errBadReplay
 				}
 				c.Texts = append(c.Texts, string(raw))
 			}
+		}
+		if cr.Len() != 0 {
+			return played, errBadReplay
 		}
 		if err := each(rows, out); err != nil {
 			return played, err
@@ -217,16 +258,19 @@ func (r *replay) play(cols []*chunkColumn, out []*Column, each func(rows []int, 
 	}
 }
 
-// maxCellBytes bounds a text read back from a replay.
-const maxCellBytes = 1 << 26
+// castagnoli is the CRC-32C table (hardware-assisted on common CPUs).
+var castagnoli = crc32.MakeTable(crc32.Castagnoli)
+
+// maxChunkBytes bounds a chunk read back from a replay.
+const maxChunkBytes = 1 << 30
 
 // readN reads n bytes into buf's storage.
-func readN(br *bufio.Reader, buf []byte, n int) ([]byte, error) {
+func readN(r io.Reader, buf []byte, n int) ([]byte, error) {
 	if cap(buf) < n {
 		buf = make([]byte, n)
 	}
 	buf = buf[:n]
-	_, err := io.ReadFull(br, buf)
+	_, err := io.ReadFull(r, buf)
 	return buf, err
 }
 

@@ -221,7 +221,10 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	}
 	skip := 0 // chunks already given from a replay that broke off
 	if s.replay.matches(names, size) {
-		played, err := s.replay.play(cols, out, each)
+		played, err := s.replay.play(ctx, cols, out, each)
+		if ctx.Err() != nil && err == ctx.Err() {
+			return &Error{Path: s.Outline.Path, Cause: ErrCancelled, Underlying: err}
+		}
 		if !errors.Is(err, errBadReplay) {
 			return err
 		}

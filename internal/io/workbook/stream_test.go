@@ -322,17 +322,35 @@ func TestReplayFallsBack(t *testing.T) {
 	if err := s.Pass(context.Background(), names[:1], 7, func([]int, []*Column) error { chunks++; return nil }); err != nil || chunks != (want.Len()+6)/7 {
 		t.Fatalf("a pass over one column: %d chunks, %v", chunks, err)
 	}
-	// Damage the replay: cut it in the middle of a chunk, and where a
-	// chunk ends.
+	// A replayed pass stops when asked, as a parsed one does.
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	chunks = 0
+	if err := s.Pass(ctx, names, 7, func([]int, []*Column) error { chunks++; return nil }); !errors.Is(err, ErrCancelled) || chunks != 0 {
+		t.Fatalf("a cancelled replay: %d chunks, %v", chunks, err)
+	}
+	// Damage the replay: cut it in the middle of a chunk, where a chunk
+	// ends, and flip one bit in the middle.
 	chunkEnd := int64(0)
-	for _, cut := range []string{"middle", "end of a chunk"} {
+	for _, cut := range []string{"middle", "end of a chunk", "flipped bit"} {
 		info, err := s.replay.f.Stat()
 		if err != nil {
 			t.Fatal(err)
 		}
 		size := info.Size() / 2
-		if cut == "end of a chunk" {
+		switch cut {
+		case "end of a chunk":
 			size = chunkEnd
+		case "flipped bit":
+			b := make([]byte, 1)
+			if _, err := s.replay.f.ReadAt(b, size); err != nil {
+				t.Fatal(err)
+			}
+			b[0] ^= 0x10
+			if _, err := s.replay.f.WriteAt(b, size); err != nil {
+				t.Fatal(err)
+			}
+			size = info.Size()
 		}
 		if err := s.replay.f.Truncate(size); err != nil {
 			t.Fatal(err)
@@ -348,4 +366,49 @@ func TestReplayFallsBack(t *testing.T) {
 		chunkEnd = s.replay.ends[1] // where the second chunk ends
 	}
 	comparePass(t, s, want, names, path)
+}
+
+// TestAheadMatchesScanner reads files through the read-ahead and the
+// scanner alone: the same rows, cells and end, with batches cut by rows
+// and by bytes (a cell of 5 MB, more than a batch holds).
+func TestAheadMatchesScanner(t *testing.T) {
+	dir := t.TempDir()
+	big := strings.Repeat("x", 5<<20)
+	for n, text := range []string{
+		"a,b,c\n1,,3\n,,\n\n4,5,6\n\"q\nr\",7,8",
+		"a,b\n1," + big + "\n2,3\n" + big + ",4\n5,6\n",
+	} {
+		path := filepath.Join(dir, fmt.Sprintf("f%d.csv", n))
+		if err := os.WriteFile(path, []byte(text), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		tf, err := sniffText(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		one, err := openScanner(path, tf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		two, err := openScanner(path, tf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ahead := newAheadSource(two)
+		for row := 0; ; row++ {
+			n1, c1, e1 := one.Next()
+			n2, c2, e2 := ahead.Next()
+			if n1 != n2 || !reflect.DeepEqual(c1, c2) || (e1 == nil) != (e2 == nil) {
+				t.Fatalf("file %d, row %d: scanner %d %v %v; read-ahead %d %v %v", n, row, n1, len(c1), e1, n2, len(c2), e2)
+			}
+			if e1 != nil {
+				if e1 != io.EOF || e2 != io.EOF {
+					t.Fatalf("file %d: ends with %v and %v", n, e1, e2)
+				}
+				break
+			}
+		}
+		one.Close()
+		ahead.Close()
+	}
 }

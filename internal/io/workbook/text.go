@@ -136,9 +136,6 @@ func sniffText(path string) (*TextFormat, error) {
 	return tf, nil
 }
 
-// scanEncoding reads the whole file: UTF-8 if every byte sequence is
-// valid, else Windows-1252 if no byte is one that code page leaves
-// unassigned, else not text. A zero byte means a binary file.
 // isASCII reports whether b holds only bytes below 0x80, eight at a time.
 func isASCII(b []byte) bool {
 	for len(b) >= 8 {
@@ -155,6 +152,9 @@ func isASCII(b []byte) bool {
 	return true
 }
 
+// scanEncoding reads the whole file: UTF-8 if every byte sequence is
+// valid, else Windows-1252 if no byte is one that code page leaves
+// unassigned, else not text. A zero byte means a binary file.
 func scanEncoding(path string, br *bufio.Reader, tf *TextFormat) error {
 	valid := true
 	var carry []byte

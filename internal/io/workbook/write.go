@@ -35,7 +35,8 @@ type WriteOptions struct {
 	UnzipXMLSizeLimit int64
 	// CopyData says whether the workbook written beside a text source
 	// holds a copy of its data on a sheet of its own; by default only
-	// when the file has no more than CopyDataLines lines.
+	// when the file has no more than CopyDataLines lines (physical lines:
+	// a header, title lines and line breaks inside quotes count too).
 	CopyData CopyData
 	// CopyDataLines replaces DefaultCopyDataLines when positive.
 	CopyDataLines int
@@ -78,8 +79,9 @@ type Written struct {
 	// (only when writing a copy; in place such a source is refused).
 	Lost []string
 	// DataNotCopied is set when the workbook written beside a text
-	// source holds the results but not a copy of the data: the text
-	// file's line count when that was over the limit, or -1 when asked.
+	// source holds the results but not a copy of the data: positive (the
+	// limit's line count plus one) when the file has more lines than the
+	// limit, -1 when CopyDataNever asked for it.
 	DataNotCopied int
 }
 
