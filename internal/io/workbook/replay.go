@@ -55,18 +55,11 @@ const maxReplayBytes = 1 << 30
 // newReplay starts a replay file in the system's temporary folder; nil
 // when it cannot be made.
 func newReplay(names []string, size int) *replay {
-	f, err := os.CreateTemp("", "slopewise-pass-*")
+	f, path, err := createReplayFile()
 	if err != nil {
 		return nil
 	}
-	r := &replay{names: slices.Clone(names), size: size, f: f, w: bufio.NewWriterSize(f, 1<<20)}
-	// Removed at once where an open file can be (the space comes back
-	// when it is closed, even if the program is stopped); otherwise at
-	// close.
-	if os.Remove(f.Name()) != nil {
-		r.path = f.Name()
-	}
-	return r
+	return &replay{names: slices.Clone(names), size: size, f: f, path: path, w: bufio.NewWriterSize(f, 1<<20)}
 }
 
 // matches reports whether a pass over names in chunks of size can be
