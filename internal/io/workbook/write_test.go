@@ -523,3 +523,29 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 		t.Error("the other program's save was overwritten")
 	}
 }
+
+// TestWriteBesideCSVPointInCommaFile: in a decimal-comma file "1.5" is no
+// number (the point groups thousands), so the copy keeps it as the text
+// it is; a workbook has no decimal comma, and reading the copy takes it
+// for a number stored as text (the limit noted in pointOnlyColumns).
+func TestWriteBesideCSVPointInCommaFile(t *testing.T) {
+	dir := t.TempDir()
+	src := writeFile(t, dir, "mixed.csv", []byte("id;v\n1;1,5\n2;1.5\n3;2,25\n"))
+	a, err := Read(context.Background(), src, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if v := a.Column("v"); v.Kind != Number || v.Missing[1] != TextInNumbers {
+		t.Fatalf("the CSV's column v: %v, reasons %v", v.Kind, v.Missing)
+	}
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows := rawRows(t, w.Path)
+	for _, want := range []string{`B2="1.5"`, `B3="1.5"`, `B4="2.25"`} {
+		if !strings.Contains(rows[DataSheetName], want) {
+			t.Errorf("data sheet lacks %s:\n%s", want, rows[DataSheetName])
+		}
+	}
+}
