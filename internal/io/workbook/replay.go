@@ -43,7 +43,6 @@ type replay struct {
 	done  bool // the first pass ended well: the file holds every chunk
 	buf   []byte
 	texts [][]string // by column, the texts numbered in the file
-	ends  []int64    // where each chunk ends in the file (for tests)
 }
 
 // maxReplayBytes bounds a replay file (about 14 million rows of a dozen
@@ -102,7 +101,6 @@ func (r *replay) record(rows []int, cols []*chunkColumn) bool {
 	b = b[start:]
 	r.rows += len(rows)
 	r.bytes += int64(len(b))
-	r.ends = append(r.ends, r.bytes)
 	if r.bytes > maxReplayBytes {
 		return false
 	}

@@ -233,7 +233,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		s.Close()
 		skip = played
 		for _, c := range cols {
-			c.Numbers, c.Texts, c.Missing, c.ids = c.Numbers[:0], c.Texts[:0], c.Missing[:0], c.ids[:0]
+			c.reset()
 		}
 	}
 	scan, err := openScanner(s.Outline.Path, s.tf)
@@ -267,7 +267,7 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		}
 		rows = rows[:0]
 		for _, c := range cols {
-			c.Numbers, c.Texts, c.Missing, c.ids = c.Numbers[:0], c.Texts[:0], c.Missing[:0], c.ids[:0]
+			c.reset()
 		}
 		return nil
 	}
@@ -384,6 +384,11 @@ func (c *chunkColumn) add(cells []rawCell, decimalComma bool) {
 		c.Texts = append(c.Texts, text)
 		c.ids = append(c.ids, id)
 	}
+}
+
+// reset empties the column for the next chunk, keeping its storage.
+func (c *chunkColumn) reset() {
+	c.Numbers, c.Texts, c.Missing, c.ids = c.Numbers[:0], c.Texts[:0], c.Missing[:0], c.ids[:0]
 }
 
 // keep returns s as a string that outlives the chunk, one copy a text,

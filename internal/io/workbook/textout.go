@@ -65,17 +65,18 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	l := layOut(sheet)
 	tmp, err := buildInTemp(target, nil, limit, limitXML,
 		func(xf *excelize.File) error {
-			if w.DataNotCopied != 0 {
-				if err := xf.SetSheetName("Sheet1", name); err != nil {
+			// The data sheet first when there is one, then the results.
+			first := name
+			if w.DataNotCopied == 0 {
+				first = DataSheetName
+			}
+			if err := xf.SetSheetName("Sheet1", first); err != nil {
+				return err
+			}
+			if first != name {
+				if _, err := xf.NewSheet(name); err != nil {
 					return err
 				}
-				return drawCells(xf, name, l)
-			}
-			if err := xf.SetSheetName("Sheet1", DataSheetName); err != nil {
-				return err
-			}
-			if _, err := xf.NewSheet(name); err != nil {
-				return err
 			}
 			return drawCells(xf, name, l)
 		},
