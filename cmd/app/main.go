@@ -51,7 +51,7 @@ func opensFile(args []string) bool {
 
 // startProfile writes a CPU profile of a headless command to the file
 // named by SLOPEWISE_CPUPROFILE, for developers (DEVELOPERS.md,
-// "Profiling"); it returns the function that ends it.
+// "Habits"); it returns the function that ends it.
 func startProfile() func() {
 	path := os.Getenv("SLOPEWISE_CPUPROFILE")
 	if path == "" {
