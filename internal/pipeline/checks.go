@@ -57,6 +57,16 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		}
 		cols[name] = c
 	}
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+		if c := cols[name]; c != nil && c.Formulas.Missing > 0 {
+			f := c.Formulas
+			why := ""
+			if f.Why != "" {
+				why = " (" + f.Why + ")"
+			}
+			add(Blocking, "%d formula cell(s) of %q have no usable saved result, and Slopewise cannot calculate them%s. Open the workbook in a spreadsheet program and save it, which calculates every formula, then open it again; or choose another column.", f.Missing, name, why)
+		}
+	}
 	if len(out) > 0 || s.Outcome == "" || s.Treatment.Column == "" || s.Moderator.Column == "" {
 		if s.Outcome == "" || s.Treatment.Column == "" || s.Moderator.Column == "" {
 			add(Blocking, "Choose an outcome, a treatment and a moderator.")

@@ -45,6 +45,9 @@ func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Anal
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
+	if err := formulaError(t, run.Spec); err != nil {
+		return nil, err
+	}
 	res, err := estimate.FitContext(ctx, EngineData(t), run.Spec, nil)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
@@ -85,6 +88,13 @@ func Screen(ctx context.Context, sr report.ScreenRun, readProgress func(rows int
 // ScreenTable is Screen on a table already read.
 func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, progress func(done, total int)) (*ScreenAnalysis, error) {
 	sr.Base.Sheet, sr.Base.HeaderRow = t.Sheet, t.HeaderRow
+	spec := sr.Base.Spec
+	for _, m := range sr.Moderators() {
+		spec.Controls = append(spec.Controls, m.Column)
+	}
+	if err := formulaError(t, spec); err != nil {
+		return nil, err
+	}
 	sc, err := estimate.FitScreen(ctx, EngineData(t), sr.Base.Spec, sr.Moderators(), progress)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
@@ -100,6 +110,20 @@ func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, pr
 // text file).
 func (a *ScreenAnalysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
 	return workbook.WriteResults(a.Run.Base.File, a.Sheet, opts)
+}
+
+// formulaError refuses a run that uses a column with formula cells whose
+// values are unknown (no usable saved result, and Slopewise could not
+// calculate them): leaving those rows out would change the sample
+// without the evaluator knowing why. Columns the run does not use never
+// stop it.
+func formulaError(t *workbook.Table, s estimate.Spec) error {
+	for _, name := range usedColumns(t, s) {
+		if err := t.FormulaError(t.Column(name)); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 func where(t *workbook.Table) string {

@@ -18,6 +18,7 @@ type colBuilder struct {
 
 	numbers, converted, dates, dateTexts, bools int
 	distinctNums                                map[float64]struct{}
+	formulas                                    FormulaCount
 }
 
 func newColBuilder(index int) *colBuilder {
@@ -35,6 +36,9 @@ func (b *colBuilder) add(c *rawCell, decimalComma bool) {
 	if c == nil {
 		b.miss[row] = Blank
 		return
+	}
+	if c.Formula != noFormula {
+		b.countFormula(c.Formula)
 	}
 	switch c.Type {
 	case cellNoValue:
@@ -80,6 +84,20 @@ func (b *colBuilder) add(c *rawCell, decimalComma bool) {
 	}
 }
 
+func (b *colBuilder) countFormula(s formulaState) {
+	switch s {
+	case formulaSaved:
+		b.formulas.Saved++
+	case formulaComputed, formulaRecomputed:
+		b.formulas.Computed++
+	default:
+		b.formulas.Missing++
+	}
+	if s == formulaStale || s == formulaRecomputed {
+		b.formulas.Stale++
+	}
+}
+
 // grow doubles a full slice's capacity: append alone grows a long slice
 // by a quarter, copying a million-row column a dozen times over.
 func grow[T any](s []T) []T {
@@ -109,6 +127,7 @@ const maxLevels = 50
 // finish decides the column's kind and fills col.
 func (b *colBuilder) finish(col *Column) {
 	col.Missing = b.miss
+	col.Formulas = b.formulas
 	present := 0
 	for _, r := range b.miss {
 		if r == Present {

@@ -28,11 +28,24 @@ type rawCell struct {
 	// Date marks a number displayed with a date or time format; Num is
 	// then a 1900-system serial.
 	Date bool
-	// Formula marks a cell whose value came from a formula.
-	Formula bool
+	// Formula says whether the cell holds a formula and where its value
+	// came from.
+	Formula formulaState
 	// Line is the line of a text file the cell starts on (0 in workbooks).
 	Line int
 }
+
+// formulaState says where a formula cell's value came from.
+type formulaState uint8
+
+const (
+	noFormula         formulaState = iota
+	formulaSaved                   // the result saved in the file
+	formulaComputed                // calculated by Slopewise (formulas.go)
+	formulaRecomputed              // likewise, in place of a saved result marked out of date
+	formulaMissing                 // no saved result, not calculated
+	formulaStale                   // a saved result the workbook says is out of date, not calculated
+)
 
 // rowSource delivers a sheet's non-empty rows in order. It is the seam
 // between the file formats and the column builder: a faster workbook

@@ -21,8 +21,8 @@ import (
 // sheetStream. fellBack is true when the fast reader gave the sheet back.
 func readBoth(t *testing.T, path string, opts Options) (fast, slow *Table, fastErr, slowErr error, fellBack bool) {
 	t.Helper()
-	fast, fastErr = read(context.Background(), path, opts, true)
-	slow, slowErr = read(context.Background(), path, opts, false)
+	fast, fastErr = readTable(context.Background(), path, opts, true)
+	slow, slowErr = readTable(context.Background(), path, opts, false)
 	return fast, slow, fastErr, slowErr, errors.Is(fastErr, errFastFallback)
 }
 

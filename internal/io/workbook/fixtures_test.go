@@ -22,12 +22,15 @@ type rawBook struct {
 	date1904 bool
 	extra    map[string]string // additional parts, verbatim
 	wbExtra  string            // XML inserted into <workbook> before <sheets>
+	wbAfter  string            // XML inserted into <workbook> after <sheets>
 }
 
 type rawSheet struct {
 	name  string
 	rows  []string // each: the inner XML of a <row>, r attributes included
 	chart bool     // a chart sheet instead of a worksheet
+	tail  string   // XML after <sheetData>, such as <tableParts>
+	rels  string   // the sheet's relationships (inner XML), if any
 }
 
 // row makes a <row r="n"> with the given cells.
@@ -83,7 +86,10 @@ func (b *rawBook) bytes(t testing.TB) []byte {
 		fmt.Fprintf(&ct, `<Override PartName="/xl/%s/sheet%d.xml" ContentType="%s"/>`, dir, i+1, ctype)
 		fmt.Fprintf(&rels, `<Relationship Id="rId%d" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/%s" Target="%s/sheet%d.xml"/>`, i+1, kind, dir, i+1)
 		fmt.Fprintf(&sheets, `<sheet name="%s" sheetId="%d" r:id="rId%d"/>`, s.name, i+1, i+1)
-		body := fmt.Sprintf(`<?xml version="1.0" encoding="UTF-8" standalone="yes"?><%s %s><sheetData>%s</sheetData></%s>`, root, ns, strings.Join(s.rows, ""), root)
+		body := fmt.Sprintf(`<?xml version="1.0" encoding="UTF-8" standalone="yes"?><%s %s><sheetData>%s</sheetData>%s</%s>`, root, ns, strings.Join(s.rows, ""), s.tail, root)
+		if s.rels != "" {
+			put(fmt.Sprintf("xl/%s/_rels/sheet%d.xml.rels", dir, i+1), `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><Relationships xmlns="http://schemas.openxmlformats.org/package/2006/relationships">`+s.rels+`</Relationships>`)
+		}
 		if s.chart {
 			body = fmt.Sprintf(`<?xml version="1.0" encoding="UTF-8" standalone="yes"?><chartsheet %s><sheetViews><sheetView workbookViewId="0"/></sheetViews></chartsheet>`, ns)
 		}
@@ -97,7 +103,7 @@ func (b *rawBook) bytes(t testing.TB) []byte {
 	if b.date1904 {
 		pr = `<workbookPr date1904="1"/>`
 	}
-	put("xl/workbook.xml", fmt.Sprintf(`<?xml version="1.0" encoding="UTF-8" standalone="yes"?><workbook %s>%s%s<sheets>%s</sheets></workbook>`, ns, pr, b.wbExtra, sheets.String()))
+	put("xl/workbook.xml", fmt.Sprintf(`<?xml version="1.0" encoding="UTF-8" standalone="yes"?><workbook %s>%s%s<sheets>%s</sheets>%s</workbook>`, ns, pr, b.wbExtra, sheets.String(), b.wbAfter))
 	put("xl/_rels/workbook.xml.rels", rels.String())
 	var nf, xf strings.Builder
 	if len(b.numFmts) > 0 {

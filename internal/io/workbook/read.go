@@ -28,6 +28,10 @@ type Options struct {
 	// Progress, when set, is called with the number of rows read so far,
 	// every few thousand rows.
 	Progress func(rows int)
+
+	// formulas holds the values calculated for the sheet's formula cells
+	// after a first reading (formulas.go).
+	formulas *formulaResults
 }
 
 // NoHeader is the HeaderRow value for a sheet without column names.
@@ -46,16 +50,57 @@ const headerScanRows = 50
 
 // Read reads one sheet of a workbook or a text file into a Table.
 // The file is only read, never changed.
+//
+// Formula cells without a usable saved result are calculated where
+// Slopewise can (formulas.go), which reads the sheet a second time with
+// the calculated values in place.
 func Read(ctx context.Context, path string, opts Options) (*Table, error) {
-	t, err := read(ctx, path, opts, true)
-	if errors.Is(err, errFastFallback) {
-		return read(ctx, path, opts, false)
-	}
-	return t, err
+	return readCalc(ctx, path, opts, true)
 }
 
-// read is Read with the fast worksheet reader or with sheetStream.
-func read(ctx context.Context, path string, opts Options, fast bool) (*Table, error) {
+// readCalc is Read with the fast worksheet reader (falling back to
+// sheetStream), or with sheetStream only.
+func readCalc(ctx context.Context, path string, opts Options, fast bool) (*Table, error) {
+	opts.formulas = nil
+	t, log, err := readFast(ctx, path, opts, fast)
+	if err != nil || len(log.need) == 0 && !log.over {
+		return t, err
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, &Error{Path: path, Sheet: t.Sheet, Cause: ErrCancelled, Underlying: err}
+	}
+	res := calculate(path, t.Sheet, t.part, log, opts)
+	if len(res.values) > 0 {
+		opts.formulas = res
+		if t, _, err = readFast(ctx, path, opts, fast); err != nil {
+			return nil, err
+		}
+	}
+	t.explainFormulas(res)
+	return t, nil
+}
+
+// readFast is read with the fast worksheet reader, falling back to the
+// standard one; or, with fast false, with the standard one only.
+func readFast(ctx context.Context, path string, opts Options, fast bool) (*Table, formulaLog, error) {
+	t, log, err := read(ctx, path, opts, fast)
+	if fast && errors.Is(err, errFastFallback) {
+		return read(ctx, path, opts, false)
+	}
+	return t, log, err
+}
+
+// read is Read with the fast worksheet reader or with sheetStream; it
+// also gives the formula cells that need a value calculated.
+func read(ctx context.Context, path string, opts Options, fast bool) (*Table, formulaLog, error) {
+	t, err := readTable(ctx, path, opts, fast)
+	if err != nil {
+		return nil, formulaLog{}, err
+	}
+	return t, t.formulaLog, nil
+}
+
+func readTable(ctx context.Context, path string, opts Options, fast bool) (*Table, error) {
 	f, err := sniff(path)
 	if err != nil {
 		return nil, err
@@ -100,6 +145,10 @@ func read(ctx context.Context, path string, opts Options, fast bool) (*Table, er
 			return nil, e
 		}
 		return nil, &Error{Path: path, Sheet: table.Sheet, Underlying: err}
+	}
+	if x, ok := src.(interface{ xlsx() *xlsxPackage }); ok {
+		table.formulaLog = x.xlsx().formulas
+		table.part = x.xlsx().parts[table.Sheet]
 	}
 	return table, nil
 }
@@ -385,10 +434,6 @@ func columnNotes(t *Table, col *Column) []Note {
 	}
 	if col.Converted > 0 {
 		add("%d number(s) stored as text were read as numbers", col.Converted)
-	}
-	if n := col.MissingCount[NoCachedValue]; n > 0 {
-		first := firstMissing(col, NoCachedValue)
-		add("%d formula cell(s) have no saved result (the first is %s), so they count as missing; the file was probably written by a program that does not calculate. Open it in a spreadsheet program, save it, and read it again", n, t.CellRef(col, first))
 	}
 	if col.Kind == Empty && col.MissingCount[ErrorValue] > 0 {
 		add("every cell with a value is an error value (such as #DIV/0!), so the column has no usable values; check the formulas that fill it")

@@ -39,7 +39,7 @@ func visitsBook() *rawBook {
 		case 5:
 			score = inl(ref("D"), "pending")
 		case 6:
-			score = formulaNoValue(ref("D"), "B6*2")
+			score = formulaNoValue(ref("D"), "INDIRECT(\"A6\")*2")
 		case 7:
 			score = ""
 		}
@@ -124,7 +124,7 @@ func TestReadMessySheet(t *testing.T) {
 	for _, want := range []string{
 		`another column is already named "Score", so this one is called "Score (2)"`,
 		`cell E3, column "Column E": the header cell is blank`,
-		`formula cell(s) have no saved result (the first is sheet "Visits", cell D10)`,
+		`1 formula cell(s), the first at sheet "Visits", cell D10, have no saved result, and Slopewise cannot calculate them (the formula in D10 uses INDIRECT, which Slopewise does not calculate)`,
 		`1 number(s) stored as text were read as numbers`,
 		`column "Column E": every cell with a value is an error value`,
 		`text value(s) in this number column count as missing, the first at sheet "Visits", cell D9`,

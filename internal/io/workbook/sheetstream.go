@@ -202,8 +202,41 @@ func (s *sheetStream) readCell(start xml.StartElement, col int) (rawCell, bool, 
 
 // cell turns a cell's parts into a rawCell; keep is false for cells with
 // nothing in them (a styled empty cell).
+//
+// An empty <v></v> or <v/> is no value: openpyxl writes every formula so,
+// and xlsxwriter a formula given an empty result (observed in the files
+// of testdata/interop). Only a text result (t="str") may be empty text.
+// A formula cell's value is the one Slopewise calculated, when it did
+// (formulas.go); else the saved result, unless there is none or the
+// workbook says its saved results are out of date (fullCalcOnLoad), when
+// the cell is a cellNoValue and is logged for calculation.
 func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV, hasF bool) (rawCell, bool, error) {
-	c := rawCell{Col: col, Formula: hasF}
+	if hasV && typ != "str" && typ != "inlineStr" && strings.TrimSpace(v) == "" {
+		hasV = false
+	}
+	c := rawCell{Col: col}
+	if hasF {
+		key := cellKey{row: int32(s.row), col: int32(col)}
+		switch cv, ok := s.pkg.computed[key]; {
+		case ok:
+			c.Formula = formulaComputed
+			if hasV && s.pkg.staleResults {
+				c.Formula = formulaRecomputed
+			}
+			typ, v, inline, hasV = cv.typ, cv.v, "", true
+		case !hasV && typ != "inlineStr":
+			c.Formula = formulaMissing
+		case s.pkg.staleResults:
+			c.Formula = formulaStale
+		default:
+			c.Formula = formulaSaved
+		}
+		if c.Formula == formulaMissing || c.Formula == formulaStale {
+			s.pkg.logFormula(key)
+			c.Type = cellNoValue
+			return c, true, nil
+		}
+	}
 	switch typ {
 	case "s":
 		if !hasV {
@@ -220,14 +253,13 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 			c.Text = v
 		}
 	case "str":
-		if !hasV && hasF {
-			c.Type = cellNoValue
-			break
+		if !hasV {
+			return c, false, nil
 		}
 		c.Type, c.Text = cellText, v
 	case "b":
 		if !hasV {
-			return s.noValue(c, hasF)
+			return c, false, nil
 		}
 		c.Type = cellBool
 		if strings.TrimSpace(v) == "1" {
@@ -236,10 +268,13 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 			c.Num, c.Text = 0, "FALSE"
 		}
 	case "e":
+		if !hasV {
+			return c, false, nil
+		}
 		c.Type, c.Text = cellError, v
 	case "d":
 		if !hasV {
-			return s.noValue(c, hasF)
+			return c, false, nil
 		}
 		n, ok := parseDate(strings.TrimSpace(v))
 		if !ok {
@@ -249,7 +284,7 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 		c.Type, c.Num, c.Date = cellNumber, n, true
 	case "", "n":
 		if !hasV {
-			return s.noValue(c, hasF)
+			return c, false, nil
 		}
 		n, err := parseValue(strings.TrimSpace(v))
 		if err != nil {
@@ -277,14 +312,6 @@ func parseValue(v string) (float64, error) {
 		}
 	}
 	return strconv.ParseFloat(v, 64)
-}
-
-func (s *cellReader) noValue(c rawCell, hasF bool) (rawCell, bool, error) {
-	if hasF {
-		c.Type = cellNoValue
-		return c, true, nil
-	}
-	return c, false, nil
 }
 
 func (s *cellReader) cellDamaged(col int, err error) error {

@@ -26,6 +26,9 @@ type Table struct {
 	Notes []Note
 	// Text describes how a text file was read; nil for workbooks.
 	Text *TextFormat
+
+	formulaLog formulaLog // formula cells that need a value (formulas.go)
+	part       string     // the worksheet's part in the package
 }
 
 // TextFormat is what was sniffed from a text file.
@@ -104,14 +107,16 @@ const (
 	Marker
 	// TextInNumbers: text in a column that is otherwise numeric.
 	TextInNumbers
-	// NoCachedValue: a formula whose result was never calculated and saved.
+	// NoCachedValue: a formula without a usable saved result (none, or
+	// one the workbook marks as out of date) that Slopewise could not
+	// calculate.
 	NoCachedValue
 	// BadDate: a value in a date column that is not a date.
 	BadDate
 	numReasons
 )
 
-var reasonNames = [...]string{"present", "blank", "error value", "missing marker", "text in a number column", "formula without a saved result", "not a date"}
+var reasonNames = [...]string{"present", "blank", "error value", "missing marker", "text in a number column", "formula without a usable saved result", "not a date"}
 
 func (r Reason) String() string {
 	if int(r) >= len(reasonNames) {
@@ -151,7 +156,32 @@ type Column struct {
 	MissingCount [numReasons]int
 	// Converted counts numbers that were stored as text and converted.
 	Converted int
+	// Formulas counts the column's formula cells in data rows by where
+	// their values came from.
+	Formulas FormulaCount
 }
+
+// FormulaCount counts a column's formula cells by where their values
+// came from.
+type FormulaCount struct {
+	// Saved: the result saved in the file was read.
+	Saved int
+	// Computed: the file held no result, or one it marks as out of date,
+	// and Slopewise calculated it.
+	Computed int
+	// Missing: no usable result and not calculated; these cells are
+	// missing with the reason NoCachedValue.
+	Missing int
+	// Stale counts the cells among Computed and Missing whose saved
+	// result the workbook marks as out of date (it asks to be
+	// recalculated when opened).
+	Stale int
+	// Why says why the first missing one was not calculated.
+	Why string
+}
+
+// Total is the number of formula cells.
+func (f FormulaCount) Total() int { return f.Saved + f.Computed + f.Missing }
 
 // MissingTotal is the number of missing cells for any reason.
 func (c *Column) MissingTotal() int {

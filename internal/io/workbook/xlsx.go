@@ -59,6 +59,14 @@ type xlsxPackage struct {
 	sstPart  string
 	limit    int64
 	limitXML int64
+	// staleResults: the workbook asks to be recalculated when opened
+	// (calcPr fullCalcOnLoad), so its formulas' saved results are not
+	// trusted (xlsxwriter writes 0 as every formula's result and sets it).
+	staleResults bool
+	// computed holds the values Slopewise calculated for formula cells of
+	// the sheet being read; formulas logs the cells that need one.
+	computed map[cellKey]computedValue
+	formulas formulaLog
 }
 
 // Close closes the workbook file, if the package was opened from one.
@@ -313,6 +321,9 @@ type xmlWorkbook struct {
 		RID     string `xml:"http://schemas.openxmlformats.org/officeDocument/2006/relationships id,attr"`
 		RIDs    string `xml:"http://purl.oclc.org/ooxml/officeDocument/relationships id,attr"`
 	} `xml:"sheets>sheet"`
+	CalcPr struct {
+		FullCalcOnLoad string `xml:"fullCalcOnLoad,attr"`
+	} `xml:"calcPr"`
 }
 
 // readWorkbook finds the workbook part, its sheets and their parts.
@@ -352,6 +363,7 @@ func (p *xlsxPackage) readWorkbook() error {
 		}
 	}
 	p.wbPart = wbPart
+	p.staleResults = xmlTrue(wb.CalcPr.FullCalcOnLoad)
 	p.rids = map[string]string{}
 	for _, s := range wb.Sheets {
 		rid := s.RID
@@ -367,6 +379,12 @@ func (p *xlsxPackage) readWorkbook() error {
 		}
 	}
 	return nil
+}
+
+// xmlTrue reads an XML Schema boolean ("1" or "true").
+func xmlTrue(v string) bool {
+	v = strings.TrimSpace(v)
+	return v == "1" || v == "true"
 }
 
 // file finds a zip entry by part name, ignoring case and slash direction
@@ -420,6 +438,9 @@ func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, err
 			p.Close()
 			return nil, "", fail(path, ErrNoSheets, "")
 		}
+	}
+	if opts.formulas != nil {
+		p.computed = opts.formulas.values
 	}
 	part, ok := p.parts[name]
 	if !ok {
