@@ -87,6 +87,9 @@ Options:
                            effect to be the same to within D
   --sheet NAME             the sheet to read (default: the first)
   --header-row N           the row holding the column names (default: found)
+  --table NAME             read only this table of the workbook (a named
+                           table with a header row), leaving out its totals
+                           row; the sheet that holds it is found
   --out PATH               write the results into a copy at PATH instead
   --copy-data auto|yes|no  for a .csv, .tsv or .txt file: copy its data into
                            the results workbook too (auto, the default: when
@@ -171,7 +174,7 @@ type modelFlags struct {
 	file                        string
 	outcome, treatment, treated string
 	controls, cluster, weights  string
-	se, sheet, out              string
+	se, sheet, out, table       string
 	copyData                    string
 	randomized, json, dryRun    bool
 	alpha                       float64
@@ -209,6 +212,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.BoolVar(&f.dryRun, "dry-run", false, "")
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "")
 	fs.IntVar(&f.headerRow, "header-row", 0, "")
+	fs.StringVar(&f.table, "table", "", "")
 	fs.BoolVar(&f.noBootstrap, "no-bootstrap", false, "")
 	fs.IntVar(&f.draws, "draws", 0, "")
 	fs.Uint64Var(&f.seed, "seed", 0, "")
@@ -326,6 +330,9 @@ func (f *modelFlags) check() error {
 	}
 	if f.headerRow < 0 {
 		return usagef("--header-row must be a row number, 1 or more, not %d", f.headerRow)
+	}
+	if f.table != "" && f.headerRow > 0 {
+		return usagef("--table reads the table's own header row, so --header-row has no effect; leave one of them out")
 	}
 	if f.dryRun && f.out != "" {
 		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
@@ -457,7 +464,7 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 
 // run is the run's file, sheet and facts, before its spec is known.
 func (f *modelFlags) run() report.Run {
-	return report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Randomized: f.randomized, Version: version, Time: time.Now()}
+	return report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Table: f.table, Randomized: f.randomized, Version: version, Time: time.Now()}
 }
 
 // human is where the readable summary goes: standard error when standard

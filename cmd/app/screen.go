@@ -31,8 +31,8 @@ Every option of analyze but the moderator's own (--moderator,
 --moderator-type, --reference, --moderator-values, --center) works here
 too: --treated, --controls, --cluster, --weights, --se, --randomized,
 --alpha, --no-bootstrap, --draws, --seed, --equivalence-margin, --sheet,
---header-row, --out, --copy-data, --json, --dry-run. Run "slopewise help
-analyze" for what they do.
+--header-row, --table, --out, --copy-data, --json, --dry-run. Run
+"slopewise help analyze" for what they do.
 
 Exit status: 0 done, 1 a problem with the data or the model (the message
 names the moderator, column, sheet or cell), 2 a problem with the command

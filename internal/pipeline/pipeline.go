@@ -25,7 +25,7 @@ type Analysis struct {
 
 // Read reads the run's sheet.
 func Read(ctx context.Context, run report.Run, progress func(rows int)) (*workbook.Table, error) {
-	return workbook.Read(ctx, run.File, workbook.Options{Sheet: run.Sheet, HeaderRow: run.HeaderRow, Progress: progress})
+	return workbook.Read(ctx, run.File, workbook.Options{Sheet: run.Sheet, HeaderRow: run.HeaderRow, Table: run.Table, Progress: progress})
 }
 
 // Analyze reads the data, fits the model and builds the results sheet.
@@ -41,7 +41,7 @@ func Analyze(ctx context.Context, run report.Run, progress func(rows int)) (*Ana
 
 // AnalyzeTable fits and builds from a table already read.
 func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Analysis, error) {
-	run.Sheet, run.HeaderRow = t.Sheet, t.HeaderRow
+	run.Sheet, run.HeaderRow, run.Table = t.Sheet, t.HeaderRow, t.Region
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
@@ -87,7 +87,7 @@ func Screen(ctx context.Context, sr report.ScreenRun, readProgress func(rows int
 
 // ScreenTable is Screen on a table already read.
 func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, progress func(done, total int)) (*ScreenAnalysis, error) {
-	sr.Base.Sheet, sr.Base.HeaderRow = t.Sheet, t.HeaderRow
+	sr.Base.Sheet, sr.Base.HeaderRow, sr.Base.Table = t.Sheet, t.HeaderRow, t.Region
 	spec := sr.Base.Spec
 	for _, m := range sr.Moderators() {
 		spec.Controls = append(spec.Controls, m.Column)

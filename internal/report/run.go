@@ -15,6 +15,8 @@ type Run struct {
 	File      string `json:"file"`
 	Sheet     string `json:"sheet,omitempty"`
 	HeaderRow int    `json:"header_row,omitempty"`
+	// Table is the workbook table read as the data region, if one was.
+	Table string `json:"table,omitempty"`
 
 	Spec estimate.Spec `json:"spec"`
 

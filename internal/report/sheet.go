@@ -157,6 +157,9 @@ func (b *sheetBuilder) data() {
 	if b.run.Sheet != "" {
 		rows = append(rows, pair("Sheet", b.run.Sheet))
 	}
+	if b.run.Table != "" {
+		rows = append(rows, pair("Table", b.run.Table))
+	}
 	if b.run.HeaderRow > 0 {
 		rows = append(rows, []Cell{HeadingCell("Header row"), NumberCell(float64(b.run.HeaderRow), "0")})
 	}

@@ -39,9 +39,9 @@ var calcFormulas = []string{
 // reason applies), each for a difference between excelize and LibreOffice
 // seen in this test, or for a function it does not calculate.
 var calcRefused = []struct{ formula, why string }{
-	{"A{r}&\"-\"&B{r}", "joins values into text with &"},                   // 1e+10 against 10000000000
-	{"IF(D{r}=\"\",1,2)", "uses the empty cell"},          // excelize: blank <> ""
-	{"D{r}", "uses the empty cell"},                        // excelize: an empty result, not 0
+	{"A{r}&\"-\"&B{r}", "joins values into text with &"}, // 1e+10 against 10000000000
+	{"IF(D{r}=\"\",1,2)", "uses the empty cell"},         // excelize: blank <> ""
+	{"D{r}", "uses the empty cell"},                      // excelize: an empty result, not 0
 	{"SUM(A{r}:B{r},$D$2)", "adds up TRUE/FALSE values"}, // LibreOffice counts D2's TRUE as 1
 	{"INDIRECT(\"A{r}\")", "uses INDIRECT"},
 	{"Sheet2!A1", "refers to another sheet"},

@@ -28,6 +28,12 @@ type Options struct {
 	// Progress, when set, is called with the number of rows read so far,
 	// every few thousand rows.
 	Progress func(rows int)
+	// Table names a table of the workbook (DataTable) to read as the data
+	// region: its header row and its data rows, without its totals row
+	// and without what lies outside it. Without Sheet, the sheet that
+	// holds it. Empty means the sheet, or its only table when that
+	// table's header row is the header row found.
+	Table string
 
 	// formulas holds the values calculated for the sheet's formula cells
 	// after a first reading (formulas.go).
@@ -173,6 +179,19 @@ func build(ctx context.Context, src rowSource, t *Table, opts Options, decimalCo
 // scanRows finds the header row of src, as Options say, and hands every
 // data row after it to b.
 func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tableBuilder) error {
+	if x, ok := src.(interface{ xlsx() *xlsxPackage }); ok && x.xlsx().filter != nil {
+		b.filter = x.xlsx().filter
+		t.Tables = b.filter.tables
+		for _, n := range x.xlsx().tableNotes {
+			t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: n})
+		}
+		if r := b.filter.region; r != nil {
+			opts.HeaderRow = r.FirstRow
+			if r.HeaderRows == 0 {
+				opts.HeaderRow = NoHeader
+			}
+		}
+	}
 	var buf []bufRow
 	for len(buf) < headerScanRows {
 		num, cells, err := src.Next()
@@ -182,7 +201,8 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		if err != nil {
 			return err
 		}
-		if isBlankRow(cells) {
+		cells, drop := b.filter.keep(num, cells)
+		if drop || isBlankRow(cells) {
 			continue
 		}
 		buf = append(buf, bufRow{num, keptCells(src, cells)})
@@ -217,6 +237,12 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		} else {
 			t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: "no header row was found, so columns are named after their letters; set the header row if this is wrong"})
 		}
+	}
+	if f := b.filter; f != nil && f.region == nil && f.auto != nil && t.HeaderRow == f.auto.FirstRow && f.auto.HeaderRows == 1 {
+		f.region = f.auto
+	}
+	if b.filter != nil && b.filter.region != nil {
+		headerCells, _ = b.filter.keep(t.HeaderRow, append([]rawCell(nil), headerCells...))
 	}
 	_, isText := src.(*textSource)
 	isScanned := scannedText(src)
@@ -312,6 +338,8 @@ type tableBuilder struct {
 	// fixedWidth: a text file's rows may not be wider than its header.
 	fixedWidth bool
 	width      int
+	// filter keeps a workbook's rows to the data region (tables.go).
+	filter *regionFilter
 }
 
 func (b *tableBuilder) col(i int) colAdder {
@@ -340,6 +368,10 @@ func (b *tableBuilder) col(i int) colAdder {
 const maxDenseColumns = 1 << 14
 
 func (b *tableBuilder) addRow(num int, cells []rawCell) error {
+	cells, drop := b.filter.keep(num, cells)
+	if drop {
+		return nil
+	}
 	if isBlankRow(cells) {
 		if b.blankRows == 0 {
 			b.firstBlank = num
@@ -410,6 +442,7 @@ func (b *tableBuilder) columnNames() ([]int, []string) {
 
 func (b *tableBuilder) finish() {
 	t := b.t
+	b.filter.notes(t)
 	idx, names := b.columnNames()
 	if b.blankRows > 0 {
 		t.Notes = append(t.Notes, Note{Sheet: t.Sheet, Text: fmt.Sprintf("%d entirely blank row(s) were left out, the first being row %d", b.blankRows, b.firstBlank)})

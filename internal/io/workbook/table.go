@@ -26,6 +26,10 @@ type Table struct {
 	Notes []Note
 	// Text describes how a text file was read; nil for workbooks.
 	Text *TextFormat
+	// Tables are the tables defined in the sheet; Region names the one
+	// read as the data region, empty when the whole sheet was read.
+	Tables []DataTable
+	Region string
 
 	formulaLog formulaLog // formula cells that need a value (formulas.go)
 	part       string     // the worksheet's part in the package

@@ -67,6 +67,9 @@ type xlsxPackage struct {
 	// the sheet being read; formulas logs the cells that need one.
 	computed map[cellKey]computedValue
 	formulas formulaLog
+	// filter keeps the sheet read to its data region (tables.go).
+	filter     *regionFilter
+	tableNotes []string
 }
 
 // Close closes the workbook file, if the package was opened from one.
@@ -427,6 +430,23 @@ func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, err
 		return nil, "", err
 	}
 	name := opts.Sheet
+	if name == "" && opts.Table != "" {
+		for _, s := range p.sheets {
+			if !s.Worksheet {
+				continue
+			}
+			if tables, _ := p.sheetTables(p.parts[s.Name]); len(tables) > 0 {
+				if _, ok := findTable(tables, opts.Table); ok {
+					name = s.Name
+					break
+				}
+			}
+		}
+		if name == "" {
+			p.Close()
+			return nil, "", &Error{Path: path, Cause: ErrTableNotFound, Detail: fmt.Sprintf("no sheet holds a table named %q", opts.Table)}
+		}
+	}
 	if name == "" {
 		for _, s := range p.sheets {
 			if s.Worksheet && !s.Hidden {
@@ -452,6 +472,19 @@ func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, err
 		}
 		return nil, "", &Error{Path: path, Sheet: name, Cause: ErrSheetNotFound, Detail: "the sheets are " + sheetList(p.sheets)}
 	}
+	tables, tableNotes := p.sheetTables(part)
+	p.filter = &regionFilter{tables: tables}
+	if opts.Table != "" {
+		d, ok := findTable(tables, opts.Table)
+		if !ok {
+			p.Close()
+			return nil, "", &Error{Path: path, Sheet: name, Cause: ErrTableNotFound, Detail: "the tables of this sheet are " + tableNames(tables)}
+		}
+		p.filter.region = &d
+	} else if len(tables) == 1 {
+		p.filter.auto = &tables[0]
+	}
+	p.tableNotes = tableNotes
 	var src rowSource
 	if fast {
 		src, err = newFastSheet(p, part)
