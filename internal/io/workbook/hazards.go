@@ -26,7 +26,8 @@ type hazard struct {
 //   - xlsxWorkbookProtection has no workbookPassword attribute;
 //   - xlsxDefinedName spells the xlm attribute "xml", so Excel 4.0 macro
 //     names lose their mark;
-//   - xlsxWorkbookPr has no dateCompatibility attribute;
+//   - (xlsxWorkbookPr has no dateCompatibility attribute: settings.go puts
+//     it back, with the other workbookPr and calcPr attributes;)
 //   - xlsxDxf maps the extension list of differential formats to an
 //     unrelated type, dropping its content;
 //   - Strict Open XML namespaces are rewritten in some parts only, which
@@ -104,10 +105,6 @@ func scanWorkbookXML(body []byte, add func(hazard)) {
 		case "definedName":
 			if attr(t, "xlm") != "" {
 				add(hazard{feature: "Excel 4.0 macro names"})
-			}
-		case "workbookPr":
-			if attr(t, "dateCompatibility") != "" {
-				add(hazard{feature: "the date compatibility setting"})
 			}
 		case "oleSize":
 			add(hazard{feature: "the display area of the embedded object"})

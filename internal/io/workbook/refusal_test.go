@@ -181,9 +181,6 @@ var refusals = []refusal{
 		})
 		return writeFile(t, dir, "dxf.xlsx", b)
 	}, cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses extended formatting in conditional formats")},
-	{name: "date compatibility", write: true, make: bookMaker("compat.xlsx", func() *rawBook {
-		return withWorkbookXML(`<workbookPr dateCompatibility="0"/>`)
-	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses the date compatibility setting")},
 	{name: "embedded object area", write: true, make: bookMaker("ole.xlsx", func() *rawBook {
 		return withWorkbookXML(`<oleSize ref="A1:D10"/>`)
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses the display area of the embedded object")},

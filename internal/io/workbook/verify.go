@@ -5,9 +5,12 @@ import (
 	"bytes"
 	"crypto/sha256"
 	"encoding/xml"
+	"errors"
 	"fmt"
 	"io"
 	"os"
+	"sort"
+	"strings"
 )
 
 // verifyRewrite re-opens the rewritten file and checks that every sheet of
@@ -38,6 +41,21 @@ func verifyRewrite(orig []byte, tmpPath string, replaced string, limit, limitXML
 	}
 	if err := b.readWorkbook(); err != nil {
 		return &Error{Cause: ErrVerifyFailed, Detail: "the new file's sheet list cannot be read", Underlying: err}
+	}
+	wbA, errA := readLimited(a.file(a.wbPart), limitXML)
+	wbB, errB := readLimited(b.file(b.wbPart), limitXML)
+	if errA != nil || errB != nil {
+		return &Error{Cause: ErrVerifyFailed, Detail: "the workbook part cannot be read", Underlying: errors.Join(errA, errB)}
+	}
+	if lost := missingSettings(wbA, wbB); len(lost) > 0 {
+		var names []string
+		for el, attrs := range lost {
+			for _, at := range attrs {
+				names = append(names, el+" "+at.name)
+			}
+		}
+		sort.Strings(names)
+		return &Error{Cause: ErrVerifyFailed, Detail: "the workbook settings " + strings.Join(names, ", ") + " were not kept"}
 	}
 	sstA, err := readSharedStrings(a)
 	if err != nil {

@@ -196,6 +196,13 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, err
 	}
 	defer os.Remove(tmp) // a no-op once renamed
+	origWB, err := readLimited(pkg.file(pkg.wbPart), limitXML)
+	if err != nil {
+		return nil, &Error{Path: src, Cause: ErrDamaged, Detail: "the workbook part cannot be read", Underlying: err}
+	}
+	if err := keepSettings(tmp, pkg.wbPart, origWB); err != nil {
+		return nil, &Error{Path: target, Cause: ErrVerifyFailed, Detail: "the workbook's settings could not be kept", Underlying: err}
+	}
 	if err := verifyRewrite(orig, tmp, replaced, limit, limitXML); err != nil {
 		var e *Error
 		if errors.As(err, &e) && e.Path == "" {
