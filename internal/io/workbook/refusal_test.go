@@ -152,7 +152,17 @@ var refusals = []refusal{
 		b := simpleBook()
 		b.sheets[0].rows = append(b.sheets[0].rows, row(4, sst("A4", 7)))
 		return b
-	}), cause: ErrDamaged, want: `{path}, sheet "Data", cell A4: ` + ErrDamaged.Error()},
+	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell A4: ` + ErrUnusual.Error() + ` (the cell names shared text number "7", but the workbook's table of shared text has 0 entries)`},
+	{name: "a number cell holding text", make: bookMaker("nan.xlsx", func() *rawBook {
+		b := simpleBook()
+		b.sheets[0].rows = append(b.sheets[0].rows, row(4, num("B4", "twelve")))
+		return b
+	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell B4: ` + ErrUnusual.Error() + ` (the cell is stored as a number but holds "twelve")`},
+	{name: "a cell type no workbook uses", make: bookMaker("type.xlsx", func() *rawBook {
+		b := simpleBook()
+		b.sheets[0].rows = append(b.sheets[0].rows, row(4, `<c r="B4" t="money"><v>1</v></c>`))
+		return b
+	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell B4: ` + ErrUnusual.Error() + ` (the cell has the type "money", which is none of the types a workbook may use)`},
 	{name: "header row below the data", make: bookMaker("a.xlsx", simpleBook), opts: Options{HeaderRow: 9},
 		cause: ErrHeaderOutside, want: `{path}, sheet "Data": ` + ErrHeaderOutside.Error() + " (row 9 was asked for; the last row with values is row 3)"},
 

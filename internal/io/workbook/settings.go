@@ -214,7 +214,6 @@ func settingPlace(body []byte, name string) (int64, bool) {
 	}
 }
 
-
 // keepSettings rewrites the workbook part of the file at tmp with the
 // original's settings put back (restoreSettings); other parts are copied
 // without unpacking.

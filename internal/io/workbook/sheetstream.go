@@ -8,6 +8,7 @@ import (
 	"io"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // sheetStream reads a worksheet part row by row with a token decoder, so
@@ -80,7 +81,7 @@ func (s *sheetStream) Next() (int, []rawCell, error) {
 			if v := attr(t, "r"); v != "" {
 				n, err := strconv.Atoi(v)
 				if err != nil || n < 1 || n > 1048576 {
-					return 0, nil, s.damaged(fmt.Errorf("row number %q", v))
+					return 0, nil, &Error{Path: s.pkg.path, Cell: fmt.Sprintf("after row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("a row is numbered %q, which is not a row of a sheet (1 to 1,048,576)", v)}
 				}
 				num = n
 			}
@@ -121,7 +122,7 @@ func (s *sheetStream) readRow() error {
 			if ref := attr(t, "r"); ref != "" {
 				c, ok := refColumn(ref)
 				if !ok {
-					return s.damaged(fmt.Errorf("cell reference %q", ref))
+					return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("a cell is named %q, which is not a cell of a sheet", ref)}
 				}
 				col = c
 			}
@@ -244,7 +245,7 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 		}
 		i, err := strconv.Atoi(strings.TrimSpace(v))
 		if err != nil || i < 0 || i >= len(s.sst) {
-			return c, false, s.cellDamaged(col, fmt.Errorf("shared string index %q out of range", v))
+			return c, false, s.cellUnusual(col, fmt.Sprintf("the cell names shared text number %q, but the workbook's table of shared text has %d entries", v, len(s.sst)))
 		}
 		c.Type, c.Text = cellText, s.sst[i]
 	case "inlineStr":
@@ -288,7 +289,7 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 		}
 		n, err := parseValue(strings.TrimSpace(v))
 		if err != nil {
-			return c, false, s.cellDamaged(col, fmt.Errorf("number %q", v))
+			return c, false, s.cellUnusual(col, fmt.Sprintf("the cell is stored as a number but holds %q", truncate(v, 40)))
 		}
 		c.Type, c.Num = cellNumber, n
 		if style >= 0 && style < len(s.pkg.dateXf) && s.pkg.dateXf[style] {
@@ -298,7 +299,7 @@ func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV
 			}
 		}
 	default:
-		return c, false, s.cellDamaged(col, fmt.Errorf("cell type %q", typ))
+		return c, false, s.cellUnusual(col, fmt.Sprintf("the cell has the type %q, which is none of the types a workbook may use", truncate(typ, 40)))
 	}
 	return c, true, nil
 }
@@ -314,8 +315,21 @@ func parseValue(v string) (float64, error) {
 	return strconv.ParseFloat(v, 64)
 }
 
-func (s *cellReader) cellDamaged(col int, err error) error {
-	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("cell %s%d", columnLetter(col), s.row), Cause: ErrDamaged, Underlying: err}
+// cellUnusual reports a cell that no spreadsheet program writes: the
+// package is sound, so it is not called damaged.
+func (s *cellReader) cellUnusual(col int, what string) error {
+	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("cell %s%d", columnLetter(col), s.row), Cause: ErrUnusual, Detail: what}
+}
+
+// truncate shortens s for a message.
+func truncate(s string, n int) string {
+	if len(s) <= n {
+		return s
+	}
+	for n > 0 && !utf8.RuneStart(s[n]) {
+		n--
+	}
+	return s[:n] + "…"
 }
 
 func attr(t xml.StartElement, name string) string {
