@@ -25,7 +25,10 @@ type rowsScreen struct {
 	sheet     *widget.Select
 	header    *widget.Entry
 	apply     *widget.Button
+	region    *widget.Select
+	regions   map[string]string // option shown → table name ("" for the whole sheet)
 	detected  *widget.Label
+	formulas  *widget.Label
 	preview   *widget.Table
 	notes     *widget.Label
 	summaries []string
@@ -35,7 +38,13 @@ func newRowsScreen(u *UI) *rowsScreen {
 	s := &rowsScreen{u: u}
 	s.sheet = widget.NewSelect(nil, func(name string) {
 		if u.table != nil && name != u.table.Sheet {
-			s.reread(name, 0)
+			s.reread(name, 0, "")
+		}
+	})
+	s.region = widget.NewSelect(nil, func(opt string) {
+		table, ok := s.regions[opt]
+		if ok && u.table != nil && table != u.table.Region {
+			s.reread(u.table.Sheet, 0, table)
 		}
 	})
 	s.header = widget.NewEntry()
@@ -52,10 +61,13 @@ func newRowsScreen(u *UI) *rowsScreen {
 			u.showMessage("Header row", "Type the number of the row that holds the column names, as the spreadsheet shows it (1 or more).")
 			return
 		}
-		s.reread(u.table.Sheet, n)
+		s.reread(u.table.Sheet, n, "")
 	})
 	s.header.OnSubmitted = func(string) { s.apply.OnTapped() }
 	s.detected = widget.NewLabel("")
+	s.detected.Wrapping = fyne.TextWrapWord
+	s.formulas = widget.NewLabel("")
+	s.formulas.Wrapping = fyne.TextWrapWord
 	s.notes = widget.NewLabel("")
 	s.notes.Wrapping = fyne.TextWrapWord
 	s.preview = widget.NewTable(s.size, func() fyne.CanvasObject {
@@ -92,7 +104,23 @@ func (s *rowsScreen) refreshTable() {
 	if !t.HeaderDetected {
 		how = "as you set it"
 	}
-	s.detected.SetText(fmt.Sprintf("Column names are read from row %d (%s). %d rows of data below it.", t.HeaderRow, how, t.Len()))
+	detected := fmt.Sprintf("Column names are read from row %d (%s). %d rows of data below it.", t.HeaderRow, how, t.Len())
+	if t.Region != "" {
+		detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %d rows of data below it.", t.Region, t.HeaderRow, t.Len())
+		for _, d := range t.Tables {
+			if d.Name == t.Region && d.TotalsRows > 0 {
+				detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %d rows of data below it; its totals row (row %d) is left out.", t.Region, t.HeaderRow, t.Len(), d.LastRow)
+			}
+		}
+	}
+	s.detected.SetText(detected)
+	s.refreshRegions()
+	s.formulas.SetText(formulaSummary(t))
+	if s.formulas.Text == "" {
+		s.formulas.Hide()
+	} else {
+		s.formulas.Show()
+	}
 	s.summaries = make([]string, len(t.Columns))
 	for i, c := range t.Columns {
 		s.summaries[i] = columnSummary(c)
@@ -112,6 +140,79 @@ func (s *rowsScreen) refreshTable() {
 	s.preview.Refresh()
 }
 
+// refreshRegions offers the sheet's tables as the data region; the whole
+// sheet is offered too, but not when the sheet's only table was taken by
+// itself (reading the sheet would take that table again).
+func (s *rowsScreen) refreshRegions() {
+	t := s.u.table
+	s.regions = map[string]string{}
+	if len(t.Tables) == 0 {
+		s.region.Options = []string{"The whole sheet (it holds no tables)"}
+		s.region.SetSelected(s.region.Options[0])
+		s.region.Disable()
+		return
+	}
+	var opts []string
+	selected := ""
+	if !(len(t.Tables) == 1 && t.Region != "" && s.u.run.Table == "") {
+		opts = append(opts, "The whole sheet")
+		s.regions[opts[0]] = ""
+		selected = opts[0]
+	}
+	for _, d := range t.Tables {
+		o := fmt.Sprintf("Table %q (%s)", d.Name, d.Ref)
+		opts = append(opts, o)
+		s.regions[o] = d.Name
+		if d.Name == t.Region {
+			selected = o
+		}
+	}
+	s.region.Options = opts
+	s.region.SetSelected(selected)
+	if len(opts) < 2 {
+		s.region.Disable()
+	} else {
+		s.region.Enable()
+	}
+}
+
+// formulaSummary says, for each column holding formulas, where its values
+// came from: read from the file, calculated by Slopewise, or missing (and
+// then that the column cannot be used until the workbook is saved in a
+// spreadsheet program).
+func formulaSummary(t *workbook.Table) string {
+	var lines []string
+	for _, c := range t.Columns {
+		f := c.Formulas
+		if f.Total() == 0 {
+			continue
+		}
+		var parts []string
+		if f.Saved > 0 {
+			parts = append(parts, fmt.Sprintf("%d results read from the file", f.Saved))
+		}
+		if f.Computed > 0 {
+			parts = append(parts, fmt.Sprintf("%d calculated by Slopewise (the file held no usable result)", f.Computed))
+		}
+		line := fmt.Sprintf("• %q: %d formula cells; %s", c.Name, f.Total(), strings.Join(parts, ", "))
+		if f.Missing > 0 {
+			if len(parts) > 0 {
+				line += ", "
+			}
+			line += fmt.Sprintf("%d without a usable result, which Slopewise cannot calculate", f.Missing)
+			if f.Why != "" {
+				line += " (" + f.Why + ")"
+			}
+			line += ". This column cannot be used until the workbook is opened and saved in a spreadsheet program"
+		}
+		lines = append(lines, line+".")
+	}
+	if len(lines) == 0 {
+		return ""
+	}
+	return "Formulas:\n" + strings.Join(lines, "\n")
+}
+
 // columnSummary is the kind and missing count of a column, in words.
 func columnSummary(c *workbook.Column) string {
 	kind := map[workbook.Kind]string{
@@ -119,20 +220,28 @@ func columnSummary(c *workbook.Column) string {
 		workbook.Category: fmt.Sprintf("%d groups", len(c.Levels)), workbook.Text: "text", workbook.Date: "dates",
 	}[c.Kind]
 	if m := c.MissingTotal(); m > 0 {
-		return fmt.Sprintf("%s · %d missing", kind, m)
+		kind = fmt.Sprintf("%s · %d missing", kind, m)
+	}
+	switch f := c.Formulas; {
+	case f.Missing > 0:
+		kind += " · formulas without results"
+	case f.Computed > 0:
+		kind += " · formulas calculated"
+	case f.Saved > 0:
+		kind += " · formulas"
 	}
 	return kind
 }
 
 // reread reads another sheet, or the same one with a header row given.
-func (s *rowsScreen) reread(sheet string, headerRow int) {
+func (s *rowsScreen) reread(sheet string, headerRow int, table string) {
 	u := s.u
 	u.setStatus("Reading…")
 	var t *workbook.Table
 	u.background(func() error {
 		var err error
 		run := u.run
-		run.Sheet, run.HeaderRow = sheet, headerRow
+		run.Sheet, run.HeaderRow, run.Table = sheet, headerRow, table
 		t, err = pipeline.Read(context.Background(), run, nil)
 		return err
 	}, func(err error) {
@@ -140,10 +249,11 @@ func (s *rowsScreen) reread(sheet string, headerRow int) {
 			u.setStatus("")
 			u.showError(fmt.Sprintf("The sheet %q could not be read that way.", sheet), err)
 			s.sheet.SetSelected(u.table.Sheet)
+			s.refreshRegions()
 			return
 		}
 		u.table = t
-		u.run.Sheet, u.run.HeaderRow = t.Sheet, t.HeaderRow
+		u.run.Sheet, u.run.HeaderRow, u.run.Table = t.Sheet, t.HeaderRow, table
 		u.forget(stepRows)
 		u.rolesScreen.reset()
 		s.refreshTable()
@@ -211,8 +321,10 @@ func (s *rowsScreen) content() fyne.CanvasObject {
 		widget.NewForm(
 			widget.NewFormItem("Sheet", s.sheet),
 			widget.NewFormItem("Row with the column names", container.NewBorder(nil, nil, nil, s.apply, s.header)),
+			widget.NewFormItem("Data region", s.region),
 		),
 		s.detected,
+		s.formulas,
 	)
 	return container.NewBorder(top, s.notes, nil, nil, s.preview)
 }
