@@ -56,7 +56,7 @@ var calcFunctions = map[string]bool{
 	"SUM": true, "AVERAGE": true, "MIN": true, "MAX": true, "COUNT": true,
 	"PRODUCT": true, "ROUND": true, "ABS": true, "SQRT": true, "EXP": true,
 	"LN": true, "LOG10": true, "INT": true, "MOD": true,
-	"IF": true, "AND": true, "OR": true, "NOT": true,
+	"IF": true, "AND": true, "OR": true, "NOT": true, "NA": true,
 }
 
 // formulaLog lists the formula cells of the sheet being read that need

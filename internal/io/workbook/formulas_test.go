@@ -32,7 +32,7 @@ var calcFormulas = []string{
 	"PRODUCT(A{r}:B{r})", "25%*A{r}", "-A{r}^2", "A{r}=B{r}", "SUM(A{r},B{r},1)", "LN(A{r})",
 	"IF(A{r}<0,\"neg\",\"pos\")", "ROUND(A{r},2)", "SUM(B{r},C{r})", "ROUND(2.675,2)+0*A{r}",
 	"E{r}*2+F{r}", "IF(OR(A{r}>1,B{r}>1),MAX(A{r},B{r}),MIN(A{r},B{r}))", "MOD(A{r},-0.3)",
-	"(A{r}+B{r})*(A{r}-B{r})", "A{r}>=B{r}", "A{r}<>B{r}",
+	"(A{r}+B{r})*(A{r}-B{r})", "A{r}>=B{r}", "A{r}<>B{r}", "IF(A{r}>0,A{r},NA())", "NA()",
 }
 
 // calcRefused are formulas Slopewise must refuse (in every row where the
@@ -145,7 +145,7 @@ func cellShown(col *Column, i int) string {
 // 1e-13 relative, LibreOffice's "Err:502" (invalid argument) and
 // "#NUM!" as the same error, other errors by name.
 func sameResult(got, want string) bool {
-	if want == "#DIV/0!" || want == "#VALUE!" || want == "Err:502" || want == "#NUM!" {
+	if want == "#DIV/0!" || want == "#VALUE!" || want == "Err:502" || want == "#NUM!" || want == "#N/A" {
 		return got == ErrorValue.String()
 	}
 	g, err1 := strconv.ParseFloat(got, 64)
