@@ -20,6 +20,17 @@
 // Everything format-specific sits behind the small rowSource interface,
 // so a faster reader can replace one implementation.
 //
+// A formula cell's saved result is its value, unless the file holds none
+// (an empty <v> is none) or the workbook marks every saved result as out
+// of date (calcPr fullCalcOnLoad): then Slopewise calculates the cell
+// itself with excelize's engine when the formula uses only what was
+// checked against LibreOffice (formulas.go), reading the sheet a second
+// time with those values; any other such cell is missing with the reason
+// NoCachedValue, Column.Formulas says where each column's formula values
+// came from, and Table.FormulaError is the refusal for a column a model
+// uses. A sheet's tables (tables.go) are read too: a table's totals row
+// is never data, and a table can be the data region (Options.Table).
+//
 // A text file is sniffed for its encoding (UTF-8 with or without a byte
 // order mark, UTF-16 with one, else Windows-1252), its delimiter (',' ';'
 // tab '|'), and its decimal separator; quoted fields may span lines.
@@ -41,8 +52,11 @@
 // sheet (values and formulas) against the original, and after a
 // timestamped backup of the original has been made and read back. Only
 // the new sheet's parts are added; excelize re-serialises workbook.xml,
-// its relationships, [Content_Types].xml, styles.xml, the theme and
-// calcChain.xml, and every other part is copied byte for byte. Workbooks
+// its relationships, the package's relationships, [Content_Types].xml,
+// styles.xml, the theme, calcChain.xml and the document properties, and
+// every other part is copied byte for byte. The attributes of the
+// original's workbookPr and calcPr that excelize drops are put back
+// (settings.go) and checked with the rest. Workbooks
 // that use a feature excelize would drop are refused in place with the
 // feature named, and can be written to a copy (WriteOptions.CopyTo). For a
 // text file, a new workbook "<name> results.xlsx" holds the data and the
