@@ -7,7 +7,7 @@ GO ?= go
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus
 
 test: deps vet go-test fuzz dist-check
 
@@ -53,6 +53,13 @@ crosscheck-r:
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x
+
+# Remake testdata/interop: the same invented data written by other workbook
+# writers (openpyxl, xlsxwriter, LibreOffice, Gnumeric, exceljs, SheetJS),
+# with a manifest of expected fits from statsmodels. Not part of test; the
+# script names what it needs and installs nothing (testdata/interop/README.md).
+interop-corpus:
+	scripts/interop/make_corpus.sh
 
 # The size study of the wild cluster bootstrap: 2,000 simulated data sets
 # with 8 clusters and a true zero difference; prints the rejection rates of

@@ -300,6 +300,7 @@ func nameColumns(header []string, indexes []int, sheet string, headerRow int) ([
 	names := make([]string, len(header))
 	var notes []Note
 	seen := map[string]int{}
+	next := map[string]int{} // the next number to try for a base name, so that renaming stays linear
 	for i, h := range header {
 		h = strings.Join(strings.Fields(h), " ")
 		letter := columnLetter(indexes[i])
@@ -311,8 +312,10 @@ func nameColumns(header []string, indexes []int, sheet string, headerRow int) ([
 			}
 		}
 		base := h
-		for k := 2; seen[strings.ToLower(h)] > 0; k++ {
+		lb := strings.ToLower(base)
+		for k := max(2, next[lb]); seen[strings.ToLower(h)] > 0; k++ {
 			h = fmt.Sprintf("%s (%d)", base, k)
+			next[lb] = k + 1
 		}
 		if h != base {
 			notes = append(notes, Note{Sheet: sheet, Cell: fmt.Sprintf("%s%d", letter, headerRow), Column: h,

@@ -94,7 +94,7 @@ func classifyText(s string) Reason {
 	if c := s[0]; c >= '0' && c <= '9' {
 		return Present // no error value or marker starts with a digit
 	}
-	if s[0] == '#' && errorValues[strings.ToUpper(s)] {
+	if s[0] == '#' && len(s) <= 16 && errorValues[strings.ToUpper(s)] {
 		return ErrorValue
 	}
 	if len(s) <= 7 && missingMarkers[strings.ToLower(s)] {
