@@ -46,7 +46,7 @@ var (
 	ErrSameFile        = errors.New("the copy would overwrite the original workbook; choose another name for the copy")
 	ErrUnusual         = errors.New("the workbook holds something that spreadsheet programs do not write, so Slopewise will not guess what it means; open the workbook in a spreadsheet program and save it again, which writes it in the usual form")
 	ErrTableNotFound   = errors.New("there is no table with this name; choose one of the tables listed, or read the whole sheet")
-	ErrFormulaNoResult = errors.New("this column holds formulas whose results are not in the file, so their values are unknown; open the workbook in a spreadsheet program and save it (which calculates every formula), or choose another column")
+	ErrFormulaNoResult = errors.New("this column holds formulas without a usable saved result, so their values are unknown; open the workbook in a spreadsheet program and save it (which calculates every formula), or choose another column")
 )
 
 // Error is a failed read or write of a workbook: the cause, and where it

@@ -384,14 +384,14 @@ func (t *Table) explainFormulas(res *formulaResults) {
 			}
 		}
 		if f.Missing > 0 {
-			add("%s", col.formulaProblem(t))
+			add("%s", col.formulaProblem(t, true))
 		}
 	}
 }
 
 // formulaProblem says, in a sentence, what is wrong with a column's
 // formula cells that have no usable value and what to do.
-func (col *Column) formulaProblem(t *Table) string {
+func (col *Column) formulaProblem(t *Table, advice bool) string {
 	f := col.Formulas
 	first := firstMissing(col, NoCachedValue)
 	what := "have no saved result"
@@ -404,7 +404,11 @@ func (col *Column) formulaProblem(t *Table) string {
 	if f.Why != "" {
 		why = " (" + f.Why + ")"
 	}
-	return fmt.Sprintf("%d formula cell(s), the first at %s, %s, and Slopewise cannot calculate them%s; open the workbook in a spreadsheet program and save it, which calculates and saves every formula, then open it again here", f.Missing, t.CellRef(col, first), what, why)
+	msg := fmt.Sprintf("%d formula cell(s), the first at %s, %s, and Slopewise cannot calculate them%s", f.Missing, t.CellRef(col, first), what, why)
+	if advice {
+		msg += "; open the workbook in a spreadsheet program and save it, which calculates and saves every formula, then open it again here"
+	}
+	return msg
 }
 
 // FormulaError is the error for a column the model uses whose formula
@@ -413,5 +417,5 @@ func (t *Table) FormulaError(col *Column) error {
 	if col == nil || col.Formulas.Missing == 0 {
 		return nil
 	}
-	return &Error{Path: t.Path, Sheet: t.Sheet, Column: col.Name, Cause: ErrFormulaNoResult, Detail: col.formulaProblem(t)}
+	return &Error{Path: t.Path, Sheet: t.Sheet, Column: col.Name, Cause: ErrFormulaNoResult, Detail: col.formulaProblem(t, false)}
 }
