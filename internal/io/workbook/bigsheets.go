@@ -17,6 +17,10 @@ import (
 // results sheet.
 const emptyWorksheet = `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData/></worksheet>`
 
+// bigSheet is the unpacked size from which a worksheet is kept from
+// excelize when the results are written.
+var bigSheet uint64 = 8 << 20
+
 // buildKeepingSheets is buildInTemp for a workbook whose worksheets may be
 // big: excelize unpacks, and on saving packs again, every worksheet it
 // opens (v2.11.1 source, lib.go, ReadZipReader; file.go, writeToZip), twice

@@ -2,7 +2,6 @@ package workbook
 
 import (
 	"archive/zip"
-	"bytes"
 	"encoding/xml"
 	"errors"
 	"fmt"
@@ -57,8 +56,11 @@ type xlsxPackage struct {
 	date1904 bool
 	dateXf   []bool // by cell style index: shown as a date or time
 	sstPart  string
-	limit    int64
-	limitXML int64
+	// stylesPart is the styles part, empty when the workbook has none.
+	stylesPart string
+	limit      int64
+	limitXML   int64
+	size       int64 // of the file, on disk
 	// staleResults: the workbook asks to be recalculated when opened
 	// (calcPr fullCalcOnLoad), so its formulas' saved results are not
 	// trusted (xlsxwriter writes 0 as every formula's result and sets it).
@@ -80,35 +82,26 @@ func (p *xlsxPackage) Close() error {
 	return p.zf.Close()
 }
 
-// openPackage opens a workbook with excelize, which decrypts nothing (the
-// format sniffer has refused encrypted files), applies the size limits
-// and reads the workbook's sheets and styles. excelize is asked for raw
-// values (RawCellValue) so that nothing is read in its displayed form.
+// openPackage opens a workbook for reading with our own bounded readers,
+// not excelize: excelize parses every part whole when it opens a package
+// (the workbook, its styles, and every other part it holds in memory),
+// before any limit of ours applies, so a small crafted file could take
+// all memory (issue 12's hostile files). Reading needs only the workbook
+// part (sheets, date system), its relationships and the styles' number
+// formats; each is bounded in size and in nesting depth before it is
+// decoded, and Go's zip reader refuses a part that inflates past its
+// declared size.
 func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 	defer func() {
 		if r := recover(); r != nil {
+			if p != nil && p.zf != nil {
+				p.zf.Close()
+			}
 			p, err = nil, fail(path, ErrDamaged, fmt.Sprint("the workbook reader stopped: ", r))
 		}
 	}()
 	limit, limitXML := sizeLimits(opts.UnzipSizeLimit, opts.UnzipXMLSizeLimit)
-	xopts := excelize.Options{RawCellValue: true, UnzipSizeLimit: limit, UnzipXMLSizeLimit: limitXML}
-	var xf *excelize.File
-	if outline, err := withoutBigSheets(path, limit); err != nil {
-		return nil, excelizeOpenError(path, err, limit)
-	} else if outline != nil {
-		xf, err = excelize.OpenReader(bytes.NewReader(outline), xopts)
-		if err != nil {
-			return nil, excelizeOpenError(path, err, limit)
-		}
-	} else if xf, err = excelize.OpenFile(path, xopts); err != nil {
-		return nil, excelizeOpenError(path, err, limit)
-	}
-	defer xf.Close()
 	p = &xlsxPackage{path: path, parts: map[string]string{}, limit: limit, limitXML: limitXML}
-	if props, err := xf.GetWorkbookProps(); err == nil && props.Date1904 != nil {
-		p.date1904 = *props.Date1904
-	}
-	p.dateXf = dateStyles(xf)
 	if p.zf, err = os.Open(path); err != nil {
 		return nil, statError(path, err)
 	}
@@ -117,68 +110,28 @@ func openPackage(path string, opts Options) (p *xlsxPackage, err error) {
 		p.zf.Close()
 		return nil, statError(path, err)
 	}
+	p.size = info.Size()
 	if p.zr, err = zip.NewReader(p.zf, info.Size()); err != nil {
 		p.zf.Close()
 		return nil, &Error{Path: path, Cause: ErrDamaged, Underlying: err}
+	}
+	var total uint64
+	for _, f := range p.zr.File {
+		total += f.UncompressedSize64
+		if f.UncompressedSize64 > uint64(limit) || total > uint64(limit) {
+			p.zf.Close()
+			return nil, &Error{Path: path, Cause: ErrTooLarge, Detail: "the limit is " + byteSize(limit)}
+		}
 	}
 	if err := p.readWorkbook(); err != nil {
 		p.zf.Close()
 		return nil, err
 	}
+	if err := p.readStyles(); err != nil {
+		p.zf.Close()
+		return nil, err
+	}
 	return p, nil
-}
-
-// bigSheet is the unpacked size from which a worksheet is kept from
-// excelize when a workbook is opened: excelize unpacks every worksheet on
-// open (to a temporary file past UnzipXMLSizeLimit; v2.11.1 source,
-// lib.go, ReadZipReader), which for a sheet of a million rows takes longer
-// than reading it, and openPackage needs only the workbook and its styles.
-var bigSheet uint64 = 8 << 20
-
-// withoutBigSheets returns the workbook's zip with every worksheet part
-// larger than bigSheet replaced by an empty worksheet, for excelize to
-// open; nil when it has no such part, or when the file is not a zip
-// excelize's own errors should describe. It applies excelize's size
-// limit first, with excelize's rule and words (lib.go, checkFileSize),
-// since the parts it replaces would otherwise escape it.
-func withoutBigSheets(path string, limit int64) ([]byte, error) {
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		return nil, nil
-	}
-	defer zr.Close()
-	big := false
-	var total int64
-	for _, f := range zr.File {
-		size := f.FileInfo().Size()
-		total += size
-		if uint64(limit) < uint64(size) || size < 0 || total > limit {
-			return nil, fmt.Errorf("unzip size exceeds the %d bytes limit", limit)
-		}
-		big = big || isWorksheetPart(f.Name) && uint64(size) > bigSheet
-	}
-	if !big {
-		return nil, nil
-	}
-	var buf bytes.Buffer
-	zw := zip.NewWriter(&buf)
-	for _, f := range zr.File {
-		if !isWorksheetPart(f.Name) || f.UncompressedSize64 <= bigSheet {
-			if err := copyRaw(zw, f); err != nil {
-				return nil, nil
-			}
-			continue
-		}
-		w, err := zw.Create(f.Name)
-		if err != nil {
-			return nil, nil
-		}
-		io.WriteString(w, `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData/></worksheet>`)
-	}
-	if err := zw.Close(); err != nil {
-		return nil, nil
-	}
-	return buf.Bytes(), nil
 }
 
 // isWorksheetPart reports the parts excelize treats as worksheets.
@@ -224,35 +177,6 @@ func excelizeOpenError(path string, err error, limit int64) error {
 		return &Error{Path: path, Cause: ErrDamaged, Underlying: err}
 	}
 	return &Error{Path: path, Cause: ErrDamaged, Underlying: err}
-}
-
-// dateStyles marks the cell styles whose number format shows a date or a
-// time.
-func dateStyles(xf *excelize.File) []bool {
-	if xf.Styles == nil || xf.Styles.CellXfs == nil {
-		return nil
-	}
-	custom := map[int]string{}
-	if xf.Styles.NumFmts != nil {
-		for _, nf := range xf.Styles.NumFmts.NumFmt {
-			if nf != nil {
-				custom[nf.NumFmtID] = nf.FormatCode
-			}
-		}
-	}
-	out := make([]bool, len(xf.Styles.CellXfs.Xf))
-	for i, x := range xf.Styles.CellXfs.Xf {
-		if x.NumFmtID == nil {
-			continue
-		}
-		id := *x.NumFmtID
-		if code, ok := custom[id]; ok {
-			out[i] = isDateFormat(code)
-		} else {
-			out[i] = isBuiltinDate(id)
-		}
-	}
-	return out
 }
 
 // isBuiltinDate reports the built-in number formats that show dates or
@@ -327,6 +251,9 @@ type xmlWorkbook struct {
 	CalcPr struct {
 		FullCalcOnLoad string `xml:"fullCalcOnLoad,attr"`
 	} `xml:"calcPr"`
+	WorkbookPr struct {
+		Date1904 string `xml:"date1904,attr"`
+	} `xml:"workbookPr"`
 }
 
 // readWorkbook finds the workbook part, its sheets and their parts.
@@ -342,11 +269,19 @@ func (p *xlsxPackage) readWorkbook() error {
 	}
 	var wb xmlWorkbook
 	if err := p.decodePart(wbPart, &wb); err != nil {
+		var e *Error
+		if errors.As(err, &e) {
+			return e
+		}
 		return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the workbook part cannot be read", Underlying: err}
 	}
 	var rels xmlRels
 	relsPart := path.Join(path.Dir(wbPart), "_rels", path.Base(wbPart)+".rels")
 	if err := p.decodePart(relsPart, &rels); err != nil {
+		var e *Error
+		if errors.As(err, &e) {
+			return e
+		}
 		return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the workbook's relationships cannot be read", Underlying: err}
 	}
 	targets := map[string]string{}
@@ -361,12 +296,16 @@ func (p *xlsxPackage) readWorkbook() error {
 		if strings.HasSuffix(r.Type, relSharedStrings) {
 			p.sstPart = target
 		}
+		if strings.HasSuffix(r.Type, relStyles) {
+			p.stylesPart = target
+		}
 		if strings.HasSuffix(r.Type, relWorksheet) {
 			targets["ws:"+r.ID] = target
 		}
 	}
 	p.wbPart = wbPart
 	p.staleResults = xmlTrue(wb.CalcPr.FullCalcOnLoad)
+	p.date1904 = xmlTrue(wb.WorkbookPr.Date1904)
 	p.rids = map[string]string{}
 	for _, s := range wb.Sheets {
 		rid := s.RID
@@ -413,13 +352,54 @@ func (p *xlsxPackage) openPart(name string, limit int64) (io.ReadCloser, error) 
 	return f.Open()
 }
 
+// decodePart decodes a small part, after checking that it nests no
+// deeper than maxXMLDepth: encoding/xml keeps a record of every open
+// element, so a part of millions of nested elements would take gigabytes
+// while it is decoded.
 func (p *xlsxPackage) decodePart(name string, v any) error {
+	if err := p.checkDepth(name); err != nil {
+		return err
+	}
 	rc, err := p.openPart(name, p.limitXML)
 	if err != nil {
 		return err
 	}
 	defer rc.Close()
 	return xml.NewDecoder(rc).Decode(v)
+}
+
+// maxXMLDepth bounds the nesting of the parts Slopewise decodes. Parts
+// that spreadsheet programs write nest a dozen levels at most (common
+// practice); a sheet's cells nest four.
+const maxXMLDepth = 128
+
+// checkDepth reads a part's tokens, without keeping any, and refuses it
+// when elements nest deeper than maxXMLDepth.
+func (p *xlsxPackage) checkDepth(name string) error {
+	rc, err := p.openPart(name, p.limitXML)
+	if err != nil {
+		return err
+	}
+	defer rc.Close()
+	dec := newXMLDecoder(rc)
+	depth := 0
+	for {
+		tok, err := dec.RawToken()
+		if err == io.EOF {
+			return nil
+		}
+		if err != nil {
+			return err
+		}
+		switch tok.(type) {
+		case xml.StartElement:
+			if depth++; depth > maxXMLDepth {
+				return &Error{Path: p.path, Cause: ErrUnusual, Detail: fmt.Sprintf("the part %s nests elements more than %d deep", name, maxXMLDepth)}
+			}
+		case xml.EndElement:
+			depth--
+		}
+	}
 }
 
 // openXLSXSheet opens the worksheet to read: the one named, or the first

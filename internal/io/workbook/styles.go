@@ -1,0 +1,102 @@
+package workbook
+
+import (
+	"encoding/xml"
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+)
+
+// relStyles is the relationship type suffix of the styles part (ECMA-376
+// Part 1, section 15.2).
+const relStyles = "/styles"
+
+// maxCellFormats bounds the cell formats (<xf> of <cellXfs>) read from
+// the styles part. Excel allows about 64,000 (its specifications and
+// limits, from memory); the bound leaves room for other writers.
+const maxCellFormats = 1 << 20
+
+// readStyles reads which cell styles show numbers as dates or times: the
+// number format of each <xf> in <cellXfs>, built-in (isBuiltinDate) or
+// custom (<numFmts>, isDateFormat). The part is streamed, its nesting and
+// its count of formats bounded; a workbook without one has no dates
+// shown as such.
+func (p *xlsxPackage) readStyles() error {
+	part := p.stylesPart
+	if part == "" || p.file(part) == nil {
+		return nil
+	}
+	if err := p.checkDepth(part); err != nil {
+		return err
+	}
+	rc, err := p.openPart(part, p.limitXML)
+	if err != nil {
+		return err
+	}
+	defer rc.Close()
+	dec := newXMLDecoder(rc)
+	custom := map[int]string{}
+	var ids []int // number format of each cell format, -1 when none
+	depth, xfsDepth, fmtsDepth := 0, -1, -1
+	for {
+		tok, err := dec.RawToken()
+		if err == io.EOF {
+			break
+		}
+		if err != nil {
+			return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the styles part cannot be read", Underlying: err}
+		}
+		switch t := tok.(type) {
+		case xml.StartElement:
+			depth++
+			switch t.Name.Local {
+			case "cellXfs":
+				xfsDepth = depth
+			case "numFmts":
+				fmtsDepth = depth
+			case "xf":
+				if depth != xfsDepth+1 {
+					break
+				}
+				if len(ids) >= maxCellFormats {
+					return &Error{Path: p.path, Cause: ErrUnusual, Detail: fmt.Sprintf("the styles part %s defines more than %d cell formats", part, maxCellFormats)}
+				}
+				id := -1
+				if v := attr(t, "numFmtId"); v != "" {
+					if n, err := strconv.Atoi(strings.TrimSpace(v)); err == nil {
+						id = n
+					}
+				}
+				ids = append(ids, id)
+			case "numFmt":
+				if depth != fmtsDepth+1 || len(custom) >= maxCellFormats {
+					break
+				}
+				if n, err := strconv.Atoi(strings.TrimSpace(attr(t, "numFmtId"))); err == nil {
+					custom[n] = attr(t, "formatCode")
+				}
+			}
+		case xml.EndElement:
+			switch {
+			case depth == xfsDepth:
+				xfsDepth = -1
+			case depth == fmtsDepth:
+				fmtsDepth = -1
+			}
+			depth--
+		}
+	}
+	p.dateXf = make([]bool, len(ids))
+	for i, id := range ids {
+		if id < 0 {
+			continue
+		}
+		if code, ok := custom[id]; ok {
+			p.dateXf[i] = isDateFormat(code)
+		} else {
+			p.dateXf[i] = isBuiltinDate(id)
+		}
+	}
+	return nil
+}
