@@ -2,7 +2,10 @@ package workbook
 
 import (
 	"archive/zip"
+	"bytes"
 	"fmt"
+	"io"
+	"path"
 	"math"
 	"regexp"
 	"sort"
@@ -122,7 +125,12 @@ func calculate(path, sheet, part string, log formulaLog, opts Options) (res *for
 		whyAll(fmt.Sprintf("the sheet unpacks to %s, more than Slopewise calculates formulas in (%s)", byteSize(size), byteSize(maxCalcSheet)))
 		return res
 	}
-	f, err := excelize.OpenFile(path, excelize.Options{RawCellValue: true, UnzipSizeLimit: limit, UnzipXMLSizeLimit: limitXML})
+	outline, err := calcOutline(path, part, opts)
+	if err != nil {
+		whyAll("the workbook could not be opened to calculate them: " + err.Error())
+		return res
+	}
+	f, err := excelize.OpenReader(bytes.NewReader(outline), excelize.Options{RawCellValue: true, UnzipSizeLimit: limit, UnzipXMLSizeLimit: limitXML})
 	if err != nil {
 		whyAll("the workbook could not be opened to calculate them: " + err.Error())
 		return res
@@ -151,6 +159,47 @@ func calculate(path, sheet, part string, log formulaLog, opts Options) (res *for
 		}
 	}
 	return res
+}
+
+// calcOutline is the workbook with only what calculating one sheet's
+// formulas needs: the package's and the workbook's parts and
+// relationships, the sheet, the shared text and the styles. Other
+// worksheets become empty ones (a formula that refers to them is refused
+// anyway) and every other part is left out, since excelize holds every
+// part of a package in memory once it opens it.
+func calcOutline(file, part string, opts Options) ([]byte, error) {
+	p, err := openPackage(file, opts)
+	if err != nil {
+		return nil, err
+	}
+	defer p.Close()
+	keep := map[string]bool{"[content_types].xml": true, "_rels/.rels": true}
+	for _, n := range []string{p.wbPart, path.Join(path.Dir(p.wbPart), "_rels", path.Base(p.wbPart)+".rels"), part, p.sstPart, p.stylesPart} {
+		if n != "" {
+			keep[strings.ToLower(n)] = true
+		}
+	}
+	var buf bytes.Buffer
+	zw := zip.NewWriter(&buf)
+	for _, f := range p.zr.File {
+		name := strings.ToLower(strings.ReplaceAll(f.Name, "\\", "/"))
+		switch {
+		case keep[name]:
+			if err := copyRaw(zw, f); err != nil {
+				return nil, err
+			}
+		case isWorksheetPart(name):
+			w, err := zw.Create(f.Name)
+			if err != nil {
+				return nil, err
+			}
+			io.WriteString(w, emptyWorksheet)
+		}
+	}
+	if err := zw.Close(); err != nil {
+		return nil, err
+	}
+	return buf.Bytes(), nil
 }
 
 // partSize is the unpacked size of a part, 0 when unknown.
