@@ -7,7 +7,7 @@ GO ?= go
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack
 
 test: deps vet go-test fuzz dist-check
 
@@ -66,6 +66,15 @@ interop-corpus:
 # CR1 and of the bootstrap at 5%. Too slow for every test run.
 size-study:
 	$(GO) test ./internal/estimate -run TestSizeStudy -size-study -v -timeout 30m
+
+# The attack suite: hostile and odd input files (zip bombs, gigabyte
+# cells, sheets past Excel's rows and columns, a workbook without styles)
+# given to the built program, each run watched for time (60 s) and memory
+# (killed past 2 GiB); prints a table of what happened, also written to
+# the file named by SLOPEWISE_ATTACK_REPORT if set. Linux; a few minutes.
+# Not part of test.
+attack:
+	$(GO) test ./internal/io/workbook -run '^TestAttack$$' -attack -v -timeout 30m
 
 # Fuzz the workbook and text readers briefly; a failing input is saved
 # under internal/io/workbook/testdata/fuzz. Each target runs a fixed number

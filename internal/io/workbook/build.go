@@ -25,8 +25,24 @@ func newColBuilder(index int) *colBuilder {
 	return &colBuilder{index: index, distinctNums: map[float64]struct{}{}}
 }
 
-// add appends one row's cell (nil for a blank cell).
-func (b *colBuilder) add(c *rawCell, decimalComma bool) {
+// pad adds blank cells up to n rows.
+func (b *colBuilder) pad(n int) {
+	for len(b.miss) < n {
+		b.add1(nil, false)
+	}
+}
+
+// add implements colAdder.
+func (b *colBuilder) add(row int, c *rawCell, decimalComma bool) {
+	if row < len(b.miss) {
+		return
+	}
+	b.pad(row)
+	b.add1(c, decimalComma)
+}
+
+// add1 appends one row's cell (nil for a blank cell).
+func (b *colBuilder) add1(c *rawCell, decimalComma bool) {
 	row := len(b.miss)
 	b.nums = append(grow(b.nums), math.NaN())
 	b.miss = append(grow(b.miss), Present)

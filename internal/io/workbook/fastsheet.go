@@ -36,10 +36,19 @@ type fastSheet struct {
 	rowEnd  []byte // "</row>" with the document's prefix
 	dataEnd []byte // "</sheetData>" likewise
 	cells   []rawCell
-	value   []byte // the current cell's <v>, decoded
-	inline  []byte // the current cell's text runs, decoded
-	scratch []byte
+	// searched is how far into the row at pos the search for its end has
+	// gone without finding it.
+	searched int
+	value    []byte // the current cell's <v>, decoded
+	inline   []byte // the current cell's text runs, decoded
+	scratch  []byte
 }
+
+// maxRowBytes bounds the XML of one row held in memory. A row of 16,384
+// cells of ordinary values is well under a megabyte; text cells of the
+// most characters a cell holds could in theory make one larger, but no
+// spreadsheet program writes such rows.
+const maxRowBytes = 32 << 20
 
 // errFastFallback is the fast reader giving a sheet back to sheetStream.
 var errFastFallback = errors.New("the fast worksheet reader leaves this sheet to the standard one")
@@ -220,18 +229,30 @@ func (s *fastSheet) nextRow() ([]byte, error) {
 			s.pos = start + gt + 1
 			return s.buf[start : start+gt+1], nil
 		}
-		j := bytes.Index(s.buf[start:s.end], s.rowEnd)
+		// Search on from where the last search of this row stopped, so
+		// that a long row is scanned once, not once a refill.
+		from := 0
+		if start == s.pos {
+			from = min(s.searched, s.end-start)
+		}
+		j := bytes.Index(s.buf[start+from:s.end], s.rowEnd)
 		if j < 0 {
 			if s.eof {
 				return nil, fallback("unclosed row")
 			}
+			if s.end-start > maxRowBytes {
+				return nil, &Error{Path: s.pkg.path, Cell: fmt.Sprintf("after row %d", s.row), Cause: ErrUnusual,
+					Detail: fmt.Sprintf("a row's XML is longer than %s; a row holds at most %d cells of %d characters, and no spreadsheet program writes rows this long", byteSize(maxRowBytes), maxColumns, maxCellChars)}
+			}
+			s.searched = max(0, s.end-start-len(s.rowEnd)+1)
 			s.pos = start
 			if err := s.fill(); err != nil {
 				return nil, err
 			}
 			continue
 		}
-		s.pos = start + j + len(s.rowEnd)
+		s.searched = 0
+		s.pos = start + from + j + len(s.rowEnd)
 		return s.buf[start:s.pos], nil
 	}
 }
@@ -339,6 +360,9 @@ func (s *fastSheet) readRow(row []byte) error {
 	gt := bytes.IndexByte(row, '>')
 	head := row[1:gt]
 	num := s.row + 1
+	if num > maxRows {
+		return s.tooManyRows()
+	}
 	seen := false // the first r counts, as sheetStream's attr takes it
 	ok := attrs(head, func(local, v []byte) bool {
 		if string(local) == "r" && !seen {
@@ -408,6 +432,9 @@ func (s *fastSheet) readRow(row []byte) error {
 				return fallback("cell reference")
 			}
 			col = c
+		}
+		if col >= maxColumns {
+			return s.tooManyColumns()
 		}
 		st := -1
 		if len(style) > 0 {
@@ -711,6 +738,9 @@ func fastSharedStrings(p *xlsxPackage) ([]string, error) {
 			switch string(localName(tagName(tag[1:]))) {
 			case "si":
 				inSI = false
+				if len(cur) > maxCellChars && utf8.RuneCount(cur) > maxCellChars {
+					return nil, longShared(p, len(out))
+				}
 				out = append(out, string(cur))
 			case "rPh":
 				inPhonetic = false

@@ -314,9 +314,11 @@ func isBlankRow(cells []rawCell) bool {
 	return true
 }
 
-// colAdder takes one column's cells, row by row (nil for a blank cell).
+// colAdder takes one column's cells: the cell of data row row (0-based),
+// the rows it was not given being blank. Rows come in order; a second
+// cell of a row is ignored.
 type colAdder interface {
-	add(c *rawCell, decimalComma bool)
+	add(row int, c *rawCell, decimalComma bool)
 }
 
 // tableBuilder turns data rows into columns: a Table's (colBuilder), or
@@ -349,9 +351,6 @@ func (b *tableBuilder) col(i int) colAdder {
 	c, ok := b.cols[i]
 	if !ok {
 		c = b.newCol(i)
-		for range b.rows {
-			c.add(nil, false)
-		}
 		b.cols[i] = c
 	}
 	if i < maxDenseColumns {
@@ -389,25 +388,31 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 		}
 		b.col(c.Col)
 	}
+	if cells := int64(b.rows+1) * int64(len(b.cols)); cells > maxTableCells {
+		return &Error{Cell: fmt.Sprintf("row %d", num), Cause: ErrTooLarge,
+			Detail: fmt.Sprintf("the data reach %d rows of %d columns, more than the %d cells Slopewise holds in memory; keep only the columns the analysis needs, or save them as CSV", b.rows+1, len(b.cols), maxTableCells)}
+	}
 	if b.keepRows {
 		b.t.SourceRows = append(b.t.SourceRows, num)
 	}
+	row := b.rows
 	b.rows++
-	j := 0
-	idxs := b.sortedIndexes()
-	for k, idx := range idxs {
-		cb := b.cachedAdders[k]
-		for j < len(cells) && cells[j].Col < idx {
-			j++
+	for k := range cells {
+		c := &cells[k]
+		if b.fixedWidth && c.Col >= b.width {
+			continue
 		}
-		if j < len(cells) && cells[j].Col == idx {
-			cb.add(&cells[j], b.decimalComma)
-		} else {
-			cb.add(nil, false)
-		}
+		b.col(c.Col).add(row, c, b.decimalComma)
 	}
 	return nil
 }
+
+// maxTableCells bounds the cells (rows times columns) of a table held in
+// memory: about 1 GB at nine bytes a cell. A million rows of a hundred
+// columns fit; a header of 16,384 columns over a million rows, 16 billion
+// cells, is refused after a few thousand rows instead of taking every
+// byte of memory.
+const maxTableCells = 128 << 20
 
 // sortedIndexes lists the column indexes in order; cached between rows
 // because new columns are rare.
@@ -449,6 +454,7 @@ func (b *tableBuilder) finish() {
 	}
 	for i, ci := range idx {
 		cb := b.cols[ci].(*colBuilder)
+		cb.pad(b.rows)
 		col := &Column{Name: names[i], Letter: columnLetter(ci), Index: ci}
 		cb.finish(col)
 		if col.Kind == Empty && b.header[ci] == "" && col.MissingCount[Blank] == len(col.Missing) {

@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/xml"
 	"errors"
 	"fmt"
@@ -44,7 +45,35 @@ func newSheetStream(p *xlsxPackage, part string) (*sheetStream, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &sheetStream{cellReader: cellReader{pkg: p, sst: sst}, rc: rc, dec: newXMLDecoder(rc)}, nil
+	return &sheetStream{cellReader: cellReader{pkg: p, sst: sst}, rc: rc, dec: newXMLDecoder(&textRuns{r: rc, path: p.path, part: part})}, nil
+}
+
+// maxTextRun bounds a run of characters without markup in a part read
+// with encoding/xml, which gathers a whole run of text before handing it
+// over: a cell's text is at most maxCellChars characters of at most four
+// bytes, and entities make it longer still in the file, so a run past a
+// megabyte is no cell of a spreadsheet.
+const maxTextRun = 1 << 20
+
+// textRuns passes a part through, failing when it holds a run of more
+// than maxTextRun bytes without a '<'.
+type textRuns struct {
+	r          io.Reader
+	run        int
+	path, part string
+}
+
+func (t *textRuns) Read(b []byte) (int, error) {
+	n, err := t.r.Read(b)
+	if i := bytes.LastIndexByte(b[:n], '<'); i >= 0 {
+		t.run = n - i - 1
+	} else {
+		t.run += n
+	}
+	if t.run > maxTextRun {
+		return n, &Error{Path: t.path, Cause: ErrUnusual, Detail: fmt.Sprintf("the part %s holds a text of more than %s without markup; a cell holds at most %d characters", t.part, byteSize(maxTextRun), maxCellChars)}
+	}
+	return n, err
 }
 
 func newXMLDecoder(r io.Reader) *xml.Decoder {
@@ -78,6 +107,9 @@ func (s *sheetStream) Next() (int, []rawCell, error) {
 				continue
 			}
 			num := s.row + 1
+			if num > maxRows {
+				return 0, nil, s.tooManyRows()
+			}
 			if v := attr(t, "r"); v != "" {
 				n, err := strconv.Atoi(v)
 				if err != nil || n < 1 || n > 1048576 {
@@ -122,9 +154,12 @@ func (s *sheetStream) readRow() error {
 			if ref := attr(t, "r"); ref != "" {
 				c, ok := refColumn(ref)
 				if !ok {
-					return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("a cell is named %q, which is not a cell of a sheet", ref)}
+					return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("a cell is named %q, which is not a cell of a sheet", truncate(ref, 40))}
 				}
 				col = c
+			}
+			if col >= maxColumns {
+				return s.tooManyColumns()
 			}
 			c, keep, err := s.readCell(t, col)
 			if err != nil {
@@ -194,7 +229,7 @@ func (s *sheetStream) readCell(start xml.StartElement, col int) (rawCell, bool, 
 				inPhonetic = false
 			}
 		case xml.CharData:
-			if into != nil {
+			if into != nil && into.Len() <= 4*maxCellChars {
 				into.Write(t)
 			}
 		}
@@ -214,6 +249,9 @@ func (s *sheetStream) readCell(start xml.StartElement, col int) (rawCell, bool, 
 func (s *cellReader) cell(col int, typ string, style int, v, inline string, hasV, hasF bool) (rawCell, bool, error) {
 	if hasV && typ != "str" && typ != "inlineStr" && strings.TrimSpace(v) == "" {
 		hasV = false
+	}
+	if err := s.checkText(col, v, inline); err != nil {
+		return rawCell{}, false, err
 	}
 	c := rawCell{Col: col}
 	if hasF {
@@ -315,6 +353,33 @@ func parseValue(v string) (float64, error) {
 	return strconv.ParseFloat(v, 64)
 }
 
+// The limits of a sheet: Excel's specifications and limits (from
+// memory), which the file format's cell names also imply (ECMA-376 Part
+// 1, section 18.3.1.4: rows 1 to 1,048,576, columns A to XFD).
+const (
+	maxRows      = 1 << 20
+	maxColumns   = 1 << 14
+	maxCellChars = 32767
+)
+
+func (s *cellReader) tooManyRows() error {
+	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("after row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("the sheet has more than %d rows, the most a sheet can hold", maxRows)}
+}
+
+func (s *cellReader) tooManyColumns() error {
+	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("the row has a cell past column XFD, the last of the %d columns a sheet can hold", maxColumns)}
+}
+
+// checkText refuses a cell with more characters than a cell can hold.
+func (s *cellReader) checkText(col int, texts ...string) error {
+	for _, t := range texts {
+		if len(t) > maxCellChars && utf8.RuneCountInString(t) > maxCellChars {
+			return s.cellUnusual(col, fmt.Sprintf("the cell holds more than %d characters, the most a cell can hold", maxCellChars))
+		}
+	}
+	return nil
+}
+
 // cellUnusual reports a cell that no spreadsheet program writes: the
 // package is sound, so it is not called damaged.
 func (s *cellReader) cellUnusual(col int, what string) error {
@@ -366,6 +431,9 @@ func openSharedStrings(p *xlsxPackage) (io.ReadCloser, error) {
 	if p.sstPart == "" {
 		return nil, nil
 	}
+	if f := p.file(p.sstPart); f != nil && f.UncompressedSize64 > uint64(p.sstBudget()) {
+		return nil, &Error{Path: p.path, Cause: ErrTooLarge, Detail: fmt.Sprintf("its shared text (%s) unpacks to %s, more than %s (16 times the file's size, at least 64 MiB), far more than genuine text takes", p.sstPart, byteSize(int64(min(f.UncompressedSize64, 1<<62))), byteSize(p.sstBudget()))}
+	}
 	rc, err := p.openPart(p.sstPart, p.limit)
 	if err != nil {
 		if p.file(p.sstPart) == nil {
@@ -374,6 +442,20 @@ func openSharedStrings(p *xlsxPackage) (io.ReadCloser, error) {
 		return nil, err
 	}
 	return rc, nil
+}
+
+// longShared refuses a shared text longer than a cell can hold.
+func longShared(p *xlsxPackage, i int) error {
+	return &Error{Path: p.path, Cause: ErrUnusual, Detail: fmt.Sprintf("shared text number %d in %s holds more than %d characters, the most a cell can hold", i, p.sstPart, maxCellChars)}
+}
+
+// sstBudget bounds the unpacked size of the shared text: 16 times the
+// file's size, between 64 MiB and 1 GiB. Text in a workbook packs to a
+// fifth or a tenth of its size (common practice), so genuine shared
+// text stays well under it, while a crafted part that inflates a
+// thousandfold is refused before it is read.
+func (p *xlsxPackage) sstBudget() int64 {
+	return min(max(16*p.size, 64<<20), 1<<30)
 }
 
 // readSharedStrings reads the shared string table: each <si> is plain
@@ -385,7 +467,7 @@ func readSharedStrings(p *xlsxPackage) ([]string, error) {
 		return nil, err
 	}
 	defer rc.Close()
-	dec := newXMLDecoder(rc)
+	dec := newXMLDecoder(&textRuns{r: rc, path: p.path, part: p.sstPart})
 	var out []string
 	var cur strings.Builder
 	inSI, inT, inPhonetic := false, false, false
@@ -412,6 +494,9 @@ func readSharedStrings(p *xlsxPackage) ([]string, error) {
 			switch t.Name.Local {
 			case "si":
 				inSI = false
+				if cur.Len() > maxCellChars && utf8.RuneCountInString(cur.String()) > maxCellChars {
+					return nil, longShared(p, len(out))
+				}
 				out = append(out, cur.String())
 			case "rPh":
 				inPhonetic = false
@@ -419,7 +504,7 @@ func readSharedStrings(p *xlsxPackage) ([]string, error) {
 				inT = false
 			}
 		case xml.CharData:
-			if inT {
+			if inT && cur.Len() <= 4*maxCellChars {
 				cur.Write(t)
 			}
 		}

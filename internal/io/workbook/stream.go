@@ -91,7 +91,7 @@ type colSurvey struct {
 	texts                         map[string]bool
 }
 
-func (c *colSurvey) add(cell *rawCell, decimalComma bool) {
+func (c *colSurvey) add(_ int, cell *rawCell, decimalComma bool) {
 	if cell == nil {
 		return
 	}
