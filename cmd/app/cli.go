@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 	"time"
+	"unicode/utf8"
 
 	"slopewise/assets"
 	"slopewise/internal/estimate"
@@ -161,11 +162,27 @@ func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
 	case errors.Is(err, flag.ErrHelp):
 		return exitOK
 	case errors.As(err, &ue):
-		fmt.Fprintf(stderr, "slopewise: %s\nRun \"slopewise help %s\" for the options.\n", ue.msg, args[0])
+		fmt.Fprintf(stderr, "slopewise: %s\nRun \"slopewise help %s\" for the options.\n", readable(ue.msg), args[0])
 		return exitUsage
 	}
-	fmt.Fprintf(stderr, "slopewise: %s\n", err)
+	fmt.Fprintf(stderr, "slopewise: %s\n", readable(err.Error()))
 	return exitData
+}
+
+// maxMessage bounds a message printed: every message names what is wrong
+// in a sentence or two, and a value it quotes from the data is already
+// short; this is the last guard against a cell's text of megabytes.
+const maxMessage = 2000
+
+func readable(msg string) string {
+	if len(msg) <= maxMessage {
+		return msg
+	}
+	cut := maxMessage
+	for cut > 0 && !utf8.RuneStart(msg[cut]) {
+		cut--
+	}
+	return msg[:cut] + fmt.Sprintf("… (%d more bytes)", len(msg)-cut)
 }
 
 // modelFlags are the options analyze and screen share: the roles other
@@ -378,8 +395,8 @@ func (f *analyzeFlags) probeValues() ([]float64, error) {
 	var out []float64
 	for _, s := range strings.Split(f.values, ",") {
 		v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
-		if err != nil {
-			return nil, usagef("--moderator-values must be numbers separated by commas; %q is not a number", s)
+		if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+			return nil, usagef("--moderator-values must be numbers separated by commas; %q is not a number", readable(s))
 		}
 		out = append(out, v)
 	}
@@ -391,8 +408,8 @@ func (f *analyzeFlags) centre() (*float64, error) {
 		return nil, nil
 	}
 	v, err := strconv.ParseFloat(f.center, 64)
-	if err != nil {
-		return nil, usagef("--center must be a number, not %q", f.center)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return nil, usagef("--center must be a number, not %q", readable(f.center))
 	}
 	return &v, nil
 }

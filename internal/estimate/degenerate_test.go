@@ -73,6 +73,11 @@ func TestDegenerate(t *testing.T) {
 		words  string // must appear in the message
 		rows   []int
 	}{
+		{"outcome too large to compute with", func() *Data {
+			d := synth(60, 41)
+			d.col("y").Num[7] = 3e300
+			return d
+		}, contSpec, ErrValues, "y", "reaches 3e+300 (row 8), too large a number to compute with. Rescale the column", nil},
 		{"constant moderator", func() *Data {
 			d := synth(60, 1)
 			for i := range d.col("m").Num {

@@ -6,6 +6,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"unicode/utf8"
 )
 
 // DroppedRow is a row left out of the fit and why.
@@ -91,6 +92,27 @@ func (rc roleColumn) fine(i int) bool {
 	return !math.IsNaN(v) && !math.IsInf(v, 0) && (rc.role != "weight" || v > 0)
 }
 
+// maxMagnitude bounds the values a fit takes: squares and sums of
+// squares of a million values up to 1e100 stay far from float64's
+// largest number (about 1.8e308), while values near 1e300 overflow to
+// infinity and leave every interval and test undefined.
+const maxMagnitude = 1e100
+
+// magnitude refuses a numeric column whose used values pass
+// maxMagnitude, before anything is computed with them.
+func (rc roleColumn) magnitude(d *Data, used []int) error {
+	c := rc.col
+	if !c.IsNumeric() {
+		return nil
+	}
+	for _, i := range used {
+		if v := c.Num[i]; math.Abs(v) > maxMagnitude {
+			return fail(ErrValues, c.Name, fmt.Sprintf("The %s %q reaches %s (row %d), too large a number to compute with. Rescale the column (divide it by a power of ten, or change its unit) and run again.", rc.role, c.Name, formatNumber(v), d.label(i)))
+		}
+	}
+	return nil
+}
+
 // problem says why row i cannot be used for this role, or "" if it can.
 func (rc roleColumn) problem(i int) (reason, kind string) {
 	c := rc.col
@@ -107,7 +129,7 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 	v := c.Num[i]
 	switch {
 	case math.IsNaN(v) && c.cellText(i) != "":
-		return fmt.Sprintf("text %q in the %s (%q), which needs a number", c.cellText(i), rc.role, c.Name), "text"
+		return fmt.Sprintf("text %q in the %s (%q), which needs a number", short(c.cellText(i)), rc.role, c.Name), "text"
 	case math.IsNaN(v):
 		return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
 	case math.IsInf(v, 0):
@@ -234,6 +256,11 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 		return nil, noRowsError(n, ds.counts)
 	}
 	ds.n = len(ds.used)
+	for _, rc := range checks {
+		if err := rc.magnitude(d, ds.used); err != nil {
+			return nil, err
+		}
+	}
 
 	if err := ds.readTreatment(d, s, treat.col); err != nil {
 		return nil, err
@@ -370,7 +397,7 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 	case m.Reference != "":
 		j, ok := index[m.Reference]
 		if !ok {
-			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", m.Reference, c.Name, quoteList(ds.levels)))
+			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", short(m.Reference), c.Name, quoteList(ds.levels)))
 		}
 		ds.ref = j
 	case m.Kind == ModeratorBinary && len(ds.levels) == 2 && ds.levels[0] == "0" && ds.levels[1] == "1":
@@ -565,7 +592,21 @@ func quoteList(xs []string) string {
 			q = append(q, fmt.Sprintf("and %d more", len(xs)-show))
 			break
 		}
-		q = append(q, strconv.Quote(x))
+		q = append(q, strconv.Quote(short(x)))
 	}
 	return strings.Join(q, ", ")
+}
+
+// short cuts a value quoted in a message to a readable length: a group's
+// name may be any text a cell holds.
+func short(s string) string {
+	const n = 60
+	if len(s) <= n {
+		return s
+	}
+	cut := n
+	for cut > 0 && !utf8.RuneStart(s[cut]) {
+		cut--
+	}
+	return s[:cut] + "…"
 }

@@ -137,6 +137,8 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 
 // stream is the state of a streamed fit between passes.
 type stream struct {
+	// tooLarge: a used value passes maxMagnitude; Fit words the refusal.
+	tooLarge bool
 	s  Spec
 	ds *design
 
@@ -385,6 +387,11 @@ func (st *stream) survey(d *Data) error {
 		if !st.keep(d, checks, i) {
 			continue
 		}
+		for _, rc := range checks {
+			if rc.col.IsNumeric() && math.Abs(rc.col.Num[i]) > maxMagnitude {
+				st.tooLarge = true
+			}
+		}
 		y := d.Columns[st.iOut].Num[i]
 		t := st.treatment(d, i)
 		if ds.n == 0 {
@@ -458,6 +465,9 @@ func (st *stream) plan() (*design, error) {
 	if st.badTreatment {
 		return nil, needsMemory("the treatment holds values other than 0 and 1")
 	}
+	if st.tooLarge {
+		return nil, needsMemory("a value is too large to fit")
+	}
 	if s.Treatment.Kind == TreatmentLabels {
 		labels := sortedLevels(st.labelCount)
 		if st.labelCount[s.Treatment.Treated] == 0 || len(labels) != 2 {
@@ -493,7 +503,7 @@ func (st *stream) plan() (*design, error) {
 	for j, l := range ds.levels {
 		g := st.modStats[l]
 		if g.n == 1 || binaryT && (g.treated == g.n || g.treated == 0) || !binaryT && !g.tVaries {
-			return nil, needsMemory(fmt.Sprintf("the treatment's effect cannot be estimated in group %q", l))
+			return nil, needsMemory(fmt.Sprintf("the treatment's effect cannot be estimated in group %q", short(l)))
 		}
 		st.levelRows[j] = g.n
 		if binaryT {

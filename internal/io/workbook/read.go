@@ -205,6 +205,9 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		if drop || isBlankRow(cells) {
 			continue
 		}
+		if err := checkWidth(num, cells); err != nil {
+			return err
+		}
 		buf = append(buf, bufRow{num, keptCells(src, cells)})
 		if opts.HeaderRow > 0 && num >= opts.HeaderRow && len(buf) >= 2 {
 			break
@@ -371,6 +374,9 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 	if drop {
 		return nil
 	}
+	if err := checkWidth(num, cells); err != nil {
+		return err
+	}
 	if isBlankRow(cells) {
 		if b.blankRows == 0 {
 			b.firstBlank = num
@@ -403,6 +409,24 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 			continue
 		}
 		b.col(c.Col).add(row, c, b.decimalComma)
+	}
+	return nil
+}
+
+// maxTextColumns bounds the columns of a text file. A sheet holds 16,384
+// columns (maxColumns); a text file may hold more, and the columns a
+// model uses can still be read from it, up to four times as many.
+const maxTextColumns = 4 * maxColumns
+
+// checkWidth refuses a row with a value past maxTextColumns (cells come
+// in column order).
+func checkWidth(num int, cells []rawCell) error {
+	if n := len(cells); n > 0 && cells[n-1].Col >= maxTextColumns {
+		where := fmt.Sprintf("row %d", num)
+		if cells[n-1].Line > 0 {
+			where = fmt.Sprintf("line %d", cells[n-1].Line)
+		}
+		return &Error{Cell: where, Cause: ErrTooLarge, Detail: fmt.Sprintf("the row has values in more than %d columns, the most Slopewise reads from a text file", maxTextColumns)}
 	}
 	return nil
 }
