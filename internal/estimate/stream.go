@@ -139,8 +139,8 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 type stream struct {
 	// tooLarge: a used value passes maxMagnitude; Fit words the refusal.
 	tooLarge bool
-	s  Spec
-	ds *design
+	s        Spec
+	ds       *design
 
 	// Set by the first chunk: the column index of each role.
 	resolved                  bool
