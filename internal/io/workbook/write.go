@@ -144,6 +144,9 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 	if err != nil {
 		return nil, &Error{Path: src, Cause: ErrDamaged, Underlying: err}
 	}
+	if err := checkInflation(src, zr); err != nil {
+		return nil, err
+	}
 	hazards, err := scanHazards(zr, limitXML)
 	if err != nil {
 		return nil, &Error{Path: src, Cause: ErrDamaged, Underlying: err}
@@ -182,6 +185,9 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 	}
 	if err := checkFreeParts(pkg, sheet); err != nil {
 		return nil, err
+	}
+	if base, _, err = ensureStyles(base, pkg); err != nil {
+		return nil, &Error{Path: src, Cause: ErrCannotRewrite, Detail: "its styles could not be completed", Underlying: err}
 	}
 	l := layOut(sheet)
 	tmp, err := buildKeepingSheets(target, base, limit, limitXML,
@@ -226,6 +232,29 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, err
 	}
 	return w, nil
+}
+
+// Parts that excelize holds whole in memory when it opens a workbook to
+// write it (every part but the big worksheets kept from it) are refused
+// when they unpack past 64 MiB at more than 100 times their packed size:
+// genuine XML packs to a tenth or a twentieth of its size, pictures
+// hardly at all (common practice), while a crafted part inflates a
+// thousandfold.
+const (
+	inflationSize  = 64 << 20
+	inflationRatio = 100
+)
+
+func checkInflation(src string, zr *zip.Reader) error {
+	for _, f := range zr.File {
+		if isWorksheetPart(f.Name) && f.UncompressedSize64 > bigSheet {
+			continue
+		}
+		if f.UncompressedSize64 > inflationSize && f.UncompressedSize64 > inflationRatio*max(f.CompressedSize64, 1) {
+			return &Error{Path: src, Cause: ErrTooLarge, Detail: fmt.Sprintf("the part %s unpacks to %s from %s, far more than a genuine part does", f.Name, byteSize(int64(min(f.UncompressedSize64, 1<<62))), byteSize(int64(f.CompressedSize64)))}
+		}
+	}
+	return nil
 }
 
 // beforeReplace runs just before the check that the original is as it
@@ -392,7 +421,7 @@ func hasImages(s *report.Sheet) bool {
 func buildInTemp(target string, base []byte, limit, limitXML int64, stages ...func(*excelize.File) error) (tmpPath string, err error) {
 	defer func() {
 		if r := recover(); r != nil {
-			err = &Error{Path: target, Cause: ErrVerifyFailed, Detail: fmt.Sprint("the workbook writer stopped: ", r)}
+			err = &Error{Path: target, Cause: ErrWriterStopped, Detail: fmt.Sprint(r)}
 		}
 	}()
 	var xf *excelize.File
