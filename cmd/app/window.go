@@ -20,6 +20,10 @@ const appID = "org.slopewise.desktop"
 // SLOPEWISE_TOUR=DIR instead walks through every screen on the demo,
 // saves a picture of each into DIR and quits (for the README's pictures).
 func window(path string) int {
+	if msg := noDesktop(); msg != "" {
+		fmt.Fprintln(os.Stderr, msg)
+		return exitData
+	}
 	a := app.NewWithID(appID)
 	a.SetIcon(fyne.NewStaticResource("slopewise.png", assets.Icon))
 	w := a.NewWindow("Slopewise")

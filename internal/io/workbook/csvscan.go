@@ -135,6 +135,9 @@ parseField:
 			s.record = append(s.record, field...)
 			s.ends = append(s.ends, len(s.record))
 			s.fieldLine = append(s.fieldLine, posLine)
+			if len(s.ends) > maxTextColumns {
+				return &Error{Cell: fmt.Sprintf("line %d", posLine), Cause: ErrTooManyColumns, Detail: fmt.Sprintf("the line has more than %d values, the most Slopewise reads from a text file", maxTextColumns)}
+			}
 			if i >= 0 {
 				line = line[i+1:]
 				continue parseField

@@ -46,6 +46,8 @@ var (
 	ErrSameFile        = errors.New("the copy would overwrite the original workbook; choose another name for the copy")
 	ErrUnusual         = errors.New("the workbook holds something that spreadsheet programs do not write, so Slopewise will not guess what it means; open the workbook in a spreadsheet program and save it again, which writes it in the usual form")
 	ErrWriterStopped   = errors.New("the workbook library that Slopewise writes with stopped on an internal error while adding the results, so nothing was changed; save the results to a copy, or save the workbook again in a spreadsheet program and retry (and please report this, with the file if you can)")
+	ErrTooManyColumns  = errors.New("the file has more columns than Slopewise reads; keep only the columns the analysis needs and open that")
+	ErrTooManyCells    = errors.New("the data have more cells than Slopewise holds in memory; keep only the columns the analysis needs (a CSV file of them is read in passes, not held whole) and open that")
 	ErrTableNotFound   = errors.New("there is no table with this name; choose one of the tables listed, or read the whole sheet")
 	ErrFormulaNoResult = errors.New("this column holds formulas without a usable saved result, so their values are unknown; open the workbook in a spreadsheet program and save it (which calculates every formula), or choose another column")
 )

@@ -395,8 +395,8 @@ func (b *tableBuilder) addRow(num int, cells []rawCell) error {
 		b.col(c.Col)
 	}
 	if cells := int64(b.rows+1) * int64(len(b.cols)); cells > maxTableCells {
-		return &Error{Cell: fmt.Sprintf("row %d", num), Cause: ErrTooLarge,
-			Detail: fmt.Sprintf("the data reach %d rows of %d columns, more than the %d cells Slopewise holds in memory; keep only the columns the analysis needs, or save them as CSV", b.rows+1, len(b.cols), maxTableCells)}
+		return &Error{Cell: fmt.Sprintf("row %d", num), Cause: ErrTooManyCells,
+			Detail: fmt.Sprintf("the data reach %d rows of %d columns, more than the %d cells Slopewise holds in memory", b.rows+1, len(b.cols), maxTableCells)}
 	}
 	if b.keepRows {
 		b.t.SourceRows = append(b.t.SourceRows, num)
@@ -426,7 +426,7 @@ func checkWidth(num int, cells []rawCell) error {
 		if cells[n-1].Line > 0 {
 			where = fmt.Sprintf("line %d", cells[n-1].Line)
 		}
-		return &Error{Cell: where, Cause: ErrTooLarge, Detail: fmt.Sprintf("the row has values in more than %d columns, the most Slopewise reads from a text file", maxTextColumns)}
+		return &Error{Cell: where, Cause: ErrTooManyColumns, Detail: fmt.Sprintf("the row has values in more than %d columns, the most Slopewise reads from a text file", maxTextColumns)}
 	}
 	return nil
 }

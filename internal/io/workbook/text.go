@@ -306,6 +306,9 @@ func (s *textSource) Next() (int, []rawCell, error) {
 		return 0, nil, &Error{Path: s.path, Cause: ErrNotText, Underlying: err}
 	}
 	line, _ := s.r.FieldPos(0)
+	if len(rec) > maxTextColumns {
+		return 0, nil, &Error{Path: s.path, Cell: fmt.Sprintf("line %d", line), Cause: ErrTooManyColumns, Detail: fmt.Sprintf("the line has more than %d values, the most Slopewise reads from a text file", maxTextColumns)}
+	}
 	if s.endLine > 0 && line > s.endLine+1 {
 		s.row += line - s.endLine - 1
 	} else if s.endLine == 0 && line > 1 {
