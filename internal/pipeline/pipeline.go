@@ -61,6 +61,9 @@ func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Anal
 
 // Save writes the results sheet into the workbook (or beside a text file).
 func (a *Analysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
+	if opts.KeepColumns == nil {
+		opts.KeepColumns = specColumns(a.Run.Spec)
+	}
 	return workbook.WriteResults(a.Run.File, a.Sheet, opts)
 }
 
@@ -109,6 +112,13 @@ func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, pr
 // Save writes the screen's results sheet into the workbook (or beside a
 // text file).
 func (a *ScreenAnalysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
+	if opts.KeepColumns == nil {
+		spec := a.Run.Base.Spec
+		for _, m := range a.Run.Moderators() {
+			spec.Controls = append(spec.Controls, m.Column)
+		}
+		opts.KeepColumns = specColumns(spec)
+	}
 	return workbook.WriteResults(a.Run.Base.File, a.Sheet, opts)
 }
 
@@ -124,6 +134,20 @@ func formulaError(t *workbook.Table, s estimate.Spec) error {
 		}
 	}
 	return nil
+}
+
+// specColumns lists the columns a spec uses, each once, in the order of
+// the model's roles.
+func specColumns(s estimate.Spec) []string {
+	var out []string
+	seen := map[string]bool{}
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+		if name != "" && !seen[name] {
+			seen[name] = true
+			out = append(out, name)
+		}
+	}
+	return out
 }
 
 func where(t *workbook.Table) string {

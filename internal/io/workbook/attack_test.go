@@ -316,10 +316,16 @@ func atkEnv(window bool) []string {
 	var env []string
 	for _, kv := range os.Environ() {
 		k, _, _ := strings.Cut(kv, "=")
-		if k == "SLOPEWISE_CPUPROFILE" || window && (k == "DISPLAY" || k == "WAYLAND_DISPLAY") {
+		if k == "SLOPEWISE_CPUPROFILE" || window && (k == "DISPLAY" || k == "WAYLAND_DISPLAY" || k == "LANG" || k == "LC_ALL") {
 			continue
 		}
 		env = append(env, kv)
+	}
+	if window {
+		// A desktop session has a locale; in the C locale Fyne 2.7's
+		// package lang logs three lines at start-up (lang/locale.go),
+		// before any code of ours runs.
+		env = append(env, "LANG=en_US.UTF-8")
 	}
 	return env
 }

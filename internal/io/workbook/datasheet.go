@@ -30,7 +30,7 @@ import (
 // source, stream.go, writeCell; cell.go, setInlineStr and trimCellValue):
 // numbers in <v>, texts as inline strings. Numbers keep every digit
 // (strconv's shortest form), where the stream writer keeps 15.
-func spliceDataSheet(tmp string, rows rowSource, decimalComma bool) (cut int, err error) {
+func spliceDataSheet(tmp string, rows rowSource, decimalComma bool, wide *wideCopy) (cut int, err error) {
 	zf, err := os.Open(tmp)
 	if err != nil {
 		return 0, err
@@ -75,7 +75,7 @@ func spliceDataSheet(tmp string, rows rowSource, decimalComma bool) (cut int, er
 			return 0, err
 		}
 		if cut, err = packedAlongside(w, func(pw io.Writer) (int, error) {
-			return writeDataSheet(pw, empty, rows, decimalComma)
+			return writeDataSheet(pw, empty, rows, decimalComma, wide)
 		}); err != nil {
 			return 0, err
 		}
@@ -131,7 +131,64 @@ func (c *chanWriter) Write(b []byte) (int, error) {
 // writeDataSheet writes the worksheet: excelize's empty sheet with the
 // records in its <sheetData/> and without its <dimension>, which would
 // name the wrong range (it is optional; ECMA-376 Part 1, section 18.3.1.35).
-func writeDataSheet(w io.Writer, empty []byte, rows rowSource, decimalComma bool) (int, error) {
+// wideCopy keeps the data sheet within a sheet's columns: when the text
+// file's header row is wider than maxColumns, the sheet holds the columns
+// named in keep only, in their order, from column A on; cells past XFD
+// above the header are left out. width and kept say what was done.
+type wideCopy struct {
+	keep        []string
+	width, kept int
+	mapped      bool
+	to          map[int]int // text column → sheet column, when wide
+}
+
+// columns maps the cells of a row to the sheet's columns; nil when the
+// file is not wider than a sheet.
+func (wc *wideCopy) columns(num, headerRow int, cells []rawCell) []rawCell {
+	if wc == nil {
+		return cells
+	}
+	if !wc.mapped && num >= headerRow && len(cells) > 0 {
+		wc.mapped = true
+		wc.width = cells[len(cells)-1].Col + 1
+		if wc.width > maxColumns && headerRow == 0 {
+			wc.kept = maxColumns // no names: the first columns
+		} else if wc.width > maxColumns {
+			wc.to = map[int]int{}
+			if num == headerRow {
+				header := make([]string, len(cells))
+				idx := make([]int, len(cells))
+				for i, c := range cells {
+					header[i], idx[i] = headerText(c), c.Col
+				}
+				names, _ := nameColumns(header, idx, "", headerRow)
+				for _, k := range wc.keep {
+					for i, n := range names {
+						if n == k {
+							wc.to[idx[i]] = len(wc.to)
+						}
+					}
+				}
+			}
+			wc.kept = len(wc.to)
+		}
+	}
+	out := cells[:0:0]
+	for _, c := range cells {
+		switch {
+		case wc.to != nil && num >= headerRow && headerRow > 0:
+			if j, ok := wc.to[c.Col]; ok {
+				c.Col = j
+				out = append(out, c)
+			}
+		case c.Col < maxColumns:
+			out = append(out, c)
+		}
+	}
+	return out
+}
+
+func writeDataSheet(w io.Writer, empty []byte, rows rowSource, decimalComma bool, wide *wideCopy) (int, error) {
 	empty = cutElements(empty, func(t xml.StartElement) bool { return t.Name.Local == "dimension" })
 	at, tag := -1, ""
 	for _, tag = range []string{"<sheetData/>", "<sheetData></sheetData>"} {
@@ -153,6 +210,9 @@ func writeDataSheet(w io.Writer, empty []byte, rows rowSource, decimalComma bool
 		}
 		if num > excelize.TotalRows {
 			cut++
+			return nil
+		}
+		if cells = wide.columns(num, headerRow, cells); len(cells) == 0 {
 			return nil
 		}
 		buf = append(buf[:0], `<row r="`...)

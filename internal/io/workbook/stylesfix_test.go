@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"context"
+	"fmt"
 	"strings"
 	"testing"
 )
@@ -68,4 +69,48 @@ func withoutStylesPart(t *testing.T, b []byte) []byte {
 		}
 		return name, content
 	})
+}
+
+// TestWriteBesideWideCSV: a text file of more columns than a sheet holds
+// (16,384, Excel's limit, from memory) gets a data sheet of the columns
+// the analysis used, in the order given, from column A on, and the
+// result says so.
+func TestWriteBesideWideCSV(t *testing.T) {
+	const width = maxColumns + 20
+	var b strings.Builder
+	for j := 0; j < width; j++ {
+		if j > 0 {
+			b.WriteByte(',')
+		}
+		fmt.Fprintf(&b, "c%d", j)
+	}
+	b.WriteString("\n")
+	for i := 0; i < 3; i++ {
+		for j := 0; j < width; j++ {
+			if j > 0 {
+				b.WriteByte(',')
+			}
+			fmt.Fprintf(&b, "%d", i*width+j)
+		}
+		b.WriteString("\n")
+	}
+	dir := t.TempDir()
+	src := writeFile(t, dir, "wide.csv", []byte(b.String()))
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{KeepColumns: []string{fmt.Sprintf("c%d", width-1), "c3"}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	data, err := Read(context.Background(), w.Path, Options{Sheet: DataSheetName})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(data.Columns) != 2 || data.Columns[0].Name != fmt.Sprintf("c%d", width-1) || data.Columns[1].Name != "c3" || data.Columns[1].Letter != "B" {
+		t.Fatalf("data sheet columns %q %q", data.Columns[0].Name, data.Columns[1].Name)
+	}
+	if got := data.Columns[0].Numbers[2]; got != float64(3*width-1) {
+		t.Errorf("last value %v", got)
+	}
+	if len(w.Lost) != 1 || !strings.Contains(w.Lost[0], fmt.Sprintf("%d of the text file's %d columns", width-2, width)) {
+		t.Errorf("lost %q", w.Lost)
+	}
 }

@@ -86,8 +86,9 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	}
 	defer os.Remove(tmp)
 	cut := 0
+	wide := &wideCopy{keep: opts.KeepColumns}
 	if w.DataNotCopied == 0 {
-		cut, err = copyData(src, tmp)
+		cut, err = copyData(src, tmp, wide)
 	}
 	if err != nil {
 		var e *Error
@@ -95,6 +96,13 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 			return nil, e // a problem in the text file, not in writing
 		}
 		return nil, &Error{Path: target, Cause: ErrVerifyFailed, Detail: "writing the data sheet failed: " + err.Error(), Underlying: err}
+	}
+	if wide.width > maxColumns {
+		what := fmt.Sprintf("the %d columns the analysis used", wide.kept)
+		if wide.to == nil {
+			what = fmt.Sprintf("the first %d", wide.kept)
+		}
+		w.Lost = append(w.Lost, fmt.Sprintf("%d of the text file's %d columns on sheet %q, which holds no more than %d columns: it holds %s (the results are from the text file, which keeps them all)", wide.width-wide.kept, wide.width, DataSheetName, maxColumns, what))
 	}
 	if cut > 0 {
 		w.Lost = append(w.Lost, fmt.Sprintf("the last %d rows of the data on sheet %q, which holds no more than %d rows (the results are from all rows)", cut, DataSheetName, excelize.TotalRows))
@@ -119,7 +127,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 
 // copyData puts the text file's data on the data sheet of the workbook
 // at tmp (spliceDataSheet).
-func copyData(src, tmp string) (int, error) {
+func copyData(src, tmp string, wide *wideCopy) (int, error) {
 	tf, err := sniffText(src)
 	if err != nil {
 		return 0, err
@@ -129,7 +137,7 @@ func copyData(src, tmp string) (int, error) {
 		return 0, err
 	}
 	defer rows.Close()
-	return spliceDataSheet(tmp, rows, tf.DecimalComma)
+	return spliceDataSheet(tmp, rows, tf.DecimalComma, wide)
 }
 
 // countLines counts the lines of the file at path, stopping once they

@@ -40,6 +40,10 @@ type WriteOptions struct {
 	CopyData CopyData
 	// CopyDataLines replaces DefaultCopyDataLines when positive.
 	CopyDataLines int
+	// KeepColumns names the columns the analysis used. When a text
+	// source has more columns than a sheet holds (16,384), the data
+	// sheet beside it holds these only.
+	KeepColumns []string
 }
 
 // CopyData is the choice of copying a text source's data into the
