@@ -197,6 +197,7 @@ type modelFlags struct {
 	alpha                       float64
 	headerRow                   int
 	noBootstrap                 bool
+	notices                     []string // options accepted that change nothing, said once
 	draws                       int
 	seed                        uint64
 	margin                      float64
@@ -363,17 +364,27 @@ func (f *modelFlags) check() error {
 	return f.checkBootstrap()
 }
 
-// checkBootstrap rejects bootstrap options that cannot take effect.
+// checkBootstrap rejects bootstrap options with values it cannot take;
+// options that change nothing here (the bootstrap's without --cluster,
+// --draws and --seed with --no-bootstrap) are accepted, so that a script
+// may pass them for every file, and noted in one line.
 func (f *modelFlags) checkBootstrap() error {
+	var idle []string
 	for _, name := range []string{"no-bootstrap", "draws", "seed"} {
-		if f.set[name] && f.cluster == "" {
-			return usagef("--%s is about the wild cluster bootstrap, which needs --cluster COL", name)
+		if f.set[name] && (f.cluster == "" || name != "no-bootstrap" && f.noBootstrap) {
+			idle = append(idle, "--"+name)
 		}
 	}
-	for _, name := range []string{"draws", "seed"} {
-		if f.set[name] && f.noBootstrap {
-			return usagef("--%s has no effect with --no-bootstrap; leave one of them out", name)
+	if len(idle) > 0 {
+		why := "there is no --cluster, and the wild cluster bootstrap runs only with clusters"
+		if f.cluster != "" {
+			why = "--no-bootstrap is given"
 		}
+		verb := "changes"
+		if len(idle) > 1 {
+			verb = "change"
+		}
+		f.notices = append(f.notices, fmt.Sprintf("%s %s nothing here: %s.", strings.Join(idle, " and "), verb, why))
 	}
 	if f.set["draws"] && (f.draws < 99 || f.draws > estimate.MaxDraws) {
 		return usagef("--draws must be a whole number from 99 to %d (the usual choice is %d), not %d", estimate.MaxDraws, estimate.DefaultDraws, f.draws)
@@ -484,6 +495,13 @@ func (f *modelFlags) run() report.Run {
 	return report.Run{File: f.file, Sheet: f.sheet, HeaderRow: f.headerRow, Table: f.table, Randomized: f.randomized, Version: version, Time: time.Now()}
 }
 
+// printNotices says which options changed nothing.
+func (f *modelFlags) printNotices(w io.Writer) {
+	for _, n := range f.notices {
+		fmt.Fprintln(w, "Note: "+n)
+	}
+}
+
 // human is where the readable summary goes: standard error when standard
 // output carries the JSON.
 func (f *modelFlags) human(stdout, stderr io.Writer) io.Writer {
@@ -558,6 +576,7 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return err
 	}
 	human := f.human(stdout, stderr)
+	f.printNotices(human)
 	printSummary(human, a)
 	if err := f.save(human, a.Save); err != nil {
 		return err

@@ -59,6 +59,31 @@ func hashFile(t *testing.T, path string) [32]byte {
 
 const rDir = "../../testdata/r"
 
+// TestIdleBootstrapOptions: bootstrap options that change nothing (no
+// --cluster; --draws or --seed with --no-bootstrap) are accepted, so that
+// a script may pass them for every file, and noted in one line.
+func TestIdleBootstrapOptions(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "warp_cat.csv"))
+	base := []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension", "--dry-run"}
+	for _, c := range []struct {
+		extra []string
+		words string
+	}{
+		{[]string{"--no-bootstrap"}, "Note: --no-bootstrap changes nothing here: there is no --cluster"},
+		{[]string{"--seed", "4", "--draws", "999"}, "Note: --draws and --seed change nothing here: there is no --cluster"},
+	} {
+		code, out, errs := runCLI(t, append(append([]string{}, base...), c.extra...)...)
+		if code != exitOK || !strings.Contains(out+errs, c.words) {
+			t.Errorf("%v: exit %d, want 0 and %q:\n%s%s", c.extra, code, c.words, out, errs)
+		}
+	}
+	co2 := copyFile(t, filepath.Join(rDir, "co2_cluster.csv"))
+	code, out, errs := runCLI(t, "analyze", co2, "--outcome", "uptake", "--treatment", "Treatment", "--treated", "chilled", "--moderator", "Type", "--cluster", "Plant", "--no-bootstrap", "--seed", "3", "--dry-run")
+	if want := "Note: --seed changes nothing here: --no-bootstrap is given"; code != exitOK || !strings.Contains(out+errs, want) {
+		t.Errorf("exit %d, want 0 and %q:\n%s%s", code, want, out, errs)
+	}
+}
+
 // TestUsageErrors checks that every malformed command line exits with 2
 // and a message that says what to fix.
 func TestUsageErrors(t *testing.T) {
@@ -84,6 +109,8 @@ func TestUsageErrors(t *testing.T) {
 		{"values with category", with("--moderator-type", "category", "--moderator-values", "1,2"), "are for a number moderator"},
 		{"center with reference", with("--reference", "L", "--center", "2"), "are for a number moderator"},
 		{"values not numbers", with("--moderator-values", "1,two"), `"two" is not a number`},
+		{"values not finite", with("--moderator-values", "NaN,Inf"), `"NaN" is not a number`},
+		{"center not finite", with("--center", "Inf"), `--center must be a number`},
 		{"center not a number", with("--center", "middle"), `--center must be a number`},
 		{"bad se", with("--se", "hc4"), "classical, hc0, hc1, hc2, hc3 or cluster"},
 		{"cluster se without cluster", with("--se", "cluster"), "needs --cluster"},
@@ -93,11 +120,6 @@ func TestUsageErrors(t *testing.T) {
 		{"negative header row", with("--header-row", "-3"), "--header-row must be a row number"},
 		{"dry run with out", with("--dry-run", "--out", "x.xlsx"), "--dry-run writes nothing"},
 		{"bad copy-data", with("--copy-data", "sometimes"), `--copy-data must be auto, yes or no, not "sometimes"`},
-		{"no bootstrap without cluster", with("--no-bootstrap"), "--no-bootstrap is about the wild cluster bootstrap, which needs --cluster"},
-		{"draws without cluster", with("--draws", "999"), "--draws is about the wild cluster bootstrap"},
-		{"seed without cluster", with("--seed", "4"), "--seed is about the wild cluster bootstrap"},
-		{"draws with no bootstrap", with("--cluster", "wool", "--no-bootstrap", "--draws", "999"), "--draws has no effect with --no-bootstrap"},
-		{"seed with no bootstrap", with("--cluster", "wool", "--no-bootstrap", "--seed", "3"), "--seed has no effect with --no-bootstrap"},
 		{"too few draws", with("--cluster", "wool", "--draws", "10"), "--draws must be a whole number from 99 to 999999"},
 		{"too many draws", with("--cluster", "wool", "--draws", "1000000"), "--draws must be a whole number from 99"},
 		{"draws not a number", with("--cluster", "wool", "--draws", "many"), "invalid value"},
@@ -634,7 +656,6 @@ func TestScreenUsageErrors(t *testing.T) {
 		{"analyze's --center", with("--moderators", "a,b", "--center=3"), "--center is an option of analyze"},
 		{"analyze's --reference", with("--moderators", "a,b", "-reference", "L"), "--reference is an option of analyze"},
 		{"bad se", with("--moderators", "a,b", "--se", "hc9"), "classical, hc0, hc1, hc2, hc3 or cluster"},
-		{"seed without cluster", with("--moderators", "a,b", "--seed", "2"), "--seed is about the wild cluster bootstrap"},
 		{"unknown flag", with("--moderators", "a,b", "--colour", "red"), "flag provided but not defined: -colour"},
 	}
 	for _, c := range cases {

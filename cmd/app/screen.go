@@ -132,6 +132,7 @@ func screen(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 		return err
 	}
 	human := f.human(stdout, stderr)
+	f.printNotices(human)
 	out := report.SummarizeScreen(a.Run, a.Screen)
 	printScreenSummary(human, out)
 	if err := f.save(human, a.Save); err != nil {

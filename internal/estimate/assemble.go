@@ -287,7 +287,9 @@ func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
 			probes = append(probes, probe{fmt.Sprintf("p%d", p), quantile7(sorted, float64(p)/100)})
 		}
 	} else {
-		for _, v := range s.Moderator.Probes {
+		// In increasing order, whatever order they were typed in, so that
+		// the last minus the first is the highest minus the lowest.
+		for _, v := range sortedCopy(s.Moderator.Probes) {
 			probes = append(probes, probe{formatNumber(v), v})
 		}
 	}

@@ -325,3 +325,63 @@ func TestResultsAreFinite(t *testing.T) {
 		}
 	}
 }
+
+// TestControlListedTwice: a control named twice gets the message that says
+// so, not the one for a column in two roles.
+func TestControlListedTwice(t *testing.T) {
+	s := contSpec()
+	s.Controls = []string{"x1", "x1"}
+	_, err := Fit(synth(60, 5), s)
+	if err == nil || !strings.Contains(err.Error(), `Column "x1" is listed twice as a control.`) {
+		t.Errorf("got %v", err)
+	}
+}
+
+// TestReferenceByValue: a reference group typed as a number matches the
+// level written otherwise (".5" is the level "0.5").
+func TestReferenceByValue(t *testing.T) {
+	d := synth(60, 6)
+	levels := []string{"0.5", "1.5", "2.5"}
+	for i := range d.col("g").Text {
+		d.col("g").Text[i] = levels[i/2%3]
+	}
+	s := Spec{Outcome: "y", Treatment: Treatment{Column: "t"}, Moderator: Moderator{Column: "g", Kind: ModeratorCategorical, Reference: ".5"}}
+	res, err := Fit(d, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, e := range res.Effects {
+		if e.Reference != (e.Group == "0.5") {
+			t.Errorf("group %q reference %v", e.Group, e.Reference)
+		}
+	}
+}
+
+// TestProbesInOrder: moderator values typed out of order are reported in
+// increasing order, so that the last-minus-first difference is the
+// highest minus the lowest.
+func TestProbesInOrder(t *testing.T) {
+	s := contSpec()
+	s.Moderator.Probes = []float64{15, 5, 12, 8}
+	res, err := Fit(synth(80, 7), s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, e := range res.Effects {
+		got = append(got, e.Group)
+	}
+	if strings.Join(got, ",") != "5,8,12,15" {
+		t.Errorf("probes in the order %v", got)
+	}
+	last := res.Effects[len(res.Effects)-1].Estimate - res.Effects[0].Estimate
+	found := false
+	for _, d := range res.Differences {
+		if math.Abs(d.Estimate-last) < 1e-12 {
+			found = true
+		}
+	}
+	if !found {
+		t.Errorf("no difference equals the highest probe's effect minus the lowest's (%v)", last)
+	}
+}

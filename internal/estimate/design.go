@@ -397,6 +397,18 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 	case m.Reference != "":
 		j, ok := index[m.Reference]
 		if !ok {
+			// A level written as a number matches the same number written
+			// otherwise (".5" is "0.5").
+			if v, err := strconv.ParseFloat(strings.TrimSpace(m.Reference), 64); err == nil {
+				for k, l := range ds.levels {
+					if w, err := strconv.ParseFloat(l, 64); err == nil && w == v {
+						j, ok = k, true
+						break
+					}
+				}
+			}
+		}
+		if !ok {
 			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", short(m.Reference), c.Name, quoteList(ds.levels)))
 		}
 		ds.ref = j

@@ -179,11 +179,12 @@ func (s Spec) withDefaults() (Spec, error) {
 		roles[r.col] = r.role
 	}
 	for _, c := range s.Controls {
-		if prev, ok := roles[c]; ok && prev != "cluster" {
-			return s, fail(ErrSpec, c, fmt.Sprintf("Column %q is chosen as both %s and a control. Remove it from the controls.", c, prev))
-		}
-		if prev, ok := roles[c]; ok && prev == "control" {
+		prev, ok := roles[c]
+		switch {
+		case ok && prev == "control":
 			return s, fail(ErrSpec, c, fmt.Sprintf("Column %q is listed twice as a control.", c))
+		case ok && prev != "cluster":
+			return s, fail(ErrSpec, c, fmt.Sprintf("Column %q is chosen as both %s and a control. Remove it from the controls.", c, prev))
 		}
 		roles[c] = "control"
 	}
