@@ -115,8 +115,16 @@ func (e usageError) Error() string { return e.msg }
 
 func usagef(format string, args ...any) error { return usageError{fmt.Sprintf(format, args...)} }
 
-// cli runs a headless command and returns its exit code.
-func cli(ctx context.Context, args []string, stdout, stderr io.Writer) int {
+// cli runs a headless command and returns its exit code. A panic of the
+// command's own goroutine is an internal error, reported in one line with
+// exit status 1, never as the command line's 2.
+func cli(ctx context.Context, args []string, stdout, stderr io.Writer) (code int) {
+	defer func() {
+		if r := recover(); r != nil {
+			fmt.Fprintf(stderr, "slopewise: an internal error stopped the command (%s); nothing was changed. Please report this, with the file if you can.\n", readable(fmt.Sprint(r)))
+			code = exitData
+		}
+	}()
 	if len(args) == 0 {
 		fmt.Fprint(stderr, usageText)
 		return exitUsage
@@ -561,6 +569,7 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
+	defer guardMemory(f.file)()
 	run := f.run()
 	run.Planned = f.planned
 	src, err := pipeline.Open(ctx, run)

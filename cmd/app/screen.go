@@ -119,6 +119,7 @@ func screen(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err != nil {
 		return err
 	}
+	defer guardMemory(f.file)()
 	t, err := pipeline.Read(ctx, f.run(), nil)
 	if err != nil {
 		return err
