@@ -965,6 +965,25 @@ func atkCases() []atkCase {
 			},
 		},
 		{
+			// The same part, the results written in place: excelize holds
+			// every part it opens in memory, so the writer must refuse it.
+			name: "customXml 3.9 GB, written",
+			n:    3_900_000_000,
+			make: func(t *testing.T, dir string, n int64) string {
+				head, tail := atkDecl+`<root>`, `</root>`
+				body := atkSeq(head, func(w io.Writer) error {
+					return atkFill(w, "<a/>", n-int64(len(head)+len(tail)))
+				}, tail)
+				return atkValidBook("book.xlsx", atkBook{
+					extra: []atkPart{{"customXml/item1.xml", body}},
+					rels:  `<Relationship Id="rIdC" Type="` + atkRel + `customXml" Target="../customXml/item1.xml"/>`,
+				})(t, dir, n)
+			},
+			args:  []string{"analyze", "{file}", "--outcome", "y", "--treatment", "t", "--moderator", "g"},
+			exits: []int{1},
+			want:  `unpacks to .* far more than a genuine part does`,
+		},
+		{
 			// Shared strings of 3.9 GB: the header and groups, then one
 			// string of 3.9 GB, which one cell uses.
 			name: "sharedStrings 3.9 GB",

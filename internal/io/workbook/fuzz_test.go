@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"strings"
 	"testing"
 )
 
@@ -232,6 +233,14 @@ func FuzzReadWorkbook(f *testing.F) {
 		row(3, boolc("C3", true), `<c r="D3" t="str"><f>X</f><v>text</v></c>`) + row(4, `<c t="d"><v>2024-02-29T12:00:00</v></c>`),
 		`<row><c><v>1e308</v></c><c t="s"><v>99</v></c></row>`,
 		`<row r="2"><c r="XFD2" s="1"><v>-0</v></c></row><row r="1"><c r="A1"><is><r><t>a</t></r><r><t>b</t></r></is></c></row>`,
+		// The shapes of the hostile and foreign files (issues 11 and 12):
+		// empty values, formulas without results, shared and array
+		// formulas, rows and cells without r, a cell past its length.
+		row(1, inl("A1", "a"), inl("B1", "b")) + `<row><c><v></v></c><c><f>A2*2</f><v/></c></row><row><c t="str"><f>"x"</f><v></v></c><c><f t="shared" ref="B3:B4" si="0">A3+1</f></c></row><row><c><v>4</v></c><c><f t="shared" si="0"/></c></row>`,
+		`<row>` + strings.Repeat(`<c><v>1</v></c>`, 300) + `</row>`,
+		strings.Repeat(`<row><c><v>1</v></c></row>`, 300),
+		`<row><c t="inlineStr"><is><t>` + strings.Repeat("x", 33000) + `</t></is></c></row>`,
+		`<row><c t="s"><v>` + strings.Repeat("9", 30) + `</v></c><c r="XFE1"><v>1</v></c></row>`,
 	} {
 		f.Add([]byte(s))
 	}
