@@ -160,7 +160,7 @@ type regionFilter struct {
 // outside the region or nothing of it is left, so that it is neither data
 // nor a blank row.
 func (f *regionFilter) keep(num int, cells []rawCell) (out []rawCell, drop bool) {
-	if f == nil {
+	if f == nil || f.region == nil && len(f.tables) == 0 {
 		return cells, false
 	}
 	if f.region != nil && (num < f.region.FirstRow || num > f.region.dataEnd()) {
