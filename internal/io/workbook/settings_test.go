@@ -3,6 +3,7 @@ package workbook
 import (
 	"bytes"
 	"os"
+	"path/filepath"
 	"strings"
 	"testing"
 	"time"
@@ -60,5 +61,44 @@ func TestRestoreSettings(t *testing.T) {
 	lost := missingSettings(orig, got)
 	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].name != "calcId" {
 		t.Errorf("a changed value must remain a difference for the check: %v", lost)
+	}
+}
+
+// TestBackupNamedWhenWhole: the backup is complete under a temporary name
+// before it gets its own, so a save stopped at that moment leaves no file
+// that looks like a backup; after the save no temporary file is left.
+func TestBackupNamedWhenWhole(t *testing.T) {
+	dir := t.TempDir()
+	path := simpleBook().write(t, dir, "b.xlsx")
+	orig, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	seen := false
+	beforeBackupNamed = func(tmp string) {
+		seen = true
+		body, err := os.ReadFile(tmp)
+		if err != nil || !bytes.Equal(body, orig) {
+			t.Errorf("the temporary backup is not the whole original (%v)", err)
+		}
+		names, _ := filepath.Glob(filepath.Join(dir, "b (before Slopewise*"))
+		if len(names) > 0 {
+			t.Errorf("a backup has its name before it is complete: %v", names)
+		}
+	}
+	defer func() { beforeBackupNamed = func(string) {} }()
+	w, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !seen {
+		t.Fatal("the backup was not made through its temporary name")
+	}
+	if back, err := os.ReadFile(w.Backup); err != nil || !bytes.Equal(back, orig) {
+		t.Errorf("the backup is not the original (%v)", err)
+	}
+	left, _ := filepath.Glob(filepath.Join(dir, ".*"))
+	if len(left) > 0 {
+		t.Errorf("temporary files left: %v", left)
 	}
 }

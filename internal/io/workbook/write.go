@@ -503,24 +503,39 @@ func backup(path string, now time.Time) (string, error) {
 	if info != nil {
 		mode = info.Mode().Perm()
 	}
-	f, err := os.OpenFile(dst, os.O_WRONLY|os.O_CREATE|os.O_EXCL, mode)
+	// Written whole under a temporary name, synced and read back, and only
+	// then given its name: a backup killed half-way is never left looking
+	// like a real one (issue 13).
+	f, err := os.CreateTemp(filepath.Dir(path), "."+base+".slopewise-backup-*.tmp")
 	if err != nil {
 		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
 	}
+	tmp := f.Name()
+	defer os.Remove(tmp) // a no-op once renamed
 	_, werr := f.Write(orig)
 	serr := f.Sync()
 	cerr := f.Close()
-	if err := errors.Join(werr, serr, cerr); err != nil {
-		os.Remove(dst)
+	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, mode)); err != nil {
 		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
 	}
-	again, err := os.ReadFile(dst)
+	again, err := os.ReadFile(tmp)
 	if err != nil || !bytes.Equal(again, orig) {
-		os.Remove(dst)
 		return "", &Error{Path: dst, Cause: ErrVerifyFailed, Detail: "the backup does not read back equal to the original"}
 	}
+	beforeBackupNamed(tmp)
+	if fileExists(dst) {
+		return "", &Error{Path: dst, Cause: ErrTargetExists, Detail: "a file of the backup's name appeared while it was made"}
+	}
+	if err := os.Rename(tmp, dst); err != nil {
+		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be given its name", Underlying: err}
+	}
+	syncDir(filepath.Dir(path))
 	return dst, nil
 }
+
+// beforeBackupNamed runs when the backup is complete under its temporary
+// name; tests use it to stop the save there.
+var beforeBackupNamed = func(string) {}
 
 // replaceFile gives tmp the original's permissions (and owner, where
 // allowed) and renames it over target.
