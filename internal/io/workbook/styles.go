@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"encoding/xml"
+	"errors"
 	"fmt"
 	"io"
 	"strconv"
@@ -32,7 +33,11 @@ func (p *xlsxPackage) readStyles() error {
 	}
 	rc, err := p.openPart(part, p.limitXML)
 	if err != nil {
-		return err
+		var e *Error
+		if errors.As(err, &e) {
+			return e
+		}
+		return &Error{Path: p.path, Cause: ErrDamaged, Detail: "the styles part cannot be read", Underlying: err}
 	}
 	defer rc.Close()
 	dec := newXMLDecoder(rc)

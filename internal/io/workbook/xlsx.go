@@ -374,8 +374,15 @@ func (p *xlsxPackage) decodePart(name string, v any) error {
 const maxXMLDepth = 128
 
 // checkDepth reads a part's tokens, without keeping any, and refuses it
-// when elements nest deeper than maxXMLDepth.
-func (p *xlsxPackage) checkDepth(name string) error {
+// when elements nest deeper than maxXMLDepth; a part that does not
+// unpack or parse is damage.
+func (p *xlsxPackage) checkDepth(name string) (err error) {
+	defer func() {
+		var e *Error
+		if err != nil && !errors.As(err, &e) {
+			err = &Error{Path: p.path, Cause: ErrDamaged, Detail: "the part " + name + " cannot be read", Underlying: err}
+		}
+	}()
 	rc, err := p.openPart(name, p.limitXML)
 	if err != nil {
 		return err
