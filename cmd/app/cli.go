@@ -360,6 +360,9 @@ func (f *modelFlags) check() error {
 	if f.table != "" && f.headerRow > 0 {
 		return usagef("--table reads the table's own header row, so --header-row has no effect; leave one of them out")
 	}
+	if f.out != "" && workbook.IsTextName(f.out) {
+		return usagef("--out must name an Excel workbook (.xlsx), since the results are a workbook; %q has a text file's extension", readable(f.out))
+	}
 	if f.dryRun && f.out != "" {
 		return usagef("--dry-run writes nothing, so --out has no effect; leave one of them out")
 	}

@@ -119,6 +119,7 @@ func TestUsageErrors(t *testing.T) {
 		{"alpha not a number", with("--alpha", "five"), "invalid value"},
 		{"negative header row", with("--header-row", "-3"), "--header-row must be a row number"},
 		{"dry run with out", with("--dry-run", "--out", "x.xlsx"), "--dry-run writes nothing"},
+		{"out with a text name", with("--out", "results.csv"), "--out must name an Excel workbook (.xlsx)"},
 		{"bad copy-data", with("--copy-data", "sometimes"), `--copy-data must be auto, yes or no, not "sometimes"`},
 		{"too few draws", with("--cluster", "wool", "--draws", "10"), "--draws must be a whole number from 99 to 999999"},
 		{"too many draws", with("--cluster", "wool", "--draws", "1000000"), "--draws must be a whole number from 99"},

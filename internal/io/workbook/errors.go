@@ -48,6 +48,10 @@ var (
 	ErrWriterStopped   = errors.New("the workbook library that Slopewise writes with stopped on an internal error while adding the results, so nothing was changed; save the results to a copy, or save the workbook again in a spreadsheet program and retry (and please report this, with the file if you can)")
 	ErrTooManyColumns  = errors.New("the file has more columns than Slopewise reads; keep only the columns the analysis needs and open that")
 	ErrTooManyCells    = errors.New("the data have more cells than Slopewise holds in memory; keep only the columns the analysis needs (a CSV file of them is read in passes, not held whole) and open that")
+	ErrNoSpace         = errors.New("the disk is full, so the results could not be written (nothing was changed); free some space, or save the results to a copy on another disk")
+	ErrNameTooLong     = errors.New("the file's name, with the temporary or backup name Slopewise gives it while saving, is longer than the system allows (nothing was changed); save the results to a copy with a shorter name, or move the workbook to a shorter path")
+	ErrDiskReadOnly    = errors.New("the disk or share holding this folder is read-only (nothing was changed); save the results to a copy on a disk you can write to")
+	ErrReadOnlyFile    = errors.New("this workbook is read-only (its permissions do not allow changes), so Slopewise will not replace it; save the results to a copy, or make the file writable first")
 	ErrTableNotFound   = errors.New("there is no table with this name; choose one of the tables listed, or read the whole sheet")
 	ErrFormulaNoResult = errors.New("this column holds formulas without a usable saved result, so their values are unknown; open the workbook in a spreadsheet program and save it (which calculates every formula), or choose another column")
 )
@@ -122,3 +126,13 @@ func fail(path string, cause error, detail string) *Error {
 func failWrap(path string, cause error, underlying error) *Error {
 	return &Error{Path: path, Cause: cause, Underlying: underlying}
 }
+
+// diskFailure is the kind of a failure to create or write a file.
+type diskFailure int
+
+const (
+	otherFailure diskFailure = iota
+	diskFull
+	nameTooLong
+	diskReadOnly
+)

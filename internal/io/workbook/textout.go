@@ -95,6 +95,9 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		if errors.As(err, &e) {
 			return nil, e // a problem in the text file, not in writing
 		}
+		if diskCause(err) != otherFailure {
+			return nil, writeError(target, "writing the data sheet failed", err)
+		}
 		return nil, &Error{Path: target, Cause: ErrVerifyFailed, Detail: "writing the data sheet failed: " + err.Error(), Underlying: err}
 	}
 	if wide.width > maxColumns {

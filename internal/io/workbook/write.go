@@ -106,12 +106,31 @@ func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written,
 	}
 	switch f {
 	case formatXLSX:
+		if isTextName(src) && opts.CopyTo == "" {
+			// A workbook named like a text file: read as what it is, and
+			// written beside it as a text file's results would be, so
+			// that a file called .csv never becomes a workbook in place.
+			opts.CopyTo = ResultsPathFor(src)
+		}
 		return writeWorkbook(src, sheet, opts)
 	case formatText:
 		return writeBesideText(src, sheet, opts)
 	}
 	return nil, fail(src, ErrNotWritableKind, "")
 }
+
+// isTextName reports a name with a text file's extension.
+func isTextName(path string) bool {
+	switch strings.ToLower(filepath.Ext(path)) {
+	case ".csv", ".tsv", ".txt", ".tab":
+		return true
+	}
+	return false
+}
+
+// IsTextName reports whether a file name has a text file's extension
+// (.csv, .tsv, .txt, .tab), which a results workbook must not take.
+func IsTextName(path string) bool { return isTextName(path) }
 
 func (o WriteOptions) limits() (int64, int64) {
 	return sizeLimits(o.UnzipSizeLimit, o.UnzipXMLSizeLimit)
@@ -135,6 +154,9 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, statError(src, err)
 	}
 	if inPlace {
+		if !writable(src, info) {
+			return nil, &Error{Path: src, Cause: ErrReadOnlyFile}
+		}
 		if lock := lockFile(src); lock != "" {
 			return nil, &Error{Path: src, Cause: ErrOpenElsewhere, Detail: "a lock file is beside it: " + filepath.Base(lock)}
 		}
@@ -457,21 +479,21 @@ func buildInTemp(target string, base []byte, limit, limitXML int64, stages ...fu
 	dir, name := filepath.Dir(target), filepath.Base(target)
 	tmp, err := os.CreateTemp(dir, "."+name+".slopewise-*.tmp")
 	if err != nil {
-		return "", &Error{Path: dir, Cause: ErrFolderReadOnly, Underlying: err}
+		return "", writeError(dir, "", err)
 	}
 	if _, err := xf.WriteTo(tmp); err != nil {
 		tmp.Close()
 		os.Remove(tmp.Name())
-		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Detail: "writing the new file failed", Underlying: err}
+		return "", writeError(target, "writing the new file failed", err)
 	}
 	if err := tmp.Sync(); err != nil {
 		tmp.Close()
 		os.Remove(tmp.Name())
-		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Detail: "the new file could not be saved to disk", Underlying: err}
+		return "", writeError(target, "the new file could not be saved to disk", err)
 	}
 	if err := tmp.Close(); err != nil {
 		os.Remove(tmp.Name())
-		return "", &Error{Path: target, Cause: ErrFolderReadOnly, Underlying: err}
+		return "", writeError(target, "", err)
 	}
 	return tmp.Name(), nil
 }
@@ -508,7 +530,7 @@ func backup(path string, now time.Time) (string, error) {
 	// like a real one (issue 13).
 	f, err := os.CreateTemp(filepath.Dir(path), "."+base+".slopewise-backup-*.tmp")
 	if err != nil {
-		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
+		return "", writeError(dst, "the backup could not be made", err)
 	}
 	tmp := f.Name()
 	defer os.Remove(tmp) // a no-op once renamed
@@ -516,7 +538,7 @@ func backup(path string, now time.Time) (string, error) {
 	serr := f.Sync()
 	cerr := f.Close()
 	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, mode)); err != nil {
-		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be made", Underlying: err}
+		return "", writeError(dst, "the backup could not be made", err)
 	}
 	again, err := os.ReadFile(tmp)
 	if err != nil || !bytes.Equal(again, orig) {
@@ -527,10 +549,26 @@ func backup(path string, now time.Time) (string, error) {
 		return "", &Error{Path: dst, Cause: ErrTargetExists, Detail: "a file of the backup's name appeared while it was made"}
 	}
 	if err := os.Rename(tmp, dst); err != nil {
-		return "", &Error{Path: dst, Cause: ErrFolderReadOnly, Detail: "the backup could not be given its name", Underlying: err}
+		return "", writeError(dst, "the backup could not be given its name", err)
 	}
 	syncDir(filepath.Dir(path))
 	return dst, nil
+}
+
+// writeError words a failure to create or write a file by its cause: a
+// full disk, a name too long, a read-only disk, else a folder Slopewise
+// may not write to; the system's own reason stays underneath.
+func writeError(path, detail string, err error) *Error {
+	cause := ErrFolderReadOnly
+	switch diskCause(err) {
+	case diskFull:
+		cause = ErrNoSpace
+	case nameTooLong:
+		cause = ErrNameTooLong
+	case diskReadOnly:
+		cause = ErrDiskReadOnly
+	}
+	return &Error{Path: path, Cause: cause, Detail: detail, Underlying: err}
 }
 
 // beforeBackupNamed runs when the backup is complete under its temporary

@@ -1,0 +1,91 @@
+//go:build unix
+
+package workbook
+
+import (
+	"errors"
+	"io/fs"
+	"os"
+	"path/filepath"
+	"strings"
+	"syscall"
+	"testing"
+)
+
+// TestReadOnlyWorkbookNotReplaced: a workbook of mode 0444 is read-only,
+// also for an administrator, as spreadsheet programs treat it: it is not
+// replaced, nothing is left beside it, and a copy can still be written.
+func TestReadOnlyWorkbookNotReplaced(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "locked.xlsx")
+	if err := os.Chmod(p, 0o444); err != nil {
+		t.Fatal(err)
+	}
+	before := hashIfFile(p)
+	_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	if !errors.Is(err, ErrReadOnlyFile) || !strings.Contains(err.Error(), "save the results to a copy") {
+		t.Fatalf("got %v", err)
+	}
+	if hashIfFile(p) != before {
+		t.Error("the workbook changed")
+	}
+	if names, _ := os.ReadDir(dir); len(names) != 1 {
+		t.Errorf("files beside it: %v", names)
+	}
+	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")}); err != nil {
+		t.Errorf("copy: %v", err)
+	}
+}
+
+// TestNameTooLong: a workbook whose name leaves no room for the temporary
+// name of the save (255 bytes a name on Linux file systems, common
+// practice) gets the message for a name too long, not "cannot create
+// files in this folder".
+func TestNameTooLong(t *testing.T) {
+	dir := t.TempDir()
+	name := strings.Repeat("n", 240) + ".xlsx"
+	p := simpleBook().write(t, dir, name)
+	before := hashIfFile(p)
+	_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	if !errors.Is(err, ErrNameTooLong) {
+		t.Fatalf("got %v", err)
+	}
+	if hashIfFile(p) != before {
+		t.Error("the workbook changed")
+	}
+	if names, _ := os.ReadDir(dir); len(names) != 1 {
+		t.Errorf("files beside it: %v", names)
+	}
+}
+
+// TestWriteErrorCauses: the system's reasons map to their own messages.
+func TestWriteErrorCauses(t *testing.T) {
+	for _, c := range []struct {
+		errno syscall.Errno
+		cause error
+	}{
+		{syscall.ENOSPC, ErrNoSpace}, {syscall.ENAMETOOLONG, ErrNameTooLong},
+		{syscall.EROFS, ErrDiskReadOnly}, {syscall.EACCES, ErrFolderReadOnly},
+	} {
+		err := writeError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
+		if !errors.Is(err, c.cause) || !errors.Is(err, c.errno) {
+			t.Errorf("%v: got %v", c.errno, err)
+		}
+	}
+}
+
+// TestWorkbookNamedCSV: a workbook named .csv is read as a workbook and
+// its results go into "<name> results.xlsx" beside it; the file itself
+// is not changed.
+func TestWorkbookNamedCSV(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "export.csv")
+	before := hashIfFile(p)
+	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if w.Path != filepath.Join(dir, "export results.xlsx") || hashIfFile(p) != before {
+		t.Errorf("written to %s; the .csv must stay as it was", w.Path)
+	}
+}
