@@ -240,6 +240,9 @@ func (s *findingsScreen) write(copyTo string) {
 		if w.DataNotCopied > 0 {
 			msg += fmt.Sprintf(" The data stay in %s only: at more than 100,000 rows a copy in the workbook would be slow to open.", filepath.Base(u.path))
 		}
+		if n := len(w.Cleaned); n > 0 {
+			msg += fmt.Sprintf(" %d leftover temporary file(s) of earlier saves that were stopped were removed from the folder.", n)
+		}
 		s.savedNote.SetText(msg)
 		u.setStatus("Saved.")
 		dialog.ShowInformation("Saved", msg, u.win)
@@ -251,7 +254,8 @@ func (s *findingsScreen) write(copyTo string) {
 func (s *findingsScreen) saveFailed(err error) {
 	u := s.u
 	inPlace := errors.Is(err, workbook.ErrOpenElsewhere) || errors.Is(err, workbook.ErrCannotReplace) ||
-		errors.Is(err, workbook.ErrWouldLose) || errors.Is(err, workbook.ErrFolderReadOnly)
+		errors.Is(err, workbook.ErrWouldLose) || errors.Is(err, workbook.ErrFolderReadOnly) ||
+		errors.Is(err, workbook.ErrReadOnlyFile) || errors.Is(err, workbook.ErrDiskReadOnly) || errors.Is(err, workbook.ErrNameTooLong)
 	if !inPlace {
 		u.showError("The results could not be saved. Your workbook is unchanged.", err)
 		return

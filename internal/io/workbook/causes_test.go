@@ -10,6 +10,7 @@ import (
 	"strings"
 	"syscall"
 	"testing"
+	"time"
 )
 
 // TestReadOnlyWorkbookNotReplaced: a workbook of mode 0444 is read-only,
@@ -87,5 +88,56 @@ func TestWorkbookNamedCSV(t *testing.T) {
 	}
 	if w.Path != filepath.Join(dir, "export results.xlsx") || hashIfFile(p) != before {
 		t.Errorf("written to %s; the .csv must stay as it was", w.Path)
+	}
+}
+
+// TestDebrisCleaned: a save removes the leftovers of stopped saves from
+// its folder — files named as Slopewise names its temporary files, older
+// than a day, zip archives — and nothing else.
+func TestDebrisCleaned(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "book.xlsx")
+	zipBytes, err := os.ReadFile(p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	old := time.Now().Add(-48 * time.Hour)
+	make := func(name string, body []byte, when time.Time) string {
+		q := filepath.Join(dir, name)
+		if err := os.WriteFile(q, body, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		if err := os.Chtimes(q, when, when); err != nil {
+			t.Fatal(err)
+		}
+		return q
+	}
+	gone := []string{
+		make(".book.xlsx.slopewise-123.tmp", zipBytes[:100], old),
+		make(".book.xlsx.slopewise-backup-77.tmp", zipBytes, old),
+		make(".other.xlsx.slopewise-9.tmp-42", nil, old),
+	}
+	kept := []string{
+		make(".book.xlsx.slopewise-124.tmp", zipBytes, time.Now()),          // another run's, young
+		make(".book.xlsx.slopewise-125.tmp", []byte("not a workbook"), old), // not ours by content
+		make("book.xlsx.slopewise-126.tmp", zipBytes, old),                  // not hidden: not our name
+		make("notes.txt", []byte("x"), old),
+	}
+	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, q := range gone {
+		if fileExists(q) {
+			t.Errorf("%s was not removed", filepath.Base(q))
+		}
+	}
+	for _, q := range kept {
+		if !fileExists(q) {
+			t.Errorf("%s was removed", filepath.Base(q))
+		}
+	}
+	if len(w.Cleaned) != len(gone) {
+		t.Errorf("cleaned %v", w.Cleaned)
 	}
 }

@@ -5,9 +5,11 @@ import (
 	"bytes"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"os"
 	"path/filepath"
+	"regexp"
 	"strconv"
 	"strings"
 	"time"
@@ -82,6 +84,9 @@ type Written struct {
 	// Lost lists the features of the source that the copy does not keep
 	// (only when writing a copy; in place such a source is refused).
 	Lost []string
+	// Cleaned lists the leftover temporary files of earlier saves that
+	// were removed from the folder (cleanDebris).
+	Cleaned []string
 	// DataNotCopied is set when the workbook written beside a text
 	// source holds the results but not a copy of the data: positive (the
 	// limit's line count plus one) when the file has more lines than the
@@ -96,7 +101,7 @@ type Written struct {
 // against the original, the original is copied to a timestamped backup,
 // and only then is the temporary file renamed into place. On any failure
 // the original's bytes are as they were.
-func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written, error) {
+func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (w *Written, err error) {
 	if opts.Now == nil {
 		opts.Now = time.Now
 	}
@@ -104,6 +109,16 @@ func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written,
 	if err != nil {
 		return nil, err
 	}
+	target := opts.CopyTo
+	if target == "" {
+		target = src
+	}
+	cleaned := cleanDebris(filepath.Dir(target), opts.Now())
+	defer func() {
+		if w != nil {
+			w.Cleaned = cleaned
+		}
+	}()
 	switch f {
 	case formatXLSX:
 		if isTextName(src) && opts.CopyTo == "" {
@@ -117,6 +132,56 @@ func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (*Written,
 		return writeBesideText(src, sheet, opts)
 	}
 	return nil, fail(src, ErrNotWritableKind, "")
+}
+
+// debrisName matches the temporary files Slopewise makes beside a file
+// it writes: ".NAME.slopewise-N.tmp" (the new workbook), with "-backup"
+// (a backup being written), and with "-M" after it (a rewrite of one of
+// these).
+var debrisName = regexp.MustCompile(`^\..+\.slopewise-(backup-)?[0-9]+\.tmp(-[0-9]+)?$`)
+
+// debrisAge is how old a leftover must be before it is removed: no save
+// takes a day, so an older one is no other run's work in progress.
+const debrisAge = 24 * time.Hour
+
+// cleanDebris removes from dir the leftovers of saves that were stopped
+// (a killed process cannot remove its temporary files): only regular
+// files named as Slopewise names them, older than debrisAge, that are
+// zip archives as every file it writes is. It returns their names.
+func cleanDebris(dir string, now time.Time) []string {
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		return nil
+	}
+	var removed []string
+	for _, e := range entries {
+		if !e.Type().IsRegular() || !debrisName.MatchString(e.Name()) {
+			continue
+		}
+		info, err := e.Info()
+		if err != nil || now.Sub(info.ModTime()) < debrisAge {
+			continue
+		}
+		p := filepath.Join(dir, e.Name())
+		if !startsWithZip(p) {
+			continue
+		}
+		if os.Remove(p) == nil {
+			removed = append(removed, e.Name())
+		}
+	}
+	return removed
+}
+
+func startsWithZip(path string) bool {
+	f, err := os.Open(path)
+	if err != nil {
+		return false
+	}
+	defer f.Close()
+	head := make([]byte, 4)
+	n, _ := io.ReadFull(f, head)
+	return n == 0 || bytes.Equal(head[:n], []byte("PK\x03\x04")[:n])
 }
 
 // isTextName reports a name with a text file's extension.
