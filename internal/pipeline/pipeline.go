@@ -64,6 +64,9 @@ func (a *Analysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
 	if opts.KeepColumns == nil {
 		opts.KeepColumns = specColumns(a.Run.Spec)
 	}
+	if opts.Expect == nil && a.Table != nil && a.Table.Path == a.Run.File {
+		opts.Expect = a.Table.Source
+	}
 	return workbook.WriteResults(a.Run.File, a.Sheet, opts)
 }
 
@@ -118,6 +121,9 @@ func (a *ScreenAnalysis) Save(opts workbook.WriteOptions) (*workbook.Written, er
 			spec.Controls = append(spec.Controls, m.Column)
 		}
 		opts.KeepColumns = specColumns(spec)
+	}
+	if opts.Expect == nil && a.Table != nil && a.Table.Path == a.Run.Base.File {
+		opts.Expect = a.Table.Source
 	}
 	return workbook.WriteResults(a.Run.Base.File, a.Sheet, opts)
 }

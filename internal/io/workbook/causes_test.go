@@ -3,6 +3,7 @@
 package workbook
 
 import (
+	"context"
 	"errors"
 	"io/fs"
 	"os"
@@ -139,5 +140,42 @@ func TestDebrisCleaned(t *testing.T) {
 	}
 	if len(w.Cleaned) != len(gone) {
 		t.Errorf("cleaned %v", w.Cleaned)
+	}
+}
+
+// TestChangedAfterRead: the workbook is replaced by another program's save
+// after its data were read (during the fit): the results are not written
+// into the new version, which stays as it is.
+func TestChangedAfterRead(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "live.xlsx")
+	tab, err := Read(context.Background(), p, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	saved := visitsBook().bytes(t)
+	if err := os.WriteFile(p+".new", saved, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Rename(p+".new", p); err != nil { // as spreadsheet programs save
+		t.Fatal(err)
+	}
+	_, err = WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source})
+	if !errors.Is(err, ErrChangedSinceRead) || !strings.Contains(err.Error(), "run the analysis again") {
+		t.Fatalf("got %v", err)
+	}
+	if fileHash(t, p) != sha(saved) {
+		t.Error("the new version changed")
+	}
+	if names, _ := os.ReadDir(dir); len(names) != 1 {
+		t.Errorf("left in the folder: %v", names)
+	}
+	// Unchanged since reading: written.
+	tab, err = Read(context.Background(), p, Options{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source}); err != nil {
+		t.Errorf("unchanged since read: %v", err)
 	}
 }

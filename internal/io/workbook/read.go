@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"os"
 	"sort"
 )
 
@@ -107,13 +108,14 @@ func read(ctx context.Context, path string, opts Options, fast bool) (*Table, fo
 }
 
 func readTable(ctx context.Context, path string, opts Options, fast bool) (*Table, error) {
+	info, _ := os.Stat(path)
 	f, err := sniff(path)
 	if err != nil {
 		return nil, err
 	}
 	var (
 		src   rowSource
-		table = &Table{Path: path}
+		table = &Table{Path: path, Source: info}
 		dc    bool
 	)
 	switch f {

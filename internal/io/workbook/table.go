@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"fmt"
+	"io/fs"
 	"math"
 	"time"
 )
@@ -30,6 +31,9 @@ type Table struct {
 	// read as the data region, empty when the whole sheet was read.
 	Tables []DataTable
 	Region string
+	// Source is the file as it was when reading began (size, time,
+	// identity), for the save to check that it writes into that version.
+	Source fs.FileInfo
 
 	formulaLog formulaLog // formula cells that need a value (formulas.go)
 	part       string     // the worksheet's part in the package

@@ -42,6 +42,10 @@ type WriteOptions struct {
 	CopyData CopyData
 	// CopyDataLines replaces DefaultCopyDataLines when positive.
 	CopyDataLines int
+	// Expect is the file as it was when its data were read
+	// (Table.Source). Written in place, a workbook that is no longer that
+	// version is refused: the results would be of other data.
+	Expect fs.FileInfo
 	// KeepColumns names the columns the analysis used. When a text
 	// source has more columns than a sheet holds (16,384), the data
 	// sheet beside it holds these only.
@@ -218,6 +222,9 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 	if err != nil {
 		return nil, statError(src, err)
 	}
+	if inPlace && opts.Expect != nil && !sameVersion(opts.Expect, info) {
+		return nil, &Error{Path: src, Cause: ErrChangedSinceRead, Detail: "another program saved it after its data were read"}
+	}
 	if inPlace {
 		if !writable(src, info) {
 			return nil, &Error{Path: src, Cause: ErrReadOnlyFile}
@@ -310,19 +317,85 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 	beforeReplace(src)
 	if inPlace {
 		// Someone may have saved the workbook while the results were made.
+		if now, err := os.Stat(src); err != nil || !sameVersion(now, info) {
+			return nil, &Error{Path: src, Cause: ErrChangedSinceRead, Detail: "another program saved it while the results were being written"}
+		}
 		if now, err := os.ReadFile(src); err != nil || !bytes.Equal(now, orig) {
-			return nil, &Error{Path: src, Cause: ErrOpenElsewhere, Detail: "the file changed while the results were being written"}
+			return nil, &Error{Path: src, Cause: ErrChangedSinceRead, Detail: "another program saved it while the results were being written"}
 		}
 	}
-	if inPlace || fileExists(target) {
+	if inPlace {
+		// The backup is made of the bytes checked, not read again.
+		if w.Backup, err = backupBytes(target, orig, info.Mode().Perm(), opts.Now()); err != nil {
+			return nil, err
+		}
+	} else if fileExists(target) {
 		if w.Backup, err = backup(target, opts.Now()); err != nil {
 			return nil, err
 		}
 	}
-	if err := replaceFile(tmp, target, info.Mode().Perm(), info); err != nil {
+	if inPlace {
+		err = replaceChecked(tmp, target, orig, info)
+		if errors.Is(err, ErrChangedSinceRead) {
+			os.Remove(w.Backup) // nothing was replaced: no backup of it
+			w.Backup = ""
+		}
+	} else {
+		err = replaceFile(tmp, target, info.Mode().Perm(), info)
+	}
+	if err != nil {
 		return nil, err
 	}
 	return w, nil
+}
+
+// sameVersion reports whether two looks at a file saw the same version
+// of it: the same file (device and inode, or Windows' file index), size
+// and modification time.
+func sameVersion(a, b fs.FileInfo) bool {
+	return os.SameFile(a, b) && a.Size() == b.Size() && a.ModTime().Equal(b.ModTime())
+}
+
+// errNoExchange: the system cannot swap two files in one step.
+var errNoExchange = errors.New("no atomic exchange here")
+
+// afterExchange runs when the new workbook and the original have been
+// swapped; tests use it to act at that moment.
+var afterExchange = func(string) {}
+
+// replaceChecked puts the new workbook at target in place of the file
+// analysed. Where the system can swap two files in one step (Linux's
+// RENAME_EXCHANGE), it swaps them and then checks that the file swapped
+// out is the one analysed, byte for byte; if another program saved the
+// workbook in the instant between the last check and the swap, it swaps
+// back, so that edit stays in place, and refuses. Elsewhere it renames,
+// the check just before being the last (the window between them is the
+// time of one rename call).
+func replaceChecked(tmp, target string, orig []byte, info fs.FileInfo) error {
+	if err := os.Chmod(tmp, info.Mode().Perm()); err != nil {
+		return &Error{Path: target, Cause: ErrCannotReplace, Underlying: err}
+	}
+	chownLike(tmp, info)
+	err := exchange(tmp, target)
+	if errors.Is(err, errNoExchange) {
+		return replaceFile(tmp, target, info.Mode().Perm(), info)
+	}
+	if err != nil {
+		return &Error{Path: target, Cause: ErrCannotReplace, Underlying: err}
+	}
+	afterExchange(tmp)
+	out, err1 := os.Stat(tmp)
+	body, err2 := os.ReadFile(tmp)
+	if err1 != nil || err2 != nil || !os.SameFile(out, info) || !bytes.Equal(body, orig) {
+		if err := exchange(tmp, target); err != nil {
+			return &Error{Path: target, Cause: ErrCannotReplace, Detail: "another program saved the workbook at the moment it was replaced, and it could not be put back; its version is in " + tmp, Underlying: err}
+		}
+		os.Remove(tmp)
+		return &Error{Path: target, Cause: ErrChangedSinceRead, Detail: "another program saved it at the moment it was to be replaced; its version is in place"}
+	}
+	os.Remove(tmp) // the original, of which the backup is a copy
+	syncDir(filepath.Dir(target))
+	return nil
 }
 
 // Parts that excelize holds whole in memory when it opens a workbook to
@@ -570,6 +643,15 @@ func backup(path string, now time.Time) (string, error) {
 	if err != nil {
 		return "", statError(path, err)
 	}
+	mode := fs.FileMode(0o644)
+	if info, err := os.Stat(path); err == nil {
+		mode = info.Mode().Perm()
+	}
+	return backupBytes(path, orig, mode, now)
+}
+
+// backupBytes writes orig, the bytes of the file at path, as its backup.
+func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (string, error) {
 	dir, base := filepath.Split(path)
 	ext := filepath.Ext(base)
 	stem := strings.TrimSuffix(base, ext)
@@ -584,11 +666,6 @@ func backup(path string, now time.Time) (string, error) {
 		if !fileExists(dst) {
 			break
 		}
-	}
-	info, _ := os.Stat(path)
-	mode := fs.FileMode(0o644)
-	if info != nil {
-		mode = info.Mode().Perm()
 	}
 	// Written whole under a temporary name, synced and read back, and only
 	// then given its name: a backup killed half-way is never left looking

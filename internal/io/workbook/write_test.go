@@ -515,12 +515,47 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 	}
 	defer func() { beforeReplace = func(string) {} }()
 	_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
-	want := fmt.Sprintf("%q: %s (the file changed while the results were being written)", path, ErrOpenElsewhere)
-	if !errors.Is(err, ErrOpenElsewhere) || err.Error() != want {
+	want := fmt.Sprintf("%q: %s (another program saved it while the results were being written)", path, ErrChangedSinceRead)
+	if !errors.Is(err, ErrChangedSinceRead) || err.Error() != want {
 		t.Errorf("got %v\nwant %s", err, want)
 	}
 	if fileHash(t, path) != sha(saved) {
 		t.Error("the other program's save was overwritten")
+	}
+}
+
+// TestEditAtTheExchange: another program saves the workbook in the
+// instant after the last check, when the new workbook has been swapped
+// in (Linux's RENAME_EXCHANGE): the swap is undone, the other program's
+// version is in place, no backup of the version analysed is left, and
+// the save is refused.
+func TestEditAtTheExchange(t *testing.T) {
+	if exchange("", "") == errNoExchange {
+		t.Skip("this system has no atomic exchange")
+	}
+	dir := t.TempDir()
+	path := simpleBook().write(t, dir, "busy.xlsx")
+	saved := visitsBook().bytes(t)
+	calls := 0
+	afterExchange = func(swappedOut string) {
+		calls++
+		// The other program writes where the workbook is now; a real
+		// program's save lands in the moment before the exchange, which
+		// this stands for: the file swapped out is not the one analysed.
+		if err := os.WriteFile(swappedOut, saved, 0o644); err != nil {
+			t.Error(err)
+		}
+	}
+	defer func() { afterExchange = func(string) {} }()
+	_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	if !errors.Is(err, ErrChangedSinceRead) || calls != 1 {
+		t.Fatalf("got %v after %d exchange(s)", err, calls)
+	}
+	if fileHash(t, path) != sha(saved) {
+		t.Error("the other program's version is not in place")
+	}
+	if names, _ := os.ReadDir(dir); len(names) != 1 {
+		t.Errorf("left in the folder: %v", names)
 	}
 }
 
