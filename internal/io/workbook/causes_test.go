@@ -179,3 +179,64 @@ func TestChangedAfterRead(t *testing.T) {
 		t.Errorf("unchanged since read: %v", err)
 	}
 }
+
+// TestTwoSavesAtOnce: two saves of results made from the same reading of
+// a workbook run at once; they take turns through the lock, the first is
+// written and the second, finding a newer version than it read, is
+// refused. One results sheet, one backup, no lock or temporary file left.
+func TestTwoSavesAtOnce(t *testing.T) {
+	for trial := 0; trial < 5; trial++ {
+		dir := t.TempDir()
+		p := simpleBook().write(t, dir, "shared.xlsx")
+		tab, err := Read(context.Background(), p, Options{})
+		if err != nil {
+			t.Fatal(err)
+		}
+		errs := make(chan error, 2)
+		for range 2 {
+			go func() {
+				_, err := WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source})
+				errs <- err
+			}()
+		}
+		var ok, changed int
+		for range 2 {
+			switch err := <-errs; {
+			case err == nil:
+				ok++
+			case errors.Is(err, ErrChangedSinceRead):
+				changed++
+			default:
+				t.Errorf("unexpected: %v", err)
+			}
+		}
+		if ok != 1 || changed != 1 {
+			t.Fatalf("trial %d: %d written, %d refused as changed", trial, ok, changed)
+		}
+		sheets, err := Sheets(p)
+		if err != nil || len(sheets) != 2 {
+			t.Errorf("sheets %v (%v)", sheets, err)
+		}
+		names, _ := os.ReadDir(dir)
+		if len(names) != 2 { // the workbook and one backup
+			t.Errorf("left in the folder: %v", names)
+		}
+	}
+}
+
+// TestStaleLockTakenOver: a lock left by a run that has ended (its
+// process no longer exists) does not stop a save, and is gone after it.
+func TestStaleLockTakenOver(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "book.xlsx")
+	lock := runLockName(p)
+	if err := os.WriteFile(lock, []byte("2147483646 1\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	if fileExists(lock) {
+		t.Error("the lock is still there")
+	}
+}

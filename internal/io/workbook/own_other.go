@@ -33,3 +33,6 @@ func diskCause(err error) diskFailure {
 	}
 	return otherFailure
 }
+
+// processAlive cannot tell here: a lock is stale only by its age.
+func processAlive(int) bool { return true }

@@ -39,3 +39,10 @@ func diskCause(err error) diskFailure {
 	}
 	return otherFailure
 }
+
+// processAlive reports whether a process with this id runs (signal 0
+// checks without sending anything; EPERM means it runs as another user).
+func processAlive(pid int) bool {
+	err := syscall.Kill(pid, 0)
+	return err == nil || errors.Is(err, syscall.EPERM)
+}

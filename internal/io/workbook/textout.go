@@ -34,6 +34,11 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	if target == "" {
 		target = ResultsPathFor(src)
 	}
+	unlock, err := takeRunLock(target)
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
 	if err := checkCopyTarget(src, target, opts.Replace); err != nil {
 		return nil, err
 	}

@@ -218,6 +218,11 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 			return nil, err
 		}
 	}
+	unlock, err := takeRunLock(target)
+	if err != nil {
+		return nil, err
+	}
+	defer unlock()
 	info, err := os.Stat(src)
 	if err != nil {
 		return nil, statError(src, err)
