@@ -542,6 +542,9 @@ func (f *modelFlags) save(human io.Writer, save func(workbook.WriteOptions) (*wo
 	for _, l := range w.Lost {
 		fmt.Fprintf(human, "Not kept in the copy: %s\n", l)
 	}
+	for _, n := range w.Notes {
+		fmt.Fprintf(human, "Note: %s.\n", n)
+	}
 	if len(w.Cleaned) > 0 {
 		fmt.Fprintf(human, "Removed %d leftover temporary file(s) of earlier saves that were stopped: %s\n", len(w.Cleaned), strings.Join(w.Cleaned, ", "))
 	}

@@ -240,6 +240,9 @@ func (s *findingsScreen) write(copyTo string) {
 		if w.DataNotCopied > 0 {
 			msg += fmt.Sprintf(" The data stay in %s only: at more than 100,000 rows a copy in the workbook would be slow to open.", filepath.Base(u.path))
 		}
+		for _, n := range w.Notes {
+			msg += " Note: " + n + "."
+		}
 		if n := len(w.Cleaned); n > 0 {
 			msg += fmt.Sprintf(" %d leftover temporary file(s) of earlier saves that were stopped were removed from the folder.", n)
 		}

@@ -240,3 +240,36 @@ func TestStaleLockTakenOver(t *testing.T) {
 		t.Error("the lock is still there")
 	}
 }
+
+// TestHardLinkSaid: a workbook with a second name (a hard link) is
+// written as a new file, and the save says that the other name keeps the
+// old content.
+func TestHardLinkSaid(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "book.xlsx")
+	other := filepath.Join(dir, "same book.xlsx")
+	if err := os.Link(p, other); err != nil {
+		t.Skip("no hard links here:", err)
+	}
+	before := hashIfFile(other)
+	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(w.Notes) != 1 || !strings.Contains(w.Notes[0], "1 other name(s) (hard links)") {
+		t.Errorf("notes %q", w.Notes)
+	}
+	if hashIfFile(other) != before {
+		t.Error("the other name changed")
+	}
+}
+
+// TestLockNamedWorkbook: a workbook whose own name starts with "~$" is
+// not taken for its own lock file.
+func TestLockNamedWorkbook(t *testing.T) {
+	dir := t.TempDir()
+	p := simpleBook().write(t, dir, "~$data.xlsx")
+	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{}); err != nil {
+		t.Errorf("got %v", err)
+	}
+}

@@ -46,3 +46,11 @@ func processAlive(pid int) bool {
 	err := syscall.Kill(pid, 0)
 	return err == nil || errors.Is(err, syscall.EPERM)
 }
+
+// linkCount is the number of names (hard links) the file has.
+func linkCount(info fs.FileInfo) int {
+	if st, ok := info.Sys().(*syscall.Stat_t); ok {
+		return int(st.Nlink)
+	}
+	return 1
+}

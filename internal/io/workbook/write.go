@@ -88,6 +88,8 @@ type Written struct {
 	// Lost lists the features of the source that the copy does not keep
 	// (only when writing a copy; in place such a source is refused).
 	Lost []string
+	// Notes are things about the save a person should know.
+	Notes []string
 	// Cleaned lists the leftover temporary files of earlier saves that
 	// were removed from the folder (cleanDebris).
 	Cleaned []string
@@ -339,6 +341,13 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 			return nil, err
 		}
 	}
+	if inPlace && linkCount(info) > 1 {
+		// The new workbook is a new file: the workbook's other names (hard
+		// links) keep the old content. Said rather than written through,
+		// since writing through would overwrite the file in place, with no
+		// moment at which the original is whole if the save is stopped.
+		w.Notes = append(w.Notes, fmt.Sprintf("this workbook has %d other name(s) (hard links); they keep the content it had before the results were added", linkCount(info)-1))
+	}
 	if inPlace {
 		err = replaceChecked(tmp, target, orig, info)
 		if errors.Is(err, ErrChangedSinceRead) {
@@ -468,6 +477,9 @@ func lockFile(path string) string {
 		candidates = append(candidates, "~$"+string(r[2:]))
 	}
 	for _, c := range candidates {
+		if c == base {
+			continue // a workbook named "~$…" is not its own lock file
+		}
 		p := filepath.Join(dir, c)
 		if _, err := os.Lstat(p); err == nil {
 			return p
