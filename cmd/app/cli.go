@@ -97,6 +97,10 @@ Options:
                            the file has at most 100,000 rows)
   --json                   also print the results as JSON on standard output
   --dry-run                fit and report, but write nothing
+  --replace                replace Slopewise's own earlier results (its last
+                           results sheet, or the results workbook beside a
+                           text file) instead of refusing or adding another;
+                           a backup is kept as always
 
 Exit status: 0 done, 1 a problem with the data or the model (the message
 names the column, sheet or cell), 2 a problem with the command line.
@@ -202,6 +206,7 @@ type modelFlags struct {
 	se, sheet, out, table       string
 	copyData                    string
 	randomized, json, dryRun    bool
+	replace                     bool
 	alpha                       float64
 	headerRow                   int
 	noBootstrap                 bool
@@ -236,6 +241,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.BoolVar(&f.randomized, "randomized", false, "")
 	fs.BoolVar(&f.json, "json", false, "")
 	fs.BoolVar(&f.dryRun, "dry-run", false, "")
+	fs.BoolVar(&f.replace, "replace", false, "")
 	fs.Float64Var(&f.alpha, "alpha", 0.05, "")
 	fs.IntVar(&f.headerRow, "header-row", 0, "")
 	fs.StringVar(&f.table, "table", "", "")
@@ -528,7 +534,7 @@ func (f *modelFlags) save(human io.Writer, save func(workbook.WriteOptions) (*wo
 		fmt.Fprintln(human, "\nDry run: nothing was written.")
 		return nil
 	}
-	w, err := save(workbook.WriteOptions{CopyTo: f.out, CopyData: copyDataChoices[f.copyData]})
+	w, err := save(workbook.WriteOptions{CopyTo: f.out, CopyData: copyDataChoices[f.copyData], Replace: f.replace})
 	if err != nil {
 		return err
 	}

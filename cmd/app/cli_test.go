@@ -848,3 +848,22 @@ func TestEquivalenceMargin(t *testing.T) {
 		}
 	}
 }
+
+// TestReplaceEarlierResults: a second run on a text file finds the
+// results workbook of the first; it is refused with the way out named,
+// and --replace replaces it, keeping a backup.
+func TestReplaceEarlierResults(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "warp_cat.csv"))
+	args := []string{"analyze", csv, "--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension"}
+	if code, out, errs := runCLI(t, args...); code != exitOK {
+		t.Fatalf("first run: exit %d\n%s%s", code, out, errs)
+	}
+	code, _, errs := runCLI(t, args...)
+	if code != exitData || !strings.Contains(errs, "--replace") {
+		t.Fatalf("second run: exit %d, want %d and the way out:\n%s", code, exitData, errs)
+	}
+	code, out, errs := runCLI(t, append(args, "--replace")...)
+	if code != exitOK || !strings.Contains(out+errs, "is kept as") {
+		t.Errorf("with --replace: exit %d\n%s%s", code, out, errs)
+	}
+}

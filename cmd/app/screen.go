@@ -31,7 +31,7 @@ Every option of analyze but the moderator's own (--moderator,
 --moderator-type, --reference, --moderator-values, --center) works here
 too: --treated, --controls, --cluster, --weights, --se, --randomized,
 --alpha, --no-bootstrap, --draws, --seed, --equivalence-margin, --sheet,
---header-row, --table, --out, --copy-data, --json, --dry-run. Run
+--header-row, --table, --out, --copy-data, --json, --dry-run, --replace. Run
 "slopewise help analyze" for what they do.
 
 Exit status: 0 done, 1 a problem with the data or the model (the message

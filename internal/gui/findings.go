@@ -24,6 +24,7 @@ import (
 // findingsScreen is step 5: the results sheet as the workbook will hold
 // it, and saving it.
 type findingsScreen struct {
+	lastSave  workbook.WriteOptions // the options of the last save tried
 	u         *UI
 	saveBtn   *widget.Button
 	copyBtn   *widget.Button
@@ -210,13 +211,20 @@ func (s *findingsScreen) saveCopy() {
 
 // write saves in place (copyTo empty) or to a copy, off the UI thread.
 func (s *findingsScreen) write(copyTo string) {
+	s.writeWith(workbook.WriteOptions{CopyTo: copyTo})
+}
+
+// writeWith saves with the options given.
+func (s *findingsScreen) writeWith(opts workbook.WriteOptions) {
 	u := s.u
 	u.setStatus("Saving…")
 	s.saveBtn.Disable()
+	s.lastSave = opts
+	opts.Now = u.opts.Now
 	var w *workbook.Written
 	u.background(func() error {
 		var err error
-		w, err = u.saveResults(workbook.WriteOptions{CopyTo: copyTo, Now: u.opts.Now})
+		w, err = u.saveResults(opts)
 		return err
 	}, func(err error) {
 		if err != nil {
@@ -256,6 +264,23 @@ func (s *findingsScreen) write(copyTo string) {
 // work, offers the copy.
 func (s *findingsScreen) saveFailed(err error) {
 	u := s.u
+	if errors.Is(err, workbook.ErrTargetExists) && !s.lastSave.Replace {
+		target := s.lastSave.CopyTo
+		var we *workbook.Error
+		if errors.As(err, &we) && we.Path != "" {
+			target = we.Path
+		}
+		msg := widget.NewLabel(fmt.Sprintf("Results of an earlier run are already there, in %s. Nothing has been written.\n\nReplace them with these? The earlier workbook is kept as a backup beside it.", filepath.Base(target)))
+		msg.Wrapping = fyne.TextWrapWord
+		dialog.NewCustomConfirm("Not saved", "Replace the earlier results", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(replace bool) {
+			if replace {
+				opts := s.lastSave
+				opts.Replace = true
+				s.writeWith(opts)
+			}
+		}, u.win).Show()
+		return
+	}
 	inPlace := errors.Is(err, workbook.ErrOpenElsewhere) || errors.Is(err, workbook.ErrCannotReplace) ||
 		errors.Is(err, workbook.ErrWouldLose) || errors.Is(err, workbook.ErrFolderReadOnly) ||
 		errors.Is(err, workbook.ErrReadOnlyFile) || errors.Is(err, workbook.ErrDiskReadOnly) || errors.Is(err, workbook.ErrNameTooLong)

@@ -15,6 +15,7 @@ import (
 	"fyne.io/fyne/v2/widget"
 	"github.com/xuri/excelize/v2"
 
+	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
 	"slopewise/internal/report"
 )
@@ -545,5 +546,58 @@ func TestBigCSVKeepsItsData(t *testing.T) {
 		if err := png.Encode(f, h.w.Canvas().Capture()); err != nil {
 			t.Fatal(err)
 		}
+	}
+}
+
+// TestReplaceEarlierResultsDialog: saving beside a text file whose
+// results workbook an earlier run wrote offers to replace those results;
+// taking the offer writes them, with a backup of the earlier workbook.
+func TestReplaceEarlierResultsDialog(t *testing.T) {
+	dir := t.TempDir()
+	var b strings.Builder
+	b.WriteString("score,tutored,area\n")
+	for i := range 200 {
+		b.WriteString(strconv.Itoa((i*7919)%101) + "," + strconv.Itoa(i%2) + "," + string(rune('a'+i%3)) + "\n")
+	}
+	src := filepath.Join(dir, "pupils.csv")
+	if err := os.WriteFile(src, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	h := newHarness(t, Options{ChooseOpen: func(done func(string)) { done(src) }})
+	u := h.u
+	test.Tap(u.openScreen.openBtn)
+	h.wait()
+	test.Tap(u.next)
+	r := u.rolesScreen
+	r.outcome.SetSelected("score")
+	r.treatment.SetSelected("tutored")
+	r.moderator.SetSelected("area")
+	test.Tap(u.next)
+	test.Tap(u.next) // run
+	h.wait()
+	if u.analysis == nil {
+		t.Fatalf("no analysis: %s", h.overlayText())
+	}
+	// An earlier run's results workbook is already there.
+	if _, err := u.analysis.Save(workbook.WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	test.Tap(u.findingsScreen.saveBtn)
+	h.wait()
+	if text := h.overlayText(); !strings.Contains(text, "Results of an earlier run are already there") || !strings.Contains(text, "[Replace the earlier results]") {
+		t.Fatalf("the dialog does not offer to replace them:\n%s", text)
+	}
+	if path := os.Getenv("SLOPEWISE_GUI_SHOT"); path != "" {
+		f, err := os.Create(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		png.Encode(f, h.w.Canvas().Capture())
+		f.Close()
+	}
+	h.tapButton("Replace the earlier results")
+	h.wait()
+	if u.written == nil || u.written.Backup == "" || u.written.Path != filepath.Join(dir, "pupils results.xlsx") {
+		t.Errorf("written: %+v\n%s", u.written, h.overlayText())
 	}
 }

@@ -273,3 +273,29 @@ func TestLockNamedWorkbook(t *testing.T) {
 		t.Errorf("got %v", err)
 	}
 }
+
+// TestReplaceOnlyOurResults: allowed to replace earlier results, a save
+// still refuses to replace a file of that name that holds no results of
+// Slopewise's, and replaces one that does, keeping a backup.
+func TestReplaceOnlyOurResults(t *testing.T) {
+	dir := t.TempDir()
+	src := writeFile(t, dir, "scores.csv", []byte("id,score,group\n1,2,a\n2,3,b\n"))
+	target := ResultsPathFor(src)
+	simpleBook().write(t, dir, filepath.Base(target)) // the user's own workbook of that name
+	before := hashIfFile(target)
+	_, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	if !errors.Is(err, ErrTargetExists) || !strings.Contains(err.Error(), "not a workbook of Slopewise's results") {
+		t.Fatalf("got %v", err)
+	}
+	if hashIfFile(target) != before {
+		t.Error("the user's workbook changed")
+	}
+	os.Remove(target)
+	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{}); err != nil {
+		t.Fatal(err)
+	}
+	w, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	if err != nil || w.Backup == "" {
+		t.Errorf("replacing earlier results: %+v %v", w, err)
+	}
+}

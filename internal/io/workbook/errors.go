@@ -39,7 +39,7 @@ var (
 	ErrWouldLose        = errors.New("writing into this workbook would silently drop a feature it uses; save the results to a copy instead (the original stays as it is)")
 	ErrCannotRewrite    = errors.New("Slopewise cannot write into a workbook of this kind without breaking it; save it in a spreadsheet program as a normal Excel workbook (.xlsx) first")
 	ErrVerifyFailed     = errors.New("the rewritten workbook did not match the original when checked, so nothing was replaced; please report this, and save the results to a copy meanwhile")
-	ErrTargetExists     = errors.New("a file with this name already exists; choose another name, or allow Slopewise to replace its own earlier results")
+	ErrTargetExists     = errors.New("a file with this name already exists; choose another name, or allow Slopewise to replace its own earlier results (the window offers it; on the command line, --replace)")
 	ErrSheetNameTaken   = errors.New("the workbook already has a sheet with this name that Slopewise did not write, so it is left alone; choose another name for the results sheet")
 	ErrSheetPartTaken   = errors.New("the workbook's internal layout leaves no safe place for a new sheet; save it in a spreadsheet program and try again")
 	ErrNotWritableKind  = errors.New("results can be written into Excel workbooks (.xlsx, .xlsm) or beside a CSV file; choose one of those")

@@ -454,10 +454,29 @@ func checkCopyTarget(src, target string, replace bool) error {
 		return fail(target, ErrIsFolder, "")
 	case err == nil && !replace:
 		return fail(target, ErrTargetExists, "")
+	case err == nil && !holdsOurResults(target):
+		return fail(target, ErrTargetExists, "it is not a workbook of Slopewise's results, so it is not replaced")
 	case err != nil && !errors.Is(err, fs.ErrNotExist):
 		return statError(target, err)
 	}
 	return nil
+}
+
+// holdsOurResults reports whether the file at path is a workbook with a
+// results sheet that Slopewise wrote (its stored run reads back): only
+// such a file is replaced when earlier results may be.
+func holdsOurResults(path string) bool {
+	p, err := openPackage(path, Options{})
+	if err != nil {
+		return false
+	}
+	defer p.Close()
+	for _, s := range p.sheets {
+		if s.Worksheet && p.isResultsSheet(s.Name) {
+			return true
+		}
+	}
+	return false
 }
 
 func fileExists(path string) bool {
