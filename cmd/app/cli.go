@@ -669,8 +669,8 @@ func demo(args []string, stdout io.Writer) error {
 	if _, err := os.Stat(path); err == nil {
 		return fmt.Errorf("%s already exists; remove it or choose another folder", path)
 	}
-	if err := os.WriteFile(path, assets.DemoWorkbook, 0o644); err != nil {
-		return fmt.Errorf("cannot write the demo workbook: %w", err)
+	if err := workbook.WriteWhole(path, assets.DemoWorkbook, 0o644); err != nil {
+		return err
 	}
 	fmt.Fprintf(stdout, "Demo workbook written to %s\n", path)
 	return nil

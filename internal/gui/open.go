@@ -147,7 +147,7 @@ func (u *UI) openDemo() {
 			u.showError("The demo workbook could not be written.", err)
 			return
 		}
-		if err := os.WriteFile(path, assets.DemoWorkbook, 0o644); err != nil {
+		if err := workbook.WriteWhole(path, assets.DemoWorkbook, 0o644); err != nil {
 			u.showError("The demo workbook could not be written.", err)
 			return
 		}

@@ -299,3 +299,27 @@ func TestReplaceOnlyOurResults(t *testing.T) {
 		t.Errorf("replacing earlier results: %+v %v", w, err)
 	}
 }
+
+// TestWriteWhole: a file written whole (the demo workbook) appears only
+// complete, never replaces an existing file, and leaves nothing else.
+func TestWriteWhole(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "demo.xlsx")
+	data := simpleBook().bytes(t)
+	if err := WriteWhole(p, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if hashIfFile(p) != sha(data) {
+		t.Error("the file is not the data")
+	}
+	if err := WriteWhole(p, []byte("other"), 0o644); !errors.Is(err, ErrTargetExists) {
+		t.Errorf("an existing file: %v", err)
+	}
+	if names, _ := os.ReadDir(dir); len(names) != 1 {
+		t.Errorf("left in the folder: %v", names)
+	}
+	long := filepath.Join(dir, strings.Repeat("d", 250)+".xlsx")
+	if err := WriteWhole(long, data, 0o644); !errors.Is(err, ErrNameTooLong) {
+		t.Errorf("a name too long: %v", err)
+	}
+}

@@ -749,6 +749,36 @@ func writeError(path, detail string, err error) *Error {
 	return &Error{Path: path, Cause: cause, Detail: detail, Underlying: err}
 }
 
+// WriteWhole writes data to a new file at path, whole or not at all: to a
+// temporary name beside it, synced, then renamed; an existing file at
+// path is not replaced (ErrTargetExists). Failures carry their cause
+// (a full disk, a name too long, a folder that may not be written).
+func WriteWhole(path string, data []byte, perm fs.FileMode) error {
+	if fileExists(path) {
+		return fail(path, ErrTargetExists, "")
+	}
+	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".slopewise-*.tmp")
+	if err != nil {
+		return writeError(filepath.Dir(path), "", err)
+	}
+	tmp := f.Name()
+	defer os.Remove(tmp) // a no-op once renamed
+	_, werr := f.Write(data)
+	serr := f.Sync()
+	cerr := f.Close()
+	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, perm)); err != nil {
+		return writeError(path, "", err)
+	}
+	if fileExists(path) {
+		return fail(path, ErrTargetExists, "")
+	}
+	if err := os.Rename(tmp, path); err != nil {
+		return writeError(path, "", err)
+	}
+	syncDir(filepath.Dir(path))
+	return nil
+}
+
 // beforeBackupNamed runs when the backup is complete under its temporary
 // name; tests use it to stop the save there.
 var beforeBackupNamed = func(string) {}
