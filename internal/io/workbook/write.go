@@ -373,6 +373,10 @@ func sameVersion(a, b fs.FileInfo) bool {
 // errNoExchange: the system cannot swap two files in one step.
 var errNoExchange = errors.New("no atomic exchange here")
 
+// beforeExchange runs when the backup is named and the new workbook is
+// about to take the original's place; tests use it to act at that moment.
+var beforeExchange = func(string) {}
+
 // afterExchange runs when the new workbook and the original have been
 // swapped; tests use it to act at that moment.
 var afterExchange = func(string) {}
@@ -390,6 +394,7 @@ func replaceChecked(tmp, target string, orig []byte, info fs.FileInfo) error {
 		return &Error{Path: target, Cause: ErrCannotReplace, Underlying: err}
 	}
 	chownLike(tmp, info)
+	beforeExchange(tmp)
 	err := exchange(tmp, target)
 	if errors.Is(err, errNoExchange) {
 		return replaceFile(tmp, target, info.Mode().Perm(), info)
