@@ -125,7 +125,7 @@ func usagef(format string, args ...any) error { return usageError{fmt.Sprintf(fo
 func cli(ctx context.Context, args []string, stdout, stderr io.Writer) (code int) {
 	defer func() {
 		if r := recover(); r != nil {
-			fmt.Fprintf(stderr, "slopewise: an internal error stopped the command (%s); nothing was changed. Please report this, with the file if you can.\n", readable(fmt.Sprint(r)))
+			fmt.Fprintf(stderr, "slopewise: an internal error stopped the command (%s). The workbook is as it was, or, if the results had been written, holds them with a backup beside it. Please report this, with the file if you can.\n", readable(fmt.Sprint(r)))
 			code = exitData
 		}
 	}()
@@ -584,7 +584,8 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if err != nil {
 		return err
 	}
-	defer guardMemory(f.file)()
+	stopGuard := guardMemory(f.file)
+	defer stopGuard()
 	run := f.run()
 	run.Planned = f.planned
 	src, err := pipeline.Open(ctx, run)
@@ -602,6 +603,9 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	human := f.human(stdout, stderr)
 	f.printNotices(human)
 	printSummary(human, a)
+	// The guard is for reading and fitting: ended in the middle of a save
+	// it would leave its temporary files and say nothing was changed.
+	stopGuard()
 	if err := f.save(human, a.Save); err != nil {
 		return err
 	}

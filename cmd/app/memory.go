@@ -5,6 +5,7 @@ import (
 	"os"
 	"runtime/debug"
 	"runtime/metrics"
+	"sync"
 	"time"
 )
 
@@ -51,9 +52,12 @@ func guardMemory(path string) func() {
 			}
 		}
 	}()
+	var once sync.Once
 	return func() {
-		close(done)
-		debug.SetMemoryLimit(prev)
+		once.Do(func() {
+			close(done)
+			debug.SetMemoryLimit(prev)
+		})
 	}
 }
 

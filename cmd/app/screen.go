@@ -119,7 +119,8 @@ func screen(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err != nil {
 		return err
 	}
-	defer guardMemory(f.file)()
+	stopGuard := guardMemory(f.file)
+	defer stopGuard()
 	t, err := pipeline.Read(ctx, f.run(), nil)
 	if err != nil {
 		return err
@@ -136,6 +137,7 @@ func screen(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	f.printNotices(human)
 	out := report.SummarizeScreen(a.Run, a.Screen)
 	printScreenSummary(human, out)
+	stopGuard() // for reading and fitting only, as in analyze
 	if err := f.save(human, a.Save); err != nil {
 		return err
 	}

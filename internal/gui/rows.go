@@ -140,9 +140,8 @@ func (s *rowsScreen) refreshTable() {
 	s.preview.Refresh()
 }
 
-// refreshRegions offers the sheet's tables as the data region; the whole
-// sheet is offered too, but not when the sheet's only table was taken by
-// itself (reading the sheet would take that table again).
+// refreshRegions offers the whole sheet and each of its tables as the
+// data region.
 func (s *rowsScreen) refreshRegions() {
 	t := s.u.table
 	s.regions = map[string]string{}
@@ -152,13 +151,9 @@ func (s *rowsScreen) refreshRegions() {
 		s.region.Disable()
 		return
 	}
-	var opts []string
-	selected := ""
-	if !(len(t.Tables) == 1 && t.Region != "" && s.u.run.Table == "") {
-		opts = append(opts, "The whole sheet")
-		s.regions[opts[0]] = ""
-		selected = opts[0]
-	}
+	opts := []string{"The whole sheet"}
+	s.regions[opts[0]] = ""
+	selected := opts[0]
 	for _, d := range t.Tables {
 		o := fmt.Sprintf("Table %q (%s)", d.Name, d.Ref)
 		opts = append(opts, o)

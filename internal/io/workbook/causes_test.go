@@ -9,6 +9,7 @@ import (
 	"os"
 	"path/filepath"
 	"strings"
+	"sync"
 	"syscall"
 	"testing"
 	"time"
@@ -321,5 +322,42 @@ func TestWriteWhole(t *testing.T) {
 	long := filepath.Join(dir, strings.Repeat("d", 250)+".xlsx")
 	if err := WriteWhole(long, data, 0o644); !errors.Is(err, ErrNameTooLong) {
 		t.Errorf("a name too long: %v", err)
+	}
+}
+
+// TestRunLockOneHolder: eight saves take the lock at once, a lock file of
+// a run that has ended being there: never more than one holds it.
+func TestRunLockOneHolder(t *testing.T) {
+	dir := t.TempDir()
+	p := filepath.Join(dir, "book.xlsx")
+	for trial := 0; trial < 3; trial++ {
+		os.WriteFile(runLockName(p), []byte("999999 1\n"), 0o644)
+		var holders, most int32
+		var mu sync.Mutex
+		var wg sync.WaitGroup
+		for range 8 {
+			wg.Add(1)
+			go func() {
+				defer wg.Done()
+				unlock, err := takeRunLock(p)
+				if err != nil {
+					t.Error(err)
+					return
+				}
+				mu.Lock()
+				holders++
+				most = max(most, holders)
+				mu.Unlock()
+				time.Sleep(2 * time.Millisecond)
+				mu.Lock()
+				holders--
+				mu.Unlock()
+				unlock()
+			}()
+		}
+		wg.Wait()
+		if most != 1 {
+			t.Fatalf("trial %d: %d holders at once", trial, most)
+		}
 	}
 }

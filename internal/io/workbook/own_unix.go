@@ -40,13 +40,6 @@ func diskCause(err error) diskFailure {
 	return otherFailure
 }
 
-// processAlive reports whether a process with this id runs (signal 0
-// checks without sending anything; EPERM means it runs as another user).
-func processAlive(pid int) bool {
-	err := syscall.Kill(pid, 0)
-	return err == nil || errors.Is(err, syscall.EPERM)
-}
-
 // linkCount is the number of names (hard links) the file has.
 func linkCount(info fs.FileInfo) int {
 	if st, ok := info.Sys().(*syscall.Stat_t); ok {

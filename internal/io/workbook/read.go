@@ -32,8 +32,8 @@ type Options struct {
 	// Table names a table of the workbook (DataTable) to read as the data
 	// region: its header row and its data rows, without its totals row
 	// and without what lies outside it. Without Sheet, the sheet that
-	// holds it. Empty means the sheet, or its only table when that
-	// table's header row is the header row found.
+	// holds it. Empty means the whole sheet (tables' totals rows always
+	// left out).
 	Table string
 
 	// formulas holds the values calculated for the sheet's formula cells
@@ -244,7 +244,10 @@ func scanRows(ctx context.Context, src rowSource, t *Table, opts Options, b *tab
 		}
 	}
 	if f := b.filter; f != nil && f.region == nil && f.auto != nil && t.HeaderRow == f.auto.FirstRow && f.auto.HeaderRows == 1 {
-		f.region = f.auto
+		// The header found is the only table's: said, but nothing beside
+		// or below the table is left out unless the table is chosen (data
+		// typed next to a table are often meant to belong to it).
+		f.autoMatched = true
 	}
 	if b.filter != nil && b.filter.region != nil {
 		headerCells, _ = b.filter.keep(t.HeaderRow, append([]rawCell(nil), headerCells...))

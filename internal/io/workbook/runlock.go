@@ -1,20 +1,18 @@
 package workbook
 
 import (
-	"fmt"
-	"os"
 	"path/filepath"
-	"strconv"
-	"strings"
 	"time"
 )
 
 // Two saves into one workbook at once (two commands, or the window and a
 // command) are serialised by a lock of Slopewise's own beside the file,
-// ".NAME.slopewise.lock", made with O_EXCL and holding the process id
-// and the time. A save waits for another to finish, up to lockWait, then
-// refuses; a lock whose process has gone (where the system can tell), or
-// older than lockStale, is taken over.
+// ".NAME.slopewise.lock", holding the process id and the time. A save
+// waits for another to finish, up to lockWait, then refuses. On Unix the
+// lock is flock(2) on that file, which the system lets go when a process
+// ends, so no lock outlives its run (runlock_unix.go); elsewhere it is the
+// file's existence (O_EXCL), taken over when its process has gone or it
+// is older than lockStale (runlock_other.go).
 const (
 	lockWait  = 30 * time.Second
 	lockStale = 10 * time.Minute
@@ -25,52 +23,4 @@ const (
 func runLockName(path string) string {
 	dir, base := filepath.Split(path)
 	return filepath.Join(dir, "."+base+".slopewise.lock")
-}
-
-// takeRunLock takes the lock for path; the returned function lets it go.
-func takeRunLock(path string) (func(), error) {
-	name := runLockName(path)
-	deadline := time.Now().Add(lockWait)
-	for {
-		f, err := os.OpenFile(name, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)
-		if err == nil {
-			fmt.Fprintf(f, "%d %d\n", os.Getpid(), time.Now().Unix())
-			f.Close()
-			return func() { os.Remove(name) }, nil
-		}
-		if !os.IsExist(err) {
-			// A folder Slopewise may not write to: the save says so
-			// itself when it makes its temporary file.
-			return func() {}, nil
-		}
-		if staleLock(name) {
-			os.Remove(name)
-			continue
-		}
-		if time.Now().After(deadline) {
-			return nil, &Error{Path: path, Cause: ErrOpenElsewhere, Detail: fmt.Sprintf("another Slopewise run has been writing into it for more than %s (its lock is %s)", lockWait, filepath.Base(name))}
-		}
-		time.Sleep(lockPoll)
-	}
-}
-
-// staleLock reports a lock left by a run that has ended.
-func staleLock(name string) bool {
-	info, err := os.Stat(name)
-	if err != nil {
-		return false
-	}
-	if time.Since(info.ModTime()) > lockStale {
-		return true
-	}
-	body, err := os.ReadFile(name)
-	if err != nil {
-		return false
-	}
-	fields := strings.Fields(string(body))
-	if len(fields) < 1 {
-		return time.Since(info.ModTime()) > time.Second // being written, or empty
-	}
-	pid, err := strconv.Atoi(fields[0])
-	return err == nil && pid > 0 && pid != os.Getpid() && !processAlive(pid)
 }

@@ -149,7 +149,9 @@ func tableNames(tables []DataTable) string {
 type regionFilter struct {
 	tables []DataTable
 	region *DataTable // the table read as the data region; nil: the sheet
-	auto   *DataTable // the sheet's only table, read when its header row is the one found
+	auto   *DataTable // the sheet's only table
+	// autoMatched: the header row found is the only table's.
+	autoMatched bool
 	// totalsLeft counts the totals rows whose cells were left out;
 	// belowLeft the rows below the region.
 	totalsLeft map[int]bool
@@ -209,14 +211,12 @@ func (f *regionFilter) notes(t *Table) {
 	}
 	if f.region != nil {
 		t.Region = f.region.Name
-		how := "as chosen"
-		if f.region == f.auto {
-			how = "the sheet's only table, whose header row is the one found"
-		}
-		add("the data were read from the table %q (%s), %s", f.region.Name, f.region.Ref, how)
+		add("the data were read from the table %q (%s), as chosen", f.region.Name, f.region.Ref)
 		if f.belowLeft > 0 {
 			add("%d row(s) with values below the table were left out", f.belowLeft)
 		}
+	} else if f.autoMatched {
+		add("the header row is that of the table %q (%s); the sheet was read whole. To read the table alone, choose it as the data region", f.auto.Name, f.auto.Ref)
 	} else if len(f.tables) > 0 {
 		add("this sheet holds the table(s) %s; the whole sheet was read. To read one table only, choose it as the data region", tableNames(f.tables))
 	}

@@ -60,14 +60,14 @@ func TestTableTotalsRowLeftOut(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if tab.Len() != 8 || tab.HeaderRow != 3 || tab.Region != "Scores" || len(tab.Tables) != 1 {
+		if tab.Len() != 8 || tab.HeaderRow != 3 || tab.Region != "" || len(tab.Tables) != 1 {
 			t.Fatalf("rows %d, header %d, region %q, tables %v", tab.Len(), tab.HeaderRow, tab.Region, tab.Tables)
 		}
 		if g := tab.Column("group"); g.Kind != YesNo || len(g.Levels) != 2 {
 			t.Errorf("group: %v %v; the totals row's average would make it three values", g.Kind, g.Levels)
 		}
 		notes := noteTexts(tab)
-		for _, want := range []string{`the data were read from the table "Scores" (A3:C12), the sheet's only table`, `the totals row of the table "Scores" (row 12) is not data and was left out`} {
+		for _, want := range []string{`the header row is that of the table "Scores" (A3:C12); the sheet was read whole`, `the totals row of the table "Scores" (row 12) is not data and was left out`} {
 			if !strings.Contains(notes, want) {
 				t.Errorf("notes lack %q:\n%s", want, notes)
 			}
@@ -103,5 +103,36 @@ func TestTwoTablesChooseOne(t *testing.T) {
 	_, err = Read(context.Background(), path, Options{Table: "Other"})
 	if !errors.Is(err, ErrTableNotFound) {
 		t.Errorf("unknown table, no sheet: %v", err)
+	}
+}
+
+// TestColumnBesideTable: a column typed next to the sheet's only table,
+// its name in the table's header row, is read with the sheet (data next
+// to a table are often meant to belong to it); choosing the table leaves
+// it out.
+func TestColumnBesideTable(t *testing.T) {
+	rows := tableRows(1, 8, false, func(i int) int { return i })
+	for i := range rows {
+		r := i + 1
+		cell := num(fmt.Sprintf("D%d", r), fmt.Sprint(r))
+		if r == 1 {
+			cell = inl("D1", "extra")
+		}
+		rows[i] = strings.Replace(rows[i], "</row>", cell+"</row>", 1)
+	}
+	path := tableBook(rows, tableXML(1, "Pilot", "A1:C9", false)).write(t, t.TempDir(), "beside.xlsx")
+	whole, err := Read(context.Background(), path, Options{Sheet: "Data"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if whole.Column("extra") == nil || whole.Len() != 8 {
+		t.Errorf("the column beside the table is not read: %d columns, %d rows", len(whole.Columns), whole.Len())
+	}
+	alone, err := Read(context.Background(), path, Options{Sheet: "Data", Table: "Pilot"})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if alone.Column("extra") != nil || len(alone.Columns) != 3 {
+		t.Errorf("the table chosen still has %d columns", len(alone.Columns))
 	}
 }

@@ -370,6 +370,19 @@ func sameVersion(a, b fs.FileInfo) bool {
 	return os.SameFile(a, b) && a.Size() == b.Size() && a.ModTime().Equal(b.ModTime())
 }
 
+// keptName is a free name beside target for a version of it that another
+// program saved: "<name> (saved by another program).xlsx".
+func keptName(target string) string {
+	dir, base := filepath.Split(target)
+	ext := filepath.Ext(base)
+	stem := strings.TrimSuffix(base, ext)
+	name := filepath.Join(dir, stem+" (saved by another program)"+ext)
+	for k := 2; fileExists(name); k++ {
+		name = filepath.Join(dir, fmt.Sprintf("%s (saved by another program %d)%s", stem, k, ext))
+	}
+	return name
+}
+
 // errNoExchange: the system cannot swap two files in one step.
 var errNoExchange = errors.New("no atomic exchange here")
 
@@ -407,7 +420,14 @@ func replaceChecked(tmp, target string, orig []byte, info fs.FileInfo) error {
 	body, err2 := os.ReadFile(tmp)
 	if err1 != nil || err2 != nil || !os.SameFile(out, info) || !bytes.Equal(body, orig) {
 		if err := exchange(tmp, target); err != nil {
-			return &Error{Path: target, Cause: ErrCannotReplace, Detail: "another program saved the workbook at the moment it was replaced, and it could not be put back; its version is in " + tmp, Underlying: err}
+			// Keep the other program's version where a person finds it;
+			// the caller removes tmp.
+			kept := keptName(target)
+			if rerr := os.Rename(tmp, kept); rerr != nil {
+				kept = tmp + ".kept"
+				os.Rename(tmp, kept)
+			}
+			return &Error{Path: target, Cause: ErrCannotReplace, Detail: "another program saved the workbook at the moment it was replaced, and its version could not be put back; it is kept as " + filepath.Base(kept), Underlying: err}
 		}
 		os.Remove(tmp)
 		return &Error{Path: target, Cause: ErrChangedSinceRead, Detail: "another program saved it at the moment it was to be replaced; its version is in place"}
@@ -728,10 +748,10 @@ func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (str
 		return "", &Error{Path: dst, Cause: ErrVerifyFailed, Detail: "the backup does not read back equal to the original"}
 	}
 	beforeBackupNamed(tmp)
-	if fileExists(dst) {
-		return "", &Error{Path: dst, Cause: ErrTargetExists, Detail: "a file of the backup's name appeared while it was made"}
-	}
-	if err := os.Rename(tmp, dst); err != nil {
+	if err := renameNoClobber(tmp, dst); err != nil {
+		if errors.Is(err, fs.ErrExist) {
+			return "", &Error{Path: dst, Cause: ErrTargetExists, Detail: "a file of the backup's name appeared while it was made"}
+		}
 		return "", writeError(dst, "the backup could not be given its name", err)
 	}
 	syncDir(filepath.Dir(path))
@@ -774,14 +794,32 @@ func WriteWhole(path string, data []byte, perm fs.FileMode) error {
 	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, perm)); err != nil {
 		return writeError(path, "", err)
 	}
-	if fileExists(path) {
-		return fail(path, ErrTargetExists, "")
-	}
-	if err := os.Rename(tmp, path); err != nil {
+	if err := renameNoClobber(tmp, path); err != nil {
+		if errors.Is(err, fs.ErrExist) {
+			return fail(path, ErrTargetExists, "")
+		}
 		return writeError(path, "", err)
 	}
 	syncDir(filepath.Dir(path))
 	return nil
+}
+
+// renameNoClobber gives the file at tmp the name dst unless a file of
+// that name exists, in one step where the file system has hard links (a
+// link fails on an existing name), else by a check and a rename.
+func renameNoClobber(tmp, dst string) error {
+	err := os.Link(tmp, dst)
+	switch {
+	case err == nil:
+		os.Remove(tmp)
+		return nil
+	case errors.Is(err, fs.ErrExist):
+		return err
+	}
+	if fileExists(dst) {
+		return fs.ErrExist
+	}
+	return os.Rename(tmp, dst)
 }
 
 // beforeBackupNamed runs when the backup is complete under its temporary
