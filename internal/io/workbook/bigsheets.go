@@ -75,44 +75,53 @@ func putBack(tmp string, stubbed map[string]*zip.File) error {
 		return err
 	}
 	defer zr.Close()
-	out, err := os.CreateTemp(filepath.Dir(tmp), "."+filepath.Base(tmp)+"-*")
+	return replaceZipFile(tmp, func(zw *zip.Writer) error {
+		found := 0
+		for _, f := range zr.File {
+			var err error
+			if orig, ok := stubbed[strings.ToLower(f.Name)]; ok {
+				found++
+				err = copyRaw(zw, orig)
+			} else {
+				err = copyRaw(zw, f)
+			}
+			if err != nil {
+				return err
+			}
+		}
+		if found != len(stubbed) {
+			return fmt.Errorf("%d of %d worksheets kept their part", found, len(stubbed))
+		}
+		return nil
+	})
+}
+
+// replaceZipFile replaces the file at path by the zip archive that write
+// makes: written to a temporary file beside it, synced, then renamed
+// over it; on any failure path is left as it was.
+func replaceZipFile(path string, write func(zw *zip.Writer) error) error {
+	out, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+"-*")
 	if err != nil {
 		return err
 	}
-	defer os.Remove(out.Name())
+	defer os.Remove(out.Name()) // a no-op once renamed
 	bw := bufio.NewWriterSize(out, 1<<20)
 	zw := zip.NewWriter(bw)
-	found := 0
-	for _, f := range zr.File {
-		if orig, ok := stubbed[strings.ToLower(f.Name)]; ok {
-			found++
-			err = copyRaw(zw, orig)
-		} else {
-			err = copyRaw(zw, f)
-		}
-		if err != nil {
-			out.Close()
-			return err
-		}
+	err = write(zw)
+	if err == nil {
+		err = zw.Close()
 	}
-	if found != len(stubbed) {
-		out.Close()
-		return fmt.Errorf("%d of %d worksheets kept their part", found, len(stubbed))
+	if err == nil {
+		err = bw.Flush()
 	}
-	if err := zw.Close(); err != nil {
-		out.Close()
+	if err == nil {
+		err = out.Sync()
+	}
+	if cerr := out.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
 		return err
 	}
-	if err := bw.Flush(); err != nil {
-		out.Close()
-		return err
-	}
-	if err := out.Sync(); err != nil {
-		out.Close()
-		return err
-	}
-	if err := out.Close(); err != nil {
-		return err
-	}
-	return os.Rename(out.Name(), tmp)
+	return os.Rename(out.Name(), path)
 }

@@ -2,13 +2,10 @@ package workbook
 
 import (
 	"archive/zip"
-	"bufio"
 	"bytes"
 	"encoding/xml"
 	"fmt"
 	"io"
-	"os"
-	"path/filepath"
 	"slices"
 	"strings"
 )
@@ -245,44 +242,25 @@ func keepSettings(tmp, wbPart string, orig []byte) error {
 	if !changed {
 		return nil
 	}
-	out, err := os.CreateTemp(filepath.Dir(tmp), "."+filepath.Base(tmp)+"-*")
-	if err != nil {
-		return err
-	}
-	defer os.Remove(out.Name())
-	bw := bufio.NewWriterSize(out, 1<<20)
-	zw := zip.NewWriter(bw)
-	for _, f := range zr.File {
-		if f != wb {
-			err = copyRaw(zw, f)
-		} else {
+	return replaceZipFile(tmp, func(zw *zip.Writer) error {
+		for _, f := range zr.File {
+			if f != wb {
+				if err := copyRaw(zw, f); err != nil {
+					return err
+				}
+				continue
+			}
 			hdr := f.FileHeader
 			hdr.CompressedSize64, hdr.UncompressedSize64, hdr.CRC32 = 0, 0, 0
 			hdr.Method = zip.Deflate
-			var w io.Writer
-			if w, err = zw.CreateHeader(&hdr); err == nil {
+			w, err := zw.CreateHeader(&hdr)
+			if err == nil {
 				_, err = w.Write(fixed)
 			}
+			if err != nil {
+				return err
+			}
 		}
-		if err != nil {
-			out.Close()
-			return err
-		}
-	}
-	if err := zw.Close(); err != nil {
-		out.Close()
-		return err
-	}
-	if err := bw.Flush(); err != nil {
-		out.Close()
-		return err
-	}
-	if err := out.Sync(); err != nil {
-		out.Close()
-		return err
-	}
-	if err := out.Close(); err != nil {
-		return err
-	}
-	return os.Rename(out.Name(), tmp)
+		return nil
+	})
 }
