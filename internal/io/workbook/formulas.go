@@ -3,6 +3,7 @@ package workbook
 import (
 	"archive/zip"
 	"bytes"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -121,11 +122,12 @@ func calculate(path, sheet, part string, log formulaLog, opts Options) (res *for
 		}
 	}()
 	limit, limitXML := sizeLimits(opts.UnzipSizeLimit, opts.UnzipXMLSizeLimit)
-	if size := partSize(path, part); size > maxCalcSheet {
-		whyAll(fmt.Sprintf("the sheet unpacks to %s, more than Slopewise calculates formulas in (%s)", byteSize(size), byteSize(maxCalcSheet)))
+	outline, err := calcOutline(path, part, opts)
+	var big sheetTooBig
+	if errors.As(err, &big) {
+		whyAll(fmt.Sprintf("the sheet unpacks to %s, more than Slopewise calculates formulas in (%s)", byteSize(int64(big)), byteSize(maxCalcSheet)))
 		return res
 	}
-	outline, err := calcOutline(path, part, opts)
 	if err != nil {
 		whyAll("the workbook could not be opened to calculate them: " + err.Error())
 		return res
@@ -173,6 +175,9 @@ func calcOutline(file, part string, opts Options) ([]byte, error) {
 		return nil, err
 	}
 	defer p.Close()
+	if f := p.file(part); f != nil && f.UncompressedSize64 > maxCalcSheet {
+		return nil, sheetTooBig(min(f.UncompressedSize64, 1<<62))
+	}
 	keep := map[string]bool{"[content_types].xml": true, "_rels/.rels": true}
 	for _, n := range []string{p.wbPart, path.Join(path.Dir(p.wbPart), "_rels", path.Base(p.wbPart)+".rels"), part, p.sstPart, p.stylesPart} {
 		if n != "" {
@@ -202,20 +207,11 @@ func calcOutline(file, part string, opts Options) ([]byte, error) {
 	return buf.Bytes(), nil
 }
 
-// partSize is the unpacked size of a part, 0 when unknown.
-func partSize(path, part string) int64 {
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		return 0
-	}
-	defer zr.Close()
-	for _, f := range zr.File {
-		if strings.EqualFold(strings.ReplaceAll(f.Name, "\\", "/"), part) {
-			return int64(min(f.UncompressedSize64, 1<<62))
-		}
-	}
-	return 0
-}
+// sheetTooBig is calcOutline's refusal of a sheet past maxCalcSheet,
+// with its unpacked size.
+type sheetTooBig int64
+
+func (s sheetTooBig) Error() string { return "the sheet unpacks to " + byteSize(int64(s)) }
 
 // trusted says why the formula of cell k, or of a cell it uses, cannot
 // be calculated; "" when it can.
