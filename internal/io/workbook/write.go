@@ -127,7 +127,7 @@ func WriteResults(src string, sheet *report.Sheet, opts WriteOptions) (w *Writte
 	}()
 	switch f {
 	case formatXLSX:
-		if isTextName(src) && opts.CopyTo == "" {
+		if IsTextName(src) && opts.CopyTo == "" {
 			// A workbook named like a text file: read as what it is, and
 			// written beside it as a text file's results would be, so
 			// that a file called .csv never becomes a workbook in place.
@@ -190,18 +190,16 @@ func startsWithZip(path string) bool {
 	return n == 0 || bytes.Equal(head[:n], []byte("PK\x03\x04")[:n])
 }
 
-// isTextName reports a name with a text file's extension.
-func isTextName(path string) bool {
+// IsTextName reports whether a file name has a text file's extension
+// (.csv, .tsv, .txt, .tab, as sniff takes them), which a results workbook
+// must not take.
+func IsTextName(path string) bool {
 	switch strings.ToLower(filepath.Ext(path)) {
 	case ".csv", ".tsv", ".txt", ".tab":
 		return true
 	}
 	return false
 }
-
-// IsTextName reports whether a file name has a text file's extension
-// (.csv, .tsv, .txt, .tab), which a results workbook must not take.
-func IsTextName(path string) bool { return isTextName(path) }
 
 func (o WriteOptions) limits() (int64, int64) {
 	return sizeLimits(o.UnzipSizeLimit, o.UnzipXMLSizeLimit)
