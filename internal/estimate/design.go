@@ -129,7 +129,7 @@ func (rc roleColumn) problem(i int) (reason, kind string) {
 	v := c.Num[i]
 	switch {
 	case math.IsNaN(v) && c.cellText(i) != "":
-		return fmt.Sprintf("text %q in the %s (%q), which needs a number", short(c.cellText(i)), rc.role, c.Name), "text"
+		return fmt.Sprintf("text %q in the %s (%q), which needs a number", ShortLabel(c.cellText(i)), rc.role, c.Name), "text"
 	case math.IsNaN(v):
 		return fmt.Sprintf("missing %s (%q)", rc.role, c.Name), "missing"
 	case math.IsInf(v, 0):
@@ -409,7 +409,7 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 			}
 		}
 		if !ok {
-			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", short(m.Reference), c.Name, quoteList(ds.levels)))
+			return fail(ErrSpec, c.Name, fmt.Sprintf("The reference group %q does not appear in the moderator %q among the rows used; its groups are %s.", ShortLabel(m.Reference), c.Name, quoteList(ds.levels)))
 		}
 		ds.ref = j
 	case m.Kind == ModeratorBinary && len(ds.levels) == 2 && ds.levels[0] == "0" && ds.levels[1] == "1":
@@ -604,14 +604,14 @@ func quoteList(xs []string) string {
 			q = append(q, fmt.Sprintf("and %d more", len(xs)-show))
 			break
 		}
-		q = append(q, strconv.Quote(short(x)))
+		q = append(q, strconv.Quote(ShortLabel(x)))
 	}
 	return strings.Join(q, ", ")
 }
 
-// short cuts a value quoted in a message to a readable length: a group's
-// name may be any text a cell holds.
-func short(s string) string {
+// ShortLabel cuts a value quoted in a message to a readable length (60
+// bytes, whole characters): a group's name may be any text a cell holds.
+func ShortLabel(s string) string {
 	const n = 60
 	if len(s) <= n {
 		return s

@@ -140,13 +140,13 @@ func (ds *design) check(d *Data, s Spec) error {
 			n, treated := g.n, g.treated
 			switch {
 			case n == 1:
-				problems = append(problems, fmt.Sprintf("group %q has only 1 row (row %d)", short(l), members(j)[0]))
+				problems = append(problems, fmt.Sprintf("group %q has only 1 row (row %d)", ShortLabel(l), members(j)[0]))
 			case binaryT && treated == n:
-				problems = append(problems, fmt.Sprintf("in group %q all %d rows are treated", short(l), n))
+				problems = append(problems, fmt.Sprintf("in group %q all %d rows are treated", ShortLabel(l), n))
 			case binaryT && treated == 0:
-				problems = append(problems, fmt.Sprintf("in group %q none of the %d rows is treated", short(l), n))
+				problems = append(problems, fmt.Sprintf("in group %q none of the %d rows is treated", ShortLabel(l), n))
 			case !binaryT && !g.tVaries:
-				problems = append(problems, fmt.Sprintf("in group %q the treatment is %s in all %d rows", short(l), formatNumber(g.firstT), n))
+				problems = append(problems, fmt.Sprintf("in group %q the treatment is %s in all %d rows", ShortLabel(l), formatNumber(g.firstT), n))
 			default:
 				continue
 			}

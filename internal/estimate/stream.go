@@ -503,7 +503,7 @@ func (st *stream) plan() (*design, error) {
 	for j, l := range ds.levels {
 		g := st.modStats[l]
 		if g.n == 1 || binaryT && (g.treated == g.n || g.treated == 0) || !binaryT && !g.tVaries {
-			return nil, needsMemory(fmt.Sprintf("the treatment's effect cannot be estimated in group %q", short(l)))
+			return nil, needsMemory(fmt.Sprintf("the treatment's effect cannot be estimated in group %q", ShortLabel(l)))
 		}
 		st.levelRows[j] = g.n
 		if binaryT {

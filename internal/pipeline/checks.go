@@ -4,7 +4,6 @@ import (
 	"fmt"
 	"math"
 	"sort"
-	"unicode/utf8"
 
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
@@ -247,7 +246,7 @@ func checkGroups(groups map[string][]int, arm []float64, s estimate.Spec, add fu
 		}
 		if len(seen) < 2 {
 			add(Blocking, "In the group %q of %q the treatment never varies (%d rows, all %s), so its effect there cannot be estimated. Merge the group with another or leave it out.",
-				shortText(g), s.Moderator.Column, len(rows), armWords(arm[rows[0]], s.Treatment))
+				estimate.ShortLabel(g), s.Moderator.Column, len(rows), armWords(arm[rows[0]], s.Treatment))
 		}
 	}
 	if smallestN < smallGroup {
@@ -263,17 +262,4 @@ func armWords(v float64, t estimate.Treatment) string {
 		return "treated"
 	}
 	return "untreated"
-}
-
-// shortText cuts a value quoted in a message to a readable length.
-func shortText(s string) string {
-	const n = 60
-	if len(s) <= n {
-		return s
-	}
-	cut := n
-	for cut > 0 && !utf8.RuneStart(s[cut]) {
-		cut--
-	}
-	return s[:cut] + "…"
 }
