@@ -496,14 +496,14 @@ func TestLinearityShown(t *testing.T) {
 	}
 }
 
-// TestBigCSVKeepsItsData: the results saved beside a text file of more
-// than 100,000 rows hold the results only, and the saved dialog says the
-// data stay in the text file.
-func TestBigCSVKeepsItsData(t *testing.T) {
-	dir := fixedDir(t, "big")
+// pupilsToFindings writes dir/pupils.csv of n invented rows (score,
+// tutored, area), opens it in the window, picks the roles and runs,
+// stopping at the findings.
+func pupilsToFindings(t *testing.T, dir string, n int) *harness {
+	t.Helper()
 	var b strings.Builder
 	b.WriteString("score,tutored,area\n")
-	for i := range 100_001 {
+	for i := range n {
 		b.WriteString(strconv.Itoa((i*7919)%101) + "," + strconv.Itoa(i%2) + "," + string(rune('a'+i%3)) + "\n")
 	}
 	src := filepath.Join(dir, "pupils.csv")
@@ -525,6 +525,16 @@ func TestBigCSVKeepsItsData(t *testing.T) {
 	if u.analysis == nil {
 		t.Fatalf("no analysis: %s", h.overlayText())
 	}
+	return h
+}
+
+// TestBigCSVKeepsItsData: the results saved beside a text file of more
+// than 100,000 rows hold the results only, and the saved dialog says the
+// data stay in the text file.
+func TestBigCSVKeepsItsData(t *testing.T) {
+	dir := fixedDir(t, "big")
+	h := pupilsToFindings(t, dir, 100_001)
+	u := h.u
 	test.Tap(u.findingsScreen.saveBtn)
 	h.wait()
 	text := h.overlayText()
@@ -537,15 +547,23 @@ func TestBigCSVKeepsItsData(t *testing.T) {
 	if got := u.findingsScreen.where.Text; got != `This sheet has been added to pupils results.xlsx as sheet "Results".` {
 		t.Errorf("above the sheet after saving: %q", got)
 	}
-	if path := os.Getenv("SLOPEWISE_GUI_SHOT"); path != "" {
-		f, err := os.Create(path)
-		if err != nil {
-			t.Fatal(err)
-		}
-		defer f.Close()
-		if err := png.Encode(f, h.w.Canvas().Capture()); err != nil {
-			t.Fatal(err)
-		}
+	h.shotIfAsked()
+}
+
+// shotIfAsked saves the window as it is to the PNG file named by
+// SLOPEWISE_GUI_SHOT, for a person to look at.
+func (h *harness) shotIfAsked() {
+	path := os.Getenv("SLOPEWISE_GUI_SHOT")
+	if path == "" {
+		return
+	}
+	f, err := os.Create(path)
+	if err != nil {
+		h.t.Fatal(err)
+	}
+	defer f.Close()
+	if err := png.Encode(f, h.w.Canvas().Capture()); err != nil {
+		h.t.Fatal(err)
 	}
 }
 
@@ -554,30 +572,8 @@ func TestBigCSVKeepsItsData(t *testing.T) {
 // taking the offer writes them, with a backup of the earlier workbook.
 func TestReplaceEarlierResultsDialog(t *testing.T) {
 	dir := t.TempDir()
-	var b strings.Builder
-	b.WriteString("score,tutored,area\n")
-	for i := range 200 {
-		b.WriteString(strconv.Itoa((i*7919)%101) + "," + strconv.Itoa(i%2) + "," + string(rune('a'+i%3)) + "\n")
-	}
-	src := filepath.Join(dir, "pupils.csv")
-	if err := os.WriteFile(src, []byte(b.String()), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	h := newHarness(t, Options{ChooseOpen: func(done func(string)) { done(src) }})
+	h := pupilsToFindings(t, dir, 200)
 	u := h.u
-	test.Tap(u.openScreen.openBtn)
-	h.wait()
-	test.Tap(u.next)
-	r := u.rolesScreen
-	r.outcome.SetSelected("score")
-	r.treatment.SetSelected("tutored")
-	r.moderator.SetSelected("area")
-	test.Tap(u.next)
-	test.Tap(u.next) // run
-	h.wait()
-	if u.analysis == nil {
-		t.Fatalf("no analysis: %s", h.overlayText())
-	}
 	// An earlier run's results workbook is already there.
 	if _, err := u.analysis.Save(workbook.WriteOptions{}); err != nil {
 		t.Fatal(err)
@@ -587,14 +583,7 @@ func TestReplaceEarlierResultsDialog(t *testing.T) {
 	if text := h.overlayText(); !strings.Contains(text, "Results of an earlier run are already there") || !strings.Contains(text, "[Replace the earlier results]") {
 		t.Fatalf("the dialog does not offer to replace them:\n%s", text)
 	}
-	if path := os.Getenv("SLOPEWISE_GUI_SHOT"); path != "" {
-		f, err := os.Create(path)
-		if err != nil {
-			t.Fatal(err)
-		}
-		png.Encode(f, h.w.Canvas().Capture())
-		f.Close()
-	}
+	h.shotIfAsked()
 	h.tapButton("Replace the earlier results")
 	h.wait()
 	if u.written == nil || u.written.Backup == "" || u.written.Path != filepath.Join(dir, "pupils results.xlsx") {
