@@ -310,6 +310,19 @@ func atkRatio(t *testing.T, name string, quarter, full *atkResult) {
 	}
 }
 
+// atkCustomXMLBomb writes a valid workbook with a part nothing reads,
+// customXml/item1.xml, that inflates to n bytes.
+func atkCustomXMLBomb(t *testing.T, dir string, n int64) string {
+	head, tail := atkDecl+`<root>`, `</root>`
+	body := atkSeq(head, func(w io.Writer) error {
+		return atkFill(w, "<a/>", n-int64(len(head)+len(tail)))
+	}, tail)
+	return atkValidBook("book.xlsx", atkBook{
+		extra: []atkPart{{"customXml/item1.xml", body}},
+		rels:  `<Relationship Id="rIdC" Type="` + atkRel + `customXml" Target="../customXml/item1.xml"/>`,
+	})(t, dir, n)
+}
+
 // atkEnv is the child's environment: this one without the CPU profile and,
 // for the window, without a display.
 func atkEnv(window bool) []string {
@@ -953,32 +966,14 @@ func atkCases() []atkCase {
 			// 4 GiB limit without zip64.
 			name: "customXml 3.9 GB",
 			n:    3_900_000_000,
-			make: func(t *testing.T, dir string, n int64) string {
-				head, tail := atkDecl+`<root>`, `</root>`
-				body := atkSeq(head, func(w io.Writer) error {
-					return atkFill(w, "<a/>", n-int64(len(head)+len(tail)))
-				}, tail)
-				return atkValidBook("book.xlsx", atkBook{
-					extra: []atkPart{{"customXml/item1.xml", body}},
-					rels:  `<Relationship Id="rIdC" Type="` + atkRel + `customXml" Target="../customXml/item1.xml"/>`,
-				})(t, dir, n)
-			},
+			make: atkCustomXMLBomb,
 		},
 		{
 			// The same part, the results written in place: excelize holds
 			// every part it opens in memory, so the writer must refuse it.
 			name: "customXml 3.9 GB, written",
 			n:    3_900_000_000,
-			make: func(t *testing.T, dir string, n int64) string {
-				head, tail := atkDecl+`<root>`, `</root>`
-				body := atkSeq(head, func(w io.Writer) error {
-					return atkFill(w, "<a/>", n-int64(len(head)+len(tail)))
-				}, tail)
-				return atkValidBook("book.xlsx", atkBook{
-					extra: []atkPart{{"customXml/item1.xml", body}},
-					rels:  `<Relationship Id="rIdC" Type="` + atkRel + `customXml" Target="../customXml/item1.xml"/>`,
-				})(t, dir, n)
-			},
+			make: atkCustomXMLBomb,
 			args:  []string{"analyze", "{file}", "--outcome", "y", "--treatment", "t", "--moderator", "g"},
 			exits: []int{1},
 			want:  `unpacks to .* far more than a genuine part does`,
