@@ -971,9 +971,9 @@ func atkCases() []atkCase {
 		{
 			// The same part, the results written in place: excelize holds
 			// every part it opens in memory, so the writer must refuse it.
-			name: "customXml 3.9 GB, written",
-			n:    3_900_000_000,
-			make: atkCustomXMLBomb,
+			name:  "customXml 3.9 GB, written",
+			n:     3_900_000_000,
+			make:  atkCustomXMLBomb,
 			args:  []string{"analyze", "{file}", "--outcome", "y", "--treatment", "t", "--moderator", "g"},
 			exits: []int{1},
 			want:  `unpacks to .* far more than a genuine part does`,
