@@ -735,10 +735,7 @@ func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (str
 	}
 	tmp := f.Name()
 	defer os.Remove(tmp) // a no-op once renamed
-	_, werr := f.Write(orig)
-	serr := f.Sync()
-	cerr := f.Close()
-	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, mode)); err != nil {
+	if err := fillTemp(f, orig, mode); err != nil {
 		return "", writeError(dst, "the backup could not be made", err)
 	}
 	again, err := os.ReadFile(tmp)
@@ -786,10 +783,7 @@ func WriteWhole(path string, data []byte, perm fs.FileMode) error {
 	}
 	tmp := f.Name()
 	defer os.Remove(tmp) // a no-op once renamed
-	_, werr := f.Write(data)
-	serr := f.Sync()
-	cerr := f.Close()
-	if err := errors.Join(werr, serr, cerr, os.Chmod(tmp, perm)); err != nil {
+	if err := fillTemp(f, data, perm); err != nil {
 		return writeError(path, "", err)
 	}
 	if err := renameNoClobber(tmp, path); err != nil {
@@ -800,6 +794,15 @@ func WriteWhole(path string, data []byte, perm fs.FileMode) error {
 	}
 	syncDir(filepath.Dir(path))
 	return nil
+}
+
+// fillTemp writes data to the new file f, syncs and closes it and gives
+// it perm, as every file Slopewise names only once it is whole.
+func fillTemp(f *os.File, data []byte, perm fs.FileMode) error {
+	_, werr := f.Write(data)
+	serr := f.Sync()
+	cerr := f.Close()
+	return errors.Join(werr, serr, cerr, os.Chmod(f.Name(), perm))
 }
 
 // renameNoClobber gives the file at tmp the name dst unless a file of
