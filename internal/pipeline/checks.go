@@ -57,7 +57,7 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		}
 		cols[name] = c
 	}
-	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+	for _, name := range specColumns(s) {
 		if c := cols[name]; c != nil && c.Formulas.Missing > 0 {
 			f := c.Formulas
 			why := ""

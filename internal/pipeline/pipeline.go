@@ -94,11 +94,7 @@ func Screen(ctx context.Context, sr report.ScreenRun, readProgress func(rows int
 // ScreenTable is Screen on a table already read.
 func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, progress func(done, total int)) (*ScreenAnalysis, error) {
 	sr.Base.Sheet, sr.Base.HeaderRow, sr.Base.Table = t.Sheet, t.HeaderRow, t.Region
-	spec := sr.Base.Spec
-	for _, m := range sr.Moderators() {
-		spec.Controls = append(spec.Controls, m.Column)
-	}
-	if err := formulaError(t, spec); err != nil {
+	if err := formulaError(t, screenSpec(sr)); err != nil {
 		return nil, err
 	}
 	sc, err := estimate.FitScreen(ctx, EngineData(t), sr.Base.Spec, sr.Moderators(), progress)
@@ -116,11 +112,7 @@ func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, pr
 // text file).
 func (a *ScreenAnalysis) Save(opts workbook.WriteOptions) (*workbook.Written, error) {
 	if opts.KeepColumns == nil {
-		spec := a.Run.Base.Spec
-		for _, m := range a.Run.Moderators() {
-			spec.Controls = append(spec.Controls, m.Column)
-		}
-		opts.KeepColumns = specColumns(spec)
+		opts.KeepColumns = specColumns(screenSpec(a.Run))
 	}
 	if opts.Expect == nil && a.Table != nil && a.Table.Path == a.Run.Base.File {
 		opts.Expect = a.Table.Source
@@ -140,6 +132,17 @@ func formulaError(t *workbook.Table, s estimate.Spec) error {
 		}
 	}
 	return nil
+}
+
+// screenSpec is a screen's base spec with every candidate moderator among
+// its columns (as controls), for what concerns the columns it uses.
+func screenSpec(sr report.ScreenRun) estimate.Spec {
+	spec := sr.Base.Spec
+	spec.Controls = append([]string(nil), spec.Controls...)
+	for _, m := range sr.Moderators() {
+		spec.Controls = append(spec.Controls, m.Column)
+	}
+	return spec
 }
 
 // specColumns lists the columns a spec uses, each once, in the order of

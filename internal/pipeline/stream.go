@@ -90,12 +90,13 @@ func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error)
 	return &Analysis{Run: run, Result: res, Sheet: sheet}, nil
 }
 
-// usedColumns lists the columns of the outline that the spec uses; one it
-// names but the file lacks is left for the fit to report.
+// usedColumns lists the columns of the outline that the spec uses, each
+// once (specColumns); one it names but the file lacks is left for the fit
+// to report.
 func usedColumns(o *workbook.Table, s estimate.Spec) []string {
 	var names []string
-	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
-		if name != "" && o.Column(name) != nil {
+	for _, name := range specColumns(s) {
+		if o.Column(name) != nil {
 			names = append(names, name)
 		}
 	}
