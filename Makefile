@@ -7,9 +7,9 @@ GO ?= go
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack wine-tests
 
-test: deps vet go-test attack fuzz dist-check
+test: deps vet go-test wine-tests attack fuzz dist-check
 
 # System packages: R and sandwich are the independent check of the engine
 # (testdata/r/). Installed only when missing; needs root or sudo.
@@ -46,6 +46,13 @@ vet:
 
 go-test:
 	$(GO) test ./...
+
+# The reading and saving side, the pipeline and the headless command's
+# tests as Windows programs under Wine (the save's ReplaceFileW exchange,
+# renames over open files, Windows paths); about two minutes with Wine's
+# install. Part of test.
+wine-tests:
+	packaging/wine-tests.sh
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:

@@ -10,48 +10,19 @@ scripts/apt-install.sh wine wine64 unzip gcc-mingw-w64-x86-64
 version=$(sed -n 's/^ *Version *= *"\([^"]*\)".*/\1/p' FyneApp.toml)
 name="slopewise-$version"
 work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
+trap 'wineserver -k 2> /dev/null || true; rm -rf "$work"' EXIT
 mkdir -p "$work/win" "$work/lin" "$work/demo"
 (cd "$work/win" && unzip -q "$OLDPWD/dist/$name-windows-amd64.zip")
 tar -xzf "dist/$name-linux-amd64.tar.gz" -C "$work/lin"
 lin="$work/lin/$name/bin/slopewise"
 win="$work/win/$name"
-export WINEPREFIX="$work/wineprefix" WINEDEBUG=-all WINEDLLOVERRIDES="mscoree,mshtml="
-
 "$lin" demo "$work/demo" > /dev/null
+# shellcheck source=packaging/wine-prefix.sh
+. packaging/wine-prefix.sh
 cd "$work/demo"
 args=(analyze slopewise-demo.xlsx --outcome earnings_6m --treatment coached --moderator region
   --controls age,baseline_score --cluster site --randomized --planned --dry-run --json)
-echo "Wine: $(wine --version)"
-ms() { echo $(($(date +%s%N) / 1000000)); }
-start=$(ms)
-wineboot --init > /dev/null 2>&1
-echo "Wine prefix made in $(($(ms) - start)) ms"
-
-# Go 1.22 and later take random bytes from ProcessPrng in
-# bcryptprimitives.dll, which every Windows 10 and 11 has and Wine 8.0
-# (Debian 12) lacks. For this check only, a stand-in built here goes into
-# the temporary Wine prefix; nothing shipped contains it.
-sys32="$WINEPREFIX/drive_c/windows/system32"
-if [ ! -e "$sys32/bcryptprimitives.dll" ]; then
-  cat > "$work/bcryptprimitives.c" <<'C'
-#include <windows.h>
-#include <bcrypt.h>
-BOOL WINAPI ProcessPrng(PBYTE data, SIZE_T size) {
-  while (size > 0) {
-    ULONG n = size > 0x40000000 ? 0x40000000 : (ULONG)size;
-    if (!BCRYPT_SUCCESS(BCryptGenRandom(NULL, data, n, BCRYPT_USE_SYSTEM_PREFERRED_RNG)))
-      return FALSE;
-    data += n;
-    size -= n;
-  }
-  return TRUE;
-}
-C
-  x86_64-w64-mingw32-gcc -shared -O2 -s -o "$sys32/bcryptprimitives.dll" "$work/bcryptprimitives.c" -lbcrypt
-  export WINEDLLOVERRIDES="$WINEDLLOVERRIDES;bcryptprimitives=n"
-  echo "Wine lacks bcryptprimitives.dll: using a stand-in for ProcessPrng"
-fi
+ms() { wine_ms; }
 
 timed() { # timed LABEL OUT COMMAND…: run, keep stdout, print the time
   local label=$1 out=$2 t0

@@ -75,7 +75,7 @@ func putBack(tmp string, stubbed map[string]*zip.File) error {
 		return err
 	}
 	defer zr.Close()
-	return replaceZipFile(tmp, func(zw *zip.Writer) error {
+	return replaceZipFile(tmp, zr, func(zw *zip.Writer) error {
 		found := 0
 		for _, f := range zr.File {
 			var err error
@@ -98,8 +98,10 @@ func putBack(tmp string, stubbed map[string]*zip.File) error {
 
 // replaceZipFile replaces the file at path by the zip archive that write
 // makes: written to a temporary file beside it, synced, then renamed
-// over it; on any failure path is left as it was.
-func replaceZipFile(path string, write func(zw *zip.Writer) error) error {
+// over it; on any failure path is left as it was. src, the reader of the
+// file at path that write copies from, is closed before the rename:
+// Windows renames over no file that is open (found under Wine).
+func replaceZipFile(path string, src io.Closer, write func(zw *zip.Writer) error) error {
 	out, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+"-*")
 	if err != nil {
 		return err
@@ -123,5 +125,6 @@ func replaceZipFile(path string, write func(zw *zip.Writer) error) error {
 	if err != nil {
 		return err
 	}
+	src.Close()
 	return os.Rename(out.Name(), path)
 }

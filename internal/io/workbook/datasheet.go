@@ -53,7 +53,10 @@ func spliceDataSheet(tmp string, rows rowSource, decimalComma bool, wide *wideCo
 	if err != nil {
 		return 0, err
 	}
-	defer os.Remove(out.Name())
+	defer func() {
+		out.Close() // on a failure; closing twice is harmless
+		os.Remove(out.Name())
+	}()
 	bw := bufio.NewWriterSize(out, 1<<20)
 	zw := zip.NewWriter(bw)
 	zw.RegisterCompressor(zip.Deflate, func(w io.Writer) (io.WriteCloser, error) {
@@ -89,6 +92,8 @@ func spliceDataSheet(tmp string, rows rowSource, decimalComma bool, wide *wideCo
 	if err := out.Close(); err != nil {
 		return 0, err
 	}
+	// Windows renames over no file that is open (found under Wine).
+	zf.Close()
 	return cut, os.Rename(out.Name(), tmp)
 }
 

@@ -212,7 +212,7 @@ var refusals = []refusal{
 	{name: "results file beside a CSV exists", write: true, make: func(t *testing.T, dir string) string {
 		writeFile(t, dir, "survey results.xlsx", simpleBook().bytes(t))
 		return writeFile(t, dir, "survey.csv", []byte("a,b\n1,2\n"))
-	}, cause: ErrTargetExists, want: `"{dir}/survey results.xlsx": ` + ErrTargetExists.Error()},
+	}, cause: ErrTargetExists, want: `{dir:survey results.xlsx}: ` + ErrTargetExists.Error()},
 }
 
 func TestRefusals(t *testing.T) {
@@ -250,7 +250,7 @@ func TestRefusals(t *testing.T) {
 				t.Fatalf("error %T is not an *Error", err)
 			}
 			want := strings.ReplaceAll(c.want, "{path}", fmt.Sprintf("%q", path))
-			want = strings.ReplaceAll(want, "{dir}", dir)
+			want = strings.ReplaceAll(want, "{dir:survey results.xlsx}", fmt.Sprintf("%q", filepath.Join(dir, "survey results.xlsx")))
 			if err.Error() != want {
 				t.Errorf("message\n got: %s\nwant: %s", err, want)
 			}

@@ -242,7 +242,7 @@ func keepSettings(tmp, wbPart string, orig []byte) error {
 	if !changed {
 		return nil
 	}
-	return replaceZipFile(tmp, func(zw *zip.Writer) error {
+	return replaceZipFile(tmp, zr, func(zw *zip.Writer) error {
 		for _, f := range zr.File {
 			if f != wb {
 				if err := copyRaw(zw, f); err != nil {

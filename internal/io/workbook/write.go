@@ -394,7 +394,9 @@ var afterExchange = func(string) {}
 
 // replaceChecked puts the new workbook at target in place of the file
 // analysed. Where the system can swap two files in one step (Linux's
-// RENAME_EXCHANGE), it swaps them and then checks that the file swapped
+// RENAME_EXCHANGE; Windows' ReplaceFileW with a backup name, which moves
+// the file that was at target aside as the new one takes its name), it
+// swaps them and then checks that the file swapped
 // out is the one analysed, byte for byte; if another program saved the
 // workbook in the instant between the last check and the swap, it swaps
 // back, so that edit stays in place, and refuses. Elsewhere it renames,
@@ -416,7 +418,9 @@ func replaceChecked(tmp, target string, orig []byte, info fs.FileInfo) error {
 	afterExchange(tmp)
 	out, err1 := os.Stat(tmp)
 	body, err2 := os.ReadFile(tmp)
-	if err1 != nil || err2 != nil || !os.SameFile(out, info) || !bytes.Equal(body, orig) {
+	// Windows may move a file's identity to its replacement: there the
+	// bytes decide.
+	if err1 != nil || err2 != nil || (exchangeKeepsIdentity && !os.SameFile(out, info)) || !bytes.Equal(body, orig) {
 		if err := exchange(tmp, target); err != nil {
 			// Keep the other program's version where a person finds it;
 			// the caller removes tmp.
