@@ -148,3 +148,7 @@ func (a *aheadSource) Close() error {
 	<-a.done
 	return a.scan.Close()
 }
+
+// TextRows marks the read-ahead as a source of text rows whose texts
+// live only until the next row.
+func (a *aheadSource) TextRows() bool { return true }

@@ -13,10 +13,6 @@ import (
 	"github.com/xuri/excelize/v2"
 )
 
-// emptyWorksheet stands in for a big worksheet while excelize adds the
-// results sheet.
-const emptyWorksheet = `<?xml version="1.0" encoding="UTF-8" standalone="yes"?><worksheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><sheetData/></worksheet>`
-
 // bigSheet is the unpacked size from which a worksheet is kept from
 // excelize when the results are written.
 var bigSheet uint64 = 8 << 20

@@ -8,8 +8,6 @@ import (
 	"fmt"
 	"io"
 	"os"
-	"slices"
-	"strings"
 	"unsafe"
 )
 
@@ -240,24 +238,6 @@ func (s *csvScanner) advance() (line int, err error) {
 	return line, nil
 }
 
-// scannedText reports the sources whose cells' texts live only until
-// the next row.
-func scannedText(src rowSource) bool {
-	switch src.(type) {
-	case *csvScanner, *aheadSource:
-		return true
-	}
-	return false
-}
-
-// keptCells copies a row's cells so that they outlive the next call of
-// Next, with the texts too when the scanner handed them out.
-func keptCells(src rowSource, cells []rawCell) []rawCell {
-	kept := slices.Clone(cells)
-	if scannedText(src) {
-		for i := range kept {
-			kept[i].Text = strings.Clone(kept[i].Text)
-		}
-	}
-	return kept
-}
+// TextRows marks the scanner as a source of text rows whose texts live
+// only until the next row.
+func (s *csvScanner) TextRows() bool { return true }

@@ -127,13 +127,3 @@ func fail(path string, cause error, detail string) *Error {
 func failWrap(path string, cause error, underlying error) *Error {
 	return &Error{Path: path, Cause: cause, Underlying: underlying}
 }
-
-// diskFailure is the kind of a failure to create or write a file.
-type diskFailure int
-
-const (
-	otherFailure diskFailure = iota
-	diskFull
-	nameTooLong
-	diskReadOnly
-)

@@ -81,9 +81,13 @@ func (p *xlsxPackage) logFormula(k cellKey) {
 	p.formulas.need = append(p.formulas.need, k)
 }
 
-// xlsx gives a worksheet reader's package, for read to find the formula
-// cells it logged.
-func (s *cellReader) xlsx() *xlsxPackage { return s.pkg }
+// Package gives a worksheet reader's package, for read to find the
+// formula cells it logged.
+func (s *cellReader) Package() *xlsxPackage { return s.pkg }
+
+// Regions gives the filter that keeps the sheet's rows to the data
+// region, and the notes on its tables, to the table builder.
+func (s *cellReader) Regions() (*regionFilter, []string) { return s.pkg.filter, s.pkg.tableNotes }
 
 // formulaResults are the values calculated for one sheet, and why the
 // others were not, by column.
@@ -412,7 +416,7 @@ func (c *calculator) value(k cellKey) (computedValue, bool) {
 
 // explainFormulas records why cells were not calculated and adds notes
 // on the formula cells that had no usable saved result.
-func (t *Table) explainFormulas(res *formulaResults) {
+func explainFormulas(t *Table, res *formulaResults) {
 	for _, col := range t.Columns {
 		f := &col.Formulas
 		if f.Missing > 0 {
@@ -432,35 +436,4 @@ func (t *Table) explainFormulas(res *formulaResults) {
 			add("%s", col.formulaProblem(t, true))
 		}
 	}
-}
-
-// formulaProblem says, in a sentence, what is wrong with a column's
-// formula cells that have no usable value and what to do.
-func (col *Column) formulaProblem(t *Table, advice bool) string {
-	f := col.Formulas
-	first := firstMissing(col, NoCachedValue)
-	what := "have no saved result"
-	if f.Stale == f.Missing {
-		what = "hold results the workbook marks as out of date"
-	} else if f.Stale > 0 {
-		what = "have no saved result, or one the workbook marks as out of date"
-	}
-	why := ""
-	if f.Why != "" {
-		why = " (" + f.Why + ")"
-	}
-	msg := fmt.Sprintf("%d formula cell(s), the first at %s, %s, and Slopewise cannot calculate them%s", f.Missing, t.CellRef(col, first), what, why)
-	if advice {
-		msg += "; open the workbook in a spreadsheet program and save it, which calculates and saves every formula, then open it again here"
-	}
-	return msg
-}
-
-// FormulaError is the error for a column the model uses whose formula
-// cells have no usable value; nil when it has none.
-func (t *Table) FormulaError(col *Column) error {
-	if col == nil || col.Formulas.Missing == 0 {
-		return nil
-	}
-	return &Error{Path: t.Path, Sheet: t.Sheet, Column: col.Name, Cause: ErrFormulaNoResult, Detail: col.formulaProblem(t, false)}
 }

@@ -353,15 +353,6 @@ func parseValue(v string) (float64, error) {
 	return strconv.ParseFloat(v, 64)
 }
 
-// The limits of a sheet: Excel's specifications and limits (from
-// memory), which the file format's cell names also imply (ECMA-376 Part
-// 1, section 18.3.1.4: rows 1 to 1,048,576, columns A to XFD).
-const (
-	maxRows      = 1 << 20
-	maxColumns   = 1 << 14
-	maxCellChars = 32767
-)
-
 func (s *cellReader) tooManyRows() error {
 	return &Error{Path: s.pkg.path, Cell: fmt.Sprintf("after row %d", s.row), Cause: ErrUnusual, Detail: fmt.Sprintf("the sheet has more than %d rows, the most a sheet can hold", maxRows)}
 }

@@ -24,12 +24,12 @@ func ReadSpec(path, sheet string) ([]byte, error) {
 	if _, ok := p.parts[sheet]; !ok {
 		return nil, &Error{Path: path, Sheet: sheet, Cause: ErrSheetNotFound, Detail: "the sheets are " + sheetList(p.sheets)}
 	}
-	return p.readSpec(sheet)
+	return readSpec(p, sheet)
 }
 
 // readSpec finds the spec row of a sheet: the marker in column A, the
 // JSON in the cells to its right.
-func (p *xlsxPackage) readSpec(sheet string) ([]byte, error) {
+func readSpec(p *xlsxPackage, sheet string) ([]byte, error) {
 	part, ok := p.parts[sheet]
 	if !ok {
 		return nil, nil

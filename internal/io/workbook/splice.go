@@ -5,7 +5,6 @@ import (
 	"bytes"
 	"encoding/xml"
 	"fmt"
-	"io"
 	"path"
 	"strconv"
 	"strings"
@@ -125,21 +124,6 @@ func removeSheet(p *xlsxPackage, orig []byte, name string) ([]byte, error) {
 		return nil, err
 	}
 	return out.Bytes(), nil
-}
-
-// copyRaw copies a zip entry without recompressing it.
-func copyRaw(zw *zip.Writer, f *zip.File) error {
-	r, err := f.OpenRaw()
-	if err != nil {
-		return err
-	}
-	hdr := f.FileHeader
-	w, err := zw.CreateRaw(&hdr)
-	if err != nil {
-		return err
-	}
-	_, err = io.Copy(w, r)
-	return err
 }
 
 // cutElements removes, byte for byte, each element for which match is

@@ -77,7 +77,7 @@ func OpenStream(ctx context.Context, path string, opts Options) (*Stream, error)
 	if err := scanRows(ctx, src, t, opts, b); err != nil {
 		return nil, err
 	}
-	b.finishSurvey()
+	finishSurvey(b)
 	return &Stream{Outline: t, Rows: b.rows, tf: tf, file: info}, nil
 }
 
@@ -182,7 +182,7 @@ func (c *colSurvey) kind(col *Column) {
 
 // finishSurvey names the columns and decides their kinds, as finish does
 // for a Table.
-func (b *tableBuilder) finishSurvey() {
+func finishSurvey(b *tableBuilder) {
 	t := b.t
 	idx, names := b.columnNames()
 	for i, ci := range idx {

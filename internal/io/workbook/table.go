@@ -34,9 +34,6 @@ type Table struct {
 	// Source is the file as it was when reading began (size, time,
 	// identity), for the save to check that it writes into that version.
 	Source fs.FileInfo
-
-	formulaLog formulaLog // formula cells that need a value (formulas.go)
-	part       string     // the worksheet's part in the package
 }
 
 // TextFormat is what was sniffed from a text file.

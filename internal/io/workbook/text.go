@@ -328,3 +328,6 @@ func (s *textSource) Next() (int, []rawCell, error) {
 }
 
 func (s *textSource) Close() error { return s.f.Close() }
+
+// TextRows marks the source as one of text rows; its texts are kept.
+func (s *textSource) TextRows() bool { return false }

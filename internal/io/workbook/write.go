@@ -499,7 +499,7 @@ func holdsOurResults(path string) bool {
 	}
 	defer p.Close()
 	for _, s := range p.sheets {
-		if s.Worksheet && p.isResultsSheet(s.Name) {
+		if s.Worksheet && isResultsSheet(p, s.Name) {
 			return true
 		}
 	}
@@ -552,7 +552,7 @@ func chooseSheetName(pkg *xlsxPackage, want string, replace bool) (name, replace
 	}
 	if replace {
 		last := pkg.sheets[len(pkg.sheets)-1]
-		ours := s.Worksheet && pkg.isResultsSheet(s.Name)
+		ours := s.Worksheet && isResultsSheet(pkg, s.Name)
 		if !ours {
 			return "", "", &Error{Path: pkg.path, Sheet: s.Name, Cause: ErrSheetNameTaken}
 		}
@@ -598,8 +598,8 @@ func cleanSheetName(s string) string {
 
 // isResultsSheet reports whether a sheet holds Slopewise's spec marker in
 // column A, the mark of a results sheet it wrote.
-func (p *xlsxPackage) isResultsSheet(name string) bool {
-	spec, err := p.readSpec(name)
+func isResultsSheet(p *xlsxPackage, name string) bool {
+	spec, err := readSpec(p, name)
 	return err == nil && spec != nil
 }
 

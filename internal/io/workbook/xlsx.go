@@ -411,7 +411,7 @@ func (p *xlsxPackage) checkDepth(name string) (err error) {
 
 // openXLSXSheet opens the worksheet to read: the one named, or the first
 // visible one.
-func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, error) {
+func openXLSXSheet(path string, opts Options, calc *formulaResults, fast bool) (rowSource, string, error) {
 	p, err := openPackage(path, opts)
 	if err != nil {
 		return nil, "", err
@@ -446,8 +446,8 @@ func openXLSXSheet(path string, opts Options, fast bool) (rowSource, string, err
 			return nil, "", fail(path, ErrNoSheets, "")
 		}
 	}
-	if opts.formulas != nil {
-		p.computed = opts.formulas.values
+	if calc != nil {
+		p.computed = calc.values
 	}
 	part, ok := p.parts[name]
 	if !ok {
