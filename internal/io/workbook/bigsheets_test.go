@@ -8,6 +8,10 @@ import (
 	"io"
 	"path/filepath"
 	"testing"
+
+	"slopewise/internal/io/save"
+
+	"slopewise/internal/io/iotest"
 )
 
 // TestBigSheetsKept lowers the size from which worksheets are kept from
@@ -15,28 +19,28 @@ import (
 // did, and after the results are added in place every original sheet's
 // part is the original's, byte for byte, still packed.
 func TestBigSheetsKept(t *testing.T) {
-	old := bigSheet
-	bigSheet = 1 << 10
-	defer func() { bigSheet = old }()
-	rows := []string{row(1, inl("A1", "id"), inl("B1", "score"), inl("C1", "group"))}
+	old := save.BigSheet
+	save.BigSheet = 1 << 10
+	defer func() { save.BigSheet = old }()
+	rows := []string{iotest.Row(1, iotest.Inl("A1", "id"), iotest.Inl("B1", "score"), iotest.Inl("C1", "group"))}
 	for i := 2; i < 400; i++ {
-		rows = append(rows, row(i, num(fmt.Sprintf("A%d", i), fmt.Sprint(i)), num(fmt.Sprintf("B%d", i), fmt.Sprint(i%17)), sst(fmt.Sprintf("C%d", i), i%2)))
+		rows = append(rows, iotest.Row(i, iotest.Num(fmt.Sprintf("A%d", i), fmt.Sprint(i)), iotest.Num(fmt.Sprintf("B%d", i), fmt.Sprint(i%17)), iotest.Sst(fmt.Sprintf("C%d", i), i%2)))
 	}
-	b := &rawBook{shared: []string{"north", "south"}, sheets: []rawSheet{{name: "Visits", rows: rows}, {name: "Small", rows: []string{row(1, num("A1", "1"))}}}}
+	b := &iotest.RawBook{Shared: []string{"north", "south"}, Sheets: []iotest.RawSheet{{Name: "Visits", Rows: rows}, {Name: "Small", Rows: []string{iotest.Row(1, iotest.Num("A1", "1"))}}}}
 	dir := t.TempDir()
 	// Stored, not deflated, so that a part excelize packs again differs.
-	path := writeFile(t, dir, "big.xlsx", stored(t, b.bytes(t)))
+	path := iotest.WriteFile(t, dir, "big.xlsx", stored(t, b.Bytes(t)))
 	before, err := Read(context.Background(), path, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	bigSheet = old
+	save.BigSheet = old
 	want, err := Read(context.Background(), path, Options{})
-	bigSheet = 1 << 10
+	save.BigSheet = 1 << 10
 	if err != nil {
 		t.Fatal(err)
 	}
-	if d := sameTables(before, want); d != "" {
+	if d := iotest.SameTables(before, want); d != "" {
 		t.Fatalf("opened without its big sheets, the workbook reads differently: %s", d)
 	}
 	raw := func(p, part string) *zip.File {
@@ -54,18 +58,18 @@ func TestBigSheetsKept(t *testing.T) {
 		return nil
 	}
 	orig := raw(path, "xl/worksheets/sheet1.xml")
-	w, err := WriteResults(path, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
+	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !sameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
+	if !save.SameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
 		t.Error("the big sheet's part was not kept as it was")
 	}
 	after, err := Read(context.Background(), w.Path, Options{Sheet: "Visits"})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if d := sameTables(before, after); d != "" {
+	if d := iotest.SameTables(before, after); d != "" {
 		t.Errorf("the sheet reads differently after the results were added: %s", d)
 	}
 	if _, err := Read(context.Background(), w.Path, Options{Sheet: w.Sheet}); err != nil {

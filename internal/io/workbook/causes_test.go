@@ -13,6 +13,10 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"slopewise/internal/io/save"
+
+	"slopewise/internal/io/iotest"
 )
 
 // TestReadOnlyWorkbookNotReplaced: a workbook of mode 0444 is read-only,
@@ -20,22 +24,22 @@ import (
 // replaced, nothing is left beside it, and a copy can still be written.
 func TestReadOnlyWorkbookNotReplaced(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "locked.xlsx")
+	p := iotest.SimpleBook().Write(t, dir, "locked.xlsx")
 	if err := os.Chmod(p, 0o444); err != nil {
 		t.Fatal(err)
 	}
-	before := hashIfFile(p)
-	_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	before := iotest.HashIfFile(p)
+	_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 	if !errors.Is(err, ErrReadOnlyFile) || !strings.Contains(err.Error(), "save the results to a copy") {
 		t.Fatalf("got %v", err)
 	}
-	if hashIfFile(p) != before {
+	if iotest.HashIfFile(p) != before {
 		t.Error("the workbook changed")
 	}
 	if names, _ := os.ReadDir(dir); len(names) != 1 {
 		t.Errorf("files beside it: %v", names)
 	}
-	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")}); err != nil {
+	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")}); err != nil {
 		t.Errorf("copy: %v", err)
 	}
 }
@@ -47,13 +51,13 @@ func TestReadOnlyWorkbookNotReplaced(t *testing.T) {
 func TestNameTooLong(t *testing.T) {
 	dir := t.TempDir()
 	name := strings.Repeat("n", 240) + ".xlsx"
-	p := simpleBook().write(t, dir, name)
-	before := hashIfFile(p)
-	_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	p := iotest.SimpleBook().Write(t, dir, name)
+	before := iotest.HashIfFile(p)
+	_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 	if !errors.Is(err, ErrNameTooLong) {
 		t.Fatalf("got %v", err)
 	}
-	if hashIfFile(p) != before {
+	if iotest.HashIfFile(p) != before {
 		t.Error("the workbook changed")
 	}
 	if names, _ := os.ReadDir(dir); len(names) != 1 {
@@ -70,7 +74,7 @@ func TestWriteErrorCauses(t *testing.T) {
 		{syscall.ENOSPC, ErrNoSpace}, {syscall.ENAMETOOLONG, ErrNameTooLong},
 		{syscall.EROFS, ErrDiskReadOnly}, {syscall.EACCES, ErrFolderReadOnly},
 	} {
-		err := writeError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
+		err := save.WriteError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
 		if !errors.Is(err, c.cause) || !errors.Is(err, c.errno) {
 			t.Errorf("%v: got %v", c.errno, err)
 		}
@@ -82,13 +86,13 @@ func TestWriteErrorCauses(t *testing.T) {
 // is not changed.
 func TestWorkbookNamedCSV(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "export.csv")
-	before := hashIfFile(p)
-	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	p := iotest.SimpleBook().Write(t, dir, "export.csv")
+	before := iotest.HashIfFile(p)
+	w, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if w.Path != filepath.Join(dir, "export results.xlsx") || hashIfFile(p) != before {
+	if w.Path != filepath.Join(dir, "export results.xlsx") || iotest.HashIfFile(p) != before {
 		t.Errorf("written to %s; the .csv must stay as it was", w.Path)
 	}
 }
@@ -98,7 +102,7 @@ func TestWorkbookNamedCSV(t *testing.T) {
 // than a day, zip archives — and nothing else.
 func TestDebrisCleaned(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "book.xlsx")
+	p := iotest.SimpleBook().Write(t, dir, "book.xlsx")
 	zipBytes, err := os.ReadFile(p)
 	if err != nil {
 		t.Fatal(err)
@@ -125,17 +129,17 @@ func TestDebrisCleaned(t *testing.T) {
 		make("book.xlsx.slopewise-126.tmp", zipBytes, old),                  // not hidden: not our name
 		make("notes.txt", []byte("x"), old),
 	}
-	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	w, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	for _, q := range gone {
-		if fileExists(q) {
+		if save.FileExists(q) {
 			t.Errorf("%s was not removed", filepath.Base(q))
 		}
 	}
 	for _, q := range kept {
-		if !fileExists(q) {
+		if !save.FileExists(q) {
 			t.Errorf("%s was removed", filepath.Base(q))
 		}
 	}
@@ -149,23 +153,23 @@ func TestDebrisCleaned(t *testing.T) {
 // into the new version, which stays as it is.
 func TestChangedAfterRead(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "live.xlsx")
+	p := iotest.SimpleBook().Write(t, dir, "live.xlsx")
 	tab, err := Read(context.Background(), p, Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	saved := visitsBook().bytes(t)
+	saved := iotest.VisitsBook().Bytes(t)
 	if err := os.WriteFile(p+".new", saved, 0o644); err != nil {
 		t.Fatal(err)
 	}
 	if err := os.Rename(p+".new", p); err != nil { // as spreadsheet programs save
 		t.Fatal(err)
 	}
-	_, err = WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source})
+	_, err = WriteResults(p, iotest.ResultsGrid(t), WriteOptions{Expect: tab.Source})
 	if !errors.Is(err, ErrChangedSinceRead) || !strings.Contains(err.Error(), "run the analysis again") {
 		t.Fatalf("got %v", err)
 	}
-	if fileHash(t, p) != sha(saved) {
+	if iotest.FileHash(t, p) != iotest.SHA(saved) {
 		t.Error("the new version changed")
 	}
 	if names, _ := os.ReadDir(dir); len(names) != 1 {
@@ -176,7 +180,7 @@ func TestChangedAfterRead(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source}); err != nil {
+	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{Expect: tab.Source}); err != nil {
 		t.Errorf("unchanged since read: %v", err)
 	}
 }
@@ -188,7 +192,7 @@ func TestChangedAfterRead(t *testing.T) {
 func TestTwoSavesAtOnce(t *testing.T) {
 	for trial := 0; trial < 5; trial++ {
 		dir := t.TempDir()
-		p := simpleBook().write(t, dir, "shared.xlsx")
+		p := iotest.SimpleBook().Write(t, dir, "shared.xlsx")
 		tab, err := Read(context.Background(), p, Options{})
 		if err != nil {
 			t.Fatal(err)
@@ -196,7 +200,7 @@ func TestTwoSavesAtOnce(t *testing.T) {
 		errs := make(chan error, 2)
 		for range 2 {
 			go func() {
-				_, err := WriteResults(p, resultsGrid(t), WriteOptions{Expect: tab.Source})
+				_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{Expect: tab.Source})
 				errs <- err
 			}()
 		}
@@ -229,15 +233,15 @@ func TestTwoSavesAtOnce(t *testing.T) {
 // process no longer exists) does not stop a save, and is gone after it.
 func TestStaleLockTakenOver(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "book.xlsx")
-	lock := runLockName(p)
+	p := iotest.SimpleBook().Write(t, dir, "book.xlsx")
+	lock := save.RunLockName(p)
 	if err := os.WriteFile(lock, []byte("2147483646 1\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{}); err != nil {
+	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
-	if fileExists(lock) {
+	if save.FileExists(lock) {
 		t.Error("the lock is still there")
 	}
 }
@@ -247,20 +251,20 @@ func TestStaleLockTakenOver(t *testing.T) {
 // old content.
 func TestHardLinkSaid(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "book.xlsx")
+	p := iotest.SimpleBook().Write(t, dir, "book.xlsx")
 	other := filepath.Join(dir, "same book.xlsx")
 	if err := os.Link(p, other); err != nil {
 		t.Skip("no hard links here:", err)
 	}
-	before := hashIfFile(other)
-	w, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+	before := iotest.HashIfFile(other)
+	w, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if len(w.Notes) != 1 || !strings.Contains(w.Notes[0], "1 other name(s) (hard links)") {
 		t.Errorf("notes %q", w.Notes)
 	}
-	if hashIfFile(other) != before {
+	if iotest.HashIfFile(other) != before {
 		t.Error("the other name changed")
 	}
 }
@@ -269,8 +273,8 @@ func TestHardLinkSaid(t *testing.T) {
 // not taken for its own lock file.
 func TestLockNamedWorkbook(t *testing.T) {
 	dir := t.TempDir()
-	p := simpleBook().write(t, dir, "~$data.xlsx")
-	if _, err := WriteResults(p, resultsGrid(t), WriteOptions{}); err != nil {
+	p := iotest.SimpleBook().Write(t, dir, "~$data.xlsx")
+	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Errorf("got %v", err)
 	}
 }
@@ -280,22 +284,22 @@ func TestLockNamedWorkbook(t *testing.T) {
 // Slopewise's, and replaces one that does, keeping a backup.
 func TestReplaceOnlyOurResults(t *testing.T) {
 	dir := t.TempDir()
-	src := writeFile(t, dir, "scores.csv", []byte("id,score,group\n1,2,a\n2,3,b\n"))
+	src := iotest.WriteFile(t, dir, "scores.csv", []byte("id,score,group\n1,2,a\n2,3,b\n"))
 	target := ResultsPathFor(src)
-	simpleBook().write(t, dir, filepath.Base(target)) // the user's own workbook of that name
-	before := hashIfFile(target)
-	_, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	iotest.SimpleBook().Write(t, dir, filepath.Base(target)) // the user's own workbook of that name
+	before := iotest.HashIfFile(target)
+	_, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{Replace: true})
 	if !errors.Is(err, ErrTargetExists) || !strings.Contains(err.Error(), "not a workbook of Slopewise's results") {
 		t.Fatalf("got %v", err)
 	}
-	if hashIfFile(target) != before {
+	if iotest.HashIfFile(target) != before {
 		t.Error("the user's workbook changed")
 	}
 	os.Remove(target)
-	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{}); err != nil {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{Replace: true})
 	if err != nil || w.Backup == "" {
 		t.Errorf("replacing earlier results: %+v %v", w, err)
 	}
@@ -306,11 +310,11 @@ func TestReplaceOnlyOurResults(t *testing.T) {
 func TestWriteWhole(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "demo.xlsx")
-	data := simpleBook().bytes(t)
+	data := iotest.SimpleBook().Bytes(t)
 	if err := WriteWhole(p, data, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	if hashIfFile(p) != sha(data) {
+	if iotest.HashIfFile(p) != iotest.SHA(data) {
 		t.Error("the file is not the data")
 	}
 	if err := WriteWhole(p, []byte("other"), 0o644); !errors.Is(err, ErrTargetExists) {
@@ -331,7 +335,7 @@ func TestRunLockOneHolder(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "book.xlsx")
 	for trial := 0; trial < 3; trial++ {
-		os.WriteFile(runLockName(p), []byte("999999 1\n"), 0o644)
+		os.WriteFile(save.RunLockName(p), []byte("999999 1\n"), 0o644)
 		var holders, most int32
 		var mu sync.Mutex
 		var wg sync.WaitGroup
@@ -339,7 +343,7 @@ func TestRunLockOneHolder(t *testing.T) {
 			wg.Add(1)
 			go func() {
 				defer wg.Done()
-				unlock, err := takeRunLock(p)
+				unlock, err := save.TakeRunLock(p)
 				if err != nil {
 					t.Error(err)
 					return

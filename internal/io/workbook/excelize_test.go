@@ -6,6 +6,8 @@ import (
 	"testing"
 
 	"github.com/xuri/excelize/v2"
+
+	"slopewise/internal/io/iotest"
 )
 
 // These tests pin down what excelize v2.11.1 itself does to a workbook,
@@ -34,14 +36,14 @@ func excelizeResave(t *testing.T, b []byte, change func(*excelize.File)) []byte 
 func partOf(t *testing.T, b []byte, name string) string {
 	t.Helper()
 	dir := t.TempDir()
-	return string(zipParts(t, writeFile(t, dir, "x.xlsx", b))[name])
+	return string(iotest.ZipParts(t, iotest.WriteFile(t, dir, "x.xlsx", b))[name])
 }
 
 // excelize v2.11.1 source, excelize.go workSheetReader and sheet.go
 // workSheetWriter: a sheet read through a getter is kept in memory and
 // written back re-serialised.
 func TestExcelizeGetterRewritesSheet(t *testing.T) {
-	orig := simpleBook().bytes(t)
+	orig := iotest.SimpleBook().Bytes(t)
 	untouched := excelizeResave(t, orig, nil)
 	read := excelizeResave(t, orig, func(f *excelize.File) {
 		if _, err := f.GetCellValue("Data", "A1"); err != nil {
@@ -65,22 +67,22 @@ func TestExcelizeLosesFeatures(t *testing.T) {
 		book               func(t *testing.T) []byte
 	}{
 		{"file sharing", "xl/workbook.xml", `readOnlyRecommended="1"`, func(t *testing.T) []byte {
-			return withWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).bytes(t)
+			return iotest.WithWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).Bytes(t)
 		}},
 		{"structure password", "xl/workbook.xml", `workbookPassword="CC3D"`, func(t *testing.T) []byte {
-			return withWorkbookXML(`<workbookProtection workbookPassword="CC3D" lockStructure="1"/>`).bytes(t)
+			return iotest.WithWorkbookXML(`<workbookProtection workbookPassword="CC3D" lockStructure="1"/>`).Bytes(t)
 		}},
 		{"xlm names", "xl/workbook.xml", `xlm="1"`, func(t *testing.T) []byte {
-			return withWorkbookXML(`<definedName name="Auto_Open" xlm="1">Macro1!$A$1</definedName>`).bytes(t)
+			return iotest.WithWorkbookXML(`<definedName name="Auto_Open" xlm="1">Macro1!$A$1</definedName>`).Bytes(t)
 		}},
 		{"date compatibility", "xl/workbook.xml", `dateCompatibility="0"`, func(t *testing.T) []byte {
-			return withWorkbookXML(`<workbookPr dateCompatibility="0"/>`).bytes(t)
+			return iotest.WithWorkbookXML(`<workbookPr dateCompatibility="0"/>`).Bytes(t)
 		}},
 		{"ole size", "xl/workbook.xml", `ref="A1:D10"`, func(t *testing.T) []byte {
-			return withWorkbookXML(`<oleSize ref="A1:D10"/>`).bytes(t)
+			return iotest.WithWorkbookXML(`<oleSize ref="A1:D10"/>`).Bytes(t)
 		}},
 		{"dxf extension list", "xl/styles.xml", `uri="{x}"`, func(t *testing.T) []byte {
-			return replacePart(t, simpleBook().bytes(t), "xl/styles.xml", func(s string) string {
+			return iotest.ReplacePart(t, iotest.SimpleBook().Bytes(t), "xl/styles.xml", func(s string) string {
 				return strings.Replace(s, "</styleSheet>", `<dxfs count="1"><dxf><font><b/></font><extLst><ext uri="{x}"/></extLst></dxf></dxfs></styleSheet>`, 1)
 			})
 		}},
@@ -96,9 +98,9 @@ func TestExcelizeLosesFeatures(t *testing.T) {
 	}
 	// A signed workbook: the signature covers workbook.xml, which excelize
 	// re-serialises, so the signature no longer matches.
-	b := simpleBook()
-	b.extra = map[string]string{"_xmlsignatures/sig1.xml": "<Signature/>"}
-	orig := b.bytes(t)
+	b := iotest.SimpleBook()
+	b.Extra = map[string]string{"_xmlsignatures/sig1.xml": "<Signature/>"}
+	orig := b.Bytes(t)
 	if partOf(t, excelizeResave(t, orig, nil), "xl/workbook.xml") == partOf(t, orig, "xl/workbook.xml") {
 		t.Error("workbook.xml is no longer rewritten; a signature might survive")
 	}
@@ -108,7 +110,7 @@ func TestExcelizeLosesFeatures(t *testing.T) {
 // the existing sheet; a new part is named after the largest sheetId plus
 // one without checking that the name is free.
 func TestExcelizeNewSheet(t *testing.T) {
-	f, err := excelize.OpenReader(bytes.NewReader(simpleBook().bytes(t)))
+	f, err := excelize.OpenReader(bytes.NewReader(iotest.SimpleBook().Bytes(t)))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -118,7 +120,7 @@ func TestExcelizeNewSheet(t *testing.T) {
 	}
 	f.Close()
 
-	moved := sheetPartMoved(t, simpleBook().bytes(t))
+	moved := iotest.SheetPartMoved(t, iotest.SimpleBook().Bytes(t))
 	out := excelizeResave(t, moved, func(f *excelize.File) {
 		if _, err := f.NewSheet("Results"); err != nil {
 			t.Fatal(err)

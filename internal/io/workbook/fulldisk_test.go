@@ -12,6 +12,8 @@ import (
 	"strings"
 	"syscall"
 	"testing"
+
+	"slopewise/internal/io/iotest"
 )
 
 // smallDisk mounts a file system of size bytes (tmpfs) for the test, or
@@ -80,14 +82,14 @@ func folderNames(dir string) string {
 // folder. With the space back, the save goes through.
 func TestFullDisk(t *testing.T) {
 	dir := smallDisk(t, 4<<20)
-	orig := simpleBook().bytes(t)
+	orig := iotest.SimpleBook().Bytes(t)
 	// How big the new workbook is, measured on a disk with room.
 	roomy := t.TempDir()
 	probe := filepath.Join(roomy, "book.xlsx")
 	if err := os.WriteFile(probe, orig, 0o644); err != nil {
 		t.Fatal(err)
 	}
-	w, err := WriteResults(probe, resultsGrid(t), WriteOptions{})
+	w, err := WriteResults(probe, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -110,11 +112,11 @@ func TestFullDisk(t *testing.T) {
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			leaveFree(t, dir, c.free)
-			_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+			_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 			if !errors.Is(err, ErrNoSpace) || !errors.Is(err, syscall.ENOSPC) {
 				t.Errorf("got %v, want the full disk named", err)
 			}
-			if hashIfFile(path) != sha(orig) {
+			if iotest.HashIfFile(path) != iotest.SHA(orig) {
 				t.Error("the workbook changed")
 			}
 			noneOpen(t, dir)
@@ -125,11 +127,11 @@ func TestFullDisk(t *testing.T) {
 	}
 	t.Run("space back", func(t *testing.T) {
 		os.Remove(filepath.Join(dir, "filler"))
-		w, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+		w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 		if err != nil {
 			t.Fatal(err)
 		}
-		if hashIfFile(w.Backup) != sha(orig) {
+		if iotest.HashIfFile(w.Backup) != iotest.SHA(orig) {
 			t.Error("the backup is not the original")
 		}
 	})
@@ -153,13 +155,13 @@ func TestFullDiskCSV(t *testing.T) {
 	// The CSV is about 0.6 MB: its copy into a sheet does not fit in
 	// what is left beside it.
 	leaveFree(t, dir, 64<<10)
-	_, err := WriteResults(csv, resultsGrid(t), WriteOptions{CopyData: CopyDataAlways})
+	_, err := WriteResults(csv, iotest.ResultsGrid(t), WriteOptions{CopyData: CopyDataAlways})
 	if !errors.Is(err, ErrNoSpace) {
 		t.Errorf("the CSV's results: got %v, want the full disk named", err)
 	}
 	whole := filepath.Join(dir, "demo.xlsx")
 	data := make([]byte, 256<<10)
-	copy(data, simpleBook().bytes(t))
+	copy(data, iotest.SimpleBook().Bytes(t))
 	if err := WriteWhole(whole, data, 0o644); !errors.Is(err, ErrNoSpace) {
 		t.Errorf("a file written whole: got %v, want the full disk named", err)
 	}

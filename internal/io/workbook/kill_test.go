@@ -12,6 +12,10 @@ import (
 	"syscall"
 	"testing"
 	"time"
+
+	"slopewise/internal/io/save"
+
+	"slopewise/internal/io/iotest"
 )
 
 // killSteps are the moments of a save at which TestKilledSave kills it:
@@ -32,7 +36,7 @@ func TestKilledSave(t *testing.T) {
 	for _, step := range killSteps {
 		t.Run(step, func(t *testing.T) {
 			dir := t.TempDir()
-			path := simpleBook().write(t, dir, "book.xlsx")
+			path := iotest.SimpleBook().Write(t, dir, "book.xlsx")
 			orig, err := os.ReadFile(path)
 			if err != nil {
 				t.Fatal(err)
@@ -44,7 +48,7 @@ func TestKilledSave(t *testing.T) {
 				t.Fatal(err)
 			}
 			deadline := time.Now().Add(30 * time.Second)
-			for !fileExists(marker) {
+			for !save.FileExists(marker) {
 				if time.Now().After(deadline) {
 					cmd.Process.Kill()
 					cmd.Wait()
@@ -82,7 +86,7 @@ func TestKilledSave(t *testing.T) {
 			if err != nil {
 				t.Fatal(err)
 			}
-			if _, err := WriteResults(path, resultsGrid(t), WriteOptions{Expect: tab.Source}); err != nil {
+			if _, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Expect: tab.Source}); err != nil {
 				t.Fatalf("the next save: %v", err)
 			}
 			entries, _ = os.ReadDir(dir)
@@ -104,14 +108,14 @@ func killChild(t *testing.T, step, file string) {
 	}
 	switch step {
 	case "built":
-		beforeReplace = stop
+		save.BeforeReplace = stop
 	case "backup written":
-		beforeBackupNamed = stop
+		save.BeforeBackupNamed = stop
 	case "backup named":
-		beforeExchange = stop
+		save.BeforeExchange = stop
 	case "exchanged":
-		afterExchange = stop
+		save.AfterExchange = stop
 	}
-	WriteResults(file, resultsGrid(t), WriteOptions{})
+	WriteResults(file, iotest.ResultsGrid(t), WriteOptions{})
 	t.Fatal("the save ended without being killed")
 }

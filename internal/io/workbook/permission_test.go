@@ -15,6 +15,8 @@ import (
 	"testing"
 
 	"github.com/xuri/excelize/v2"
+
+	"slopewise/internal/io/iotest"
 )
 
 // asNobodyEnv marks the copy of the test binary that runs as an ordinary
@@ -95,7 +97,7 @@ func TestPermissionRefusals(t *testing.T) {
 	}()
 
 	t.Run("no read permission", func(t *testing.T) {
-		p := simpleBook().write(t, dir, "private.xlsx")
+		p := iotest.SimpleBook().Write(t, dir, "private.xlsx")
 		if err := os.Chmod(p, 0); err != nil {
 			t.Fatal(err)
 		}
@@ -110,31 +112,31 @@ func TestPermissionRefusals(t *testing.T) {
 		if err := os.Mkdir(folder, 0o755); err != nil {
 			t.Fatal(err)
 		}
-		p := simpleBook().write(t, folder, "book.xlsx")
-		before := hashIfFile(p)
+		p := iotest.SimpleBook().Write(t, folder, "book.xlsx")
+		before := iotest.HashIfFile(p)
 		if err := os.Chmod(folder, 0o555); err != nil {
 			t.Fatal(err)
 		}
-		_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+		_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 		want := fmt.Sprintf("%q: %s", folder, ErrFolderReadOnly)
 		if !errors.Is(err, ErrFolderReadOnly) || err.Error() != want {
 			t.Errorf("got %v\nwant %s", err, want)
 		}
-		if hashIfFile(p) != before {
+		if iotest.HashIfFile(p) != before {
 			t.Error("the workbook's bytes changed")
 		}
 		// The copy path always exists.
-		w, err := WriteResults(p, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
+		w, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
 		if err != nil || w.Path != filepath.Join(dir, "copy.xlsx") {
 			t.Errorf("copy elsewhere: %+v %v", w, err)
 		}
 	})
 	t.Run("workbook that may not be read for writing", func(t *testing.T) {
-		p := simpleBook().write(t, dir, "sealed.xlsx")
+		p := iotest.SimpleBook().Write(t, dir, "sealed.xlsx")
 		if err := os.Chmod(p, 0o200); err != nil {
 			t.Fatal(err)
 		}
-		_, err := WriteResults(p, resultsGrid(t), WriteOptions{})
+		_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
 		want := fmt.Sprintf("%q: %s", p, ErrNoReadAccess)
 		if !errors.Is(err, ErrNoReadAccess) || err.Error() != want {
 			t.Errorf("got %v\nwant %s", err, want)

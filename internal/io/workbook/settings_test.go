@@ -7,6 +7,10 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"slopewise/internal/io/save"
+
+	"slopewise/internal/io/iotest"
 )
 
 // TestInPlaceKeepsWorkbookSettings: a workbook with the settings that
@@ -16,26 +20,26 @@ import (
 // calcPr is in the new workbook part as it was, the backup is the
 // original byte for byte.
 func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
-	b := simpleBook()
-	b.wbExtra = `<workbookPr backupFile="false" showObjects="all" dateCompatibility="false"/>`
-	b.wbAfter = `<calcPr calcId="124519" fullCalcOnLoad="1" iterate="false" iterateCount="100"/>`
+	b := iotest.SimpleBook()
+	b.WbExtra = `<workbookPr backupFile="false" showObjects="all" dateCompatibility="false"/>`
+	b.WbAfter = `<calcPr calcId="124519" fullCalcOnLoad="1" iterate="false" iterateCount="100"/>`
 	dir := t.TempDir()
-	path := b.write(t, dir, "lo.xlsx")
+	path := b.Write(t, dir, "lo.xlsx")
 	orig, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
 	}
-	w, err := WriteResults(path, resultsGrid(t), WriteOptions{Now: func() time.Time { return time.Date(2026, 12, 3, 10, 0, 0, 0, time.UTC) }})
+	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Now: func() time.Time { return time.Date(2026, 12, 3, 10, 0, 0, 0, time.UTC) }})
 	if err != nil {
 		t.Fatal(err)
 	}
-	wb := string(zipParts(t, path)["xl/workbook.xml"])
+	wb := string(iotest.ZipParts(t, path)["xl/workbook.xml"])
 	for _, want := range []string{`dateCompatibility="false"`, `backupFile="false"`, `showObjects="all"`, `fullCalcOnLoad="true"`, `calcId="124519"`, `iterate="false"`, `iterateCount="100"`} {
 		if !strings.Contains(wb, want) {
 			t.Errorf("the new workbook part lacks %s:\n%s", want, wb)
 		}
 	}
-	if lost := missingSettings([]byte(b.wbExtra+b.wbAfter), []byte(wb)); len(lost) > 0 {
+	if lost := save.MissingSettings([]byte(b.WbExtra+b.WbAfter), []byte(wb)); len(lost) > 0 {
 		t.Errorf("settings not kept: %v", lost)
 	}
 	back, err := os.ReadFile(w.Backup)
@@ -53,13 +57,13 @@ func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
 func TestRestoreSettings(t *testing.T) {
 	orig := []byte(`<workbook><fileVersion appName="x"/><workbookPr dateCompatibility="0"/><sheets><sheet name="a"/></sheets><calcPr calcId="1" refMode="R1C1"/></workbook>`)
 	body := []byte(`<workbook><fileVersion appName="x"></fileVersion><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2"/></workbook>`)
-	got, changed := restoreSettings(orig, body)
+	got, changed := save.RestoreSettings(orig, body)
 	want := `<workbook><fileVersion appName="x"></fileVersion><workbookPr dateCompatibility="0"/><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2" refMode="R1C1"/></workbook>`
 	if !changed || string(got) != want {
 		t.Fatalf("got  %s\nwant %s", got, want)
 	}
-	lost := missingSettings(orig, got)
-	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].name != "calcId" {
+	lost := save.MissingSettings(orig, got)
+	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].Name != "calcId" {
 		t.Errorf("a changed value must remain a difference for the check: %v", lost)
 	}
 }
@@ -69,13 +73,13 @@ func TestRestoreSettings(t *testing.T) {
 // that looks like a backup; after the save no temporary file is left.
 func TestBackupNamedWhenWhole(t *testing.T) {
 	dir := t.TempDir()
-	path := simpleBook().write(t, dir, "b.xlsx")
+	path := iotest.SimpleBook().Write(t, dir, "b.xlsx")
 	orig, err := os.ReadFile(path)
 	if err != nil {
 		t.Fatal(err)
 	}
 	seen := false
-	beforeBackupNamed = func(tmp string) {
+	save.BeforeBackupNamed = func(tmp string) {
 		seen = true
 		body, err := os.ReadFile(tmp)
 		if err != nil || !bytes.Equal(body, orig) {
@@ -86,8 +90,8 @@ func TestBackupNamedWhenWhole(t *testing.T) {
 			t.Errorf("a backup has its name before it is complete: %v", names)
 		}
 	}
-	defer func() { beforeBackupNamed = func(string) {} }()
-	w, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	defer func() { save.BeforeBackupNamed = func(string) {} }()
+	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}

@@ -5,6 +5,10 @@ import (
 	"fmt"
 	"strings"
 	"testing"
+
+	"slopewise/internal/io/table"
+
+	"slopewise/internal/io/iotest"
 )
 
 // TestWriteWithoutStyles: a workbook without a styles part, with an empty
@@ -12,17 +16,17 @@ import (
 // 12.3.20 makes the part optional) is written in place; the original's
 // style elements are kept and the sheet reads as before.
 func TestWriteWithoutStyles(t *testing.T) {
-	cases := map[string]func(b *rawBook) []byte{
-		"no styles part": func(b *rawBook) []byte {
-			return withoutStylesPart(t, b.bytes(t))
+	cases := map[string]func(b *iotest.RawBook) []byte{
+		"no styles part": func(b *iotest.RawBook) []byte {
+			return withoutStylesPart(t, b.Bytes(t))
 		},
-		"empty styleSheet": func(b *rawBook) []byte {
-			return replacePart(t, b.bytes(t), "xl/styles.xml", func(string) string {
+		"empty styleSheet": func(b *iotest.RawBook) []byte {
+			return iotest.ReplacePart(t, b.Bytes(t), "xl/styles.xml", func(string) string {
 				return `<?xml version="1.0" encoding="UTF-8"?><styleSheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"/>`
 			})
 		},
-		"no fonts": func(b *rawBook) []byte {
-			return replacePart(t, b.bytes(t), "xl/styles.xml", func(string) string {
+		"no fonts": func(b *iotest.RawBook) []byte {
+			return iotest.ReplacePart(t, b.Bytes(t), "xl/styles.xml", func(string) string {
 				return `<?xml version="1.0" encoding="UTF-8"?><styleSheet xmlns="http://schemas.openxmlformats.org/spreadsheetml/2006/main"><numFmts count="1"><numFmt numFmtId="164" formatCode="0.000"/></numFmts><fills count="1"><fill><patternFill patternType="none"/></fill></fills><borders count="1"><border/></borders><cellXfs count="2"><xf numFmtId="0"/><xf numFmtId="164" applyNumberFormat="1"/></cellXfs></styleSheet>`
 			})
 		},
@@ -30,22 +34,22 @@ func TestWriteWithoutStyles(t *testing.T) {
 	for name, make := range cases {
 		t.Run(name, func(t *testing.T) {
 			dir := t.TempDir()
-			path := writeFile(t, dir, "s.xlsx", make(simpleBook()))
+			path := iotest.WriteFile(t, dir, "s.xlsx", make(iotest.SimpleBook()))
 			before, err := Read(context.Background(), path, Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
-			if _, err := WriteResults(path, resultsGrid(t), WriteOptions{}); err != nil {
+			if _, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 				t.Fatalf("writing: %v", err)
 			}
 			after, err := Read(context.Background(), path, Options{Sheet: before.Sheet})
 			if err != nil {
 				t.Fatal(err)
 			}
-			if d := sameTables(before, after); d != "" {
+			if d := iotest.SameTables(before, after); d != "" {
 				t.Errorf("the data sheet reads differently: %s", d)
 			}
-			styles := string(zipParts(t, path)["xl/styles.xml"])
+			styles := string(iotest.ZipParts(t, path)["xl/styles.xml"])
 			if name == "no fonts" && !strings.Contains(styles, `formatCode="0.000"`) {
 				t.Errorf("the original number format is gone:\n%s", styles)
 			}
@@ -56,14 +60,14 @@ func TestWriteWithoutStyles(t *testing.T) {
 // withoutStylesPart removes the styles part, its relationship and its
 // content type.
 func withoutStylesPart(t *testing.T, b []byte) []byte {
-	b = replacePart(t, b, "xl/_rels/workbook.xml.rels", func(s string) string {
+	b = iotest.ReplacePart(t, b, "xl/_rels/workbook.xml.rels", func(s string) string {
 		return strings.Replace(s, `<Relationship Id="rIdS" Type="http://schemas.openxmlformats.org/officeDocument/2006/relationships/styles" Target="styles.xml"/>`, "", 1)
 	})
-	b = replacePart(t, b, "[Content_Types].xml", func(s string) string {
+	b = iotest.ReplacePart(t, b, "[Content_Types].xml", func(s string) string {
 		return strings.Replace(s, `<Override PartName="/xl/styles.xml" ContentType="application/vnd.openxmlformats-officedocument.spreadsheetml.styles+xml"/>`, "", 1)
 	})
 	// The part itself becomes one no relationship names, then is dropped.
-	return rewriteZip(t, b, func(name, content string) (string, string) {
+	return iotest.RewriteZip(t, b, func(name, content string) (string, string) {
 		if name == "xl/styles.xml" {
 			return "docProps/unused.xml", "<unused/>"
 		}
@@ -76,7 +80,7 @@ func withoutStylesPart(t *testing.T, b []byte) []byte {
 // the analysis used, in the order given, from column A on, and the
 // result says so.
 func TestWriteBesideWideCSV(t *testing.T) {
-	const width = maxColumns + 20
+	const width = table.MaxColumns + 20
 	var b strings.Builder
 	for j := 0; j < width; j++ {
 		if j > 0 {
@@ -95,8 +99,8 @@ func TestWriteBesideWideCSV(t *testing.T) {
 		b.WriteString("\n")
 	}
 	dir := t.TempDir()
-	src := writeFile(t, dir, "wide.csv", []byte(b.String()))
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{KeepColumns: []string{fmt.Sprintf("c%d", width-1), "c3"}})
+	src := iotest.WriteFile(t, dir, "wide.csv", []byte(b.String()))
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{KeepColumns: []string{fmt.Sprintf("c%d", width-1), "c3"}})
 	if err != nil {
 		t.Fatal(err)
 	}

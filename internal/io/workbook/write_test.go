@@ -1,16 +1,11 @@
 package workbook
 
 import (
-	"archive/zip"
 	"bytes"
 	"context"
-	"crypto/sha256"
 	"encoding/xml"
 	"errors"
 	"fmt"
-	"image"
-	"image/color"
-	"image/png"
 	"io"
 	"os"
 	"path/filepath"
@@ -21,108 +16,10 @@ import (
 	"time"
 
 	"github.com/xuri/excelize/v2"
+	"slopewise/internal/io/save"
 
-	"slopewise/internal/report"
+	"slopewise/internal/io/iotest"
 )
-
-// richWorkbook makes, with excelize, a workbook that uses what evaluators'
-// workbooks use: several sheets, styles, merged cells, formulas with saved
-// results, defined names, data validation, comments, a chart, a picture, a
-// table, a pivot table, a protected sheet, cells whose display format
-// hides digits and a macro project.
-func richWorkbook(t testing.TB, path string) {
-	t.Helper()
-	f := excelize.NewFile()
-	defer f.Close()
-	must := func(err error) {
-		t.Helper()
-		if err != nil {
-			t.Fatal(err)
-		}
-	}
-	must(f.SetSheetName("Sheet1", "Visits"))
-	_, err := f.NewSheet("Lookup")
-	must(err)
-	_, err = f.NewSheet("Locked")
-	must(err)
-	bold, err := f.NewStyle(&excelize.Style{Font: &excelize.Font{Bold: true}, Fill: excelize.Fill{Type: "pattern", Pattern: 1, Color: []string{"DDEBF7"}}})
-	must(err)
-	threeDec, err := f.NewStyle(&excelize.Style{CustomNumFmt: ptr("0.000")})
-	must(err)
-	must(f.SetSheetRow("Visits", "A1", &[]any{"Person", "Arm", "Score", "Double"}))
-	must(f.SetCellStyle("Visits", "A1", "D1", bold))
-	for i := 0; i < 20; i++ {
-		r := i + 2
-		must(f.SetSheetRow("Visits", fmt.Sprintf("A%d", r), &[]any{i + 1, []string{"control", "treated"}[i%2], 0.1234567 + float64(i)/7}))
-		must(f.SetCellFormula("Visits", fmt.Sprintf("D%d", r), fmt.Sprintf("C%d*2", r)))
-		must(f.SetCellFloat("Visits", fmt.Sprintf("D%d", r), 2*(0.1234567+float64(i)/7), -1, 64))
-		must(f.SetCellFormula("Visits", fmt.Sprintf("D%d", r), fmt.Sprintf("C%d*2", r)))
-	}
-	must(f.SetCellStyle("Visits", "C2", "C21", threeDec))
-	must(f.MergeCell("Lookup", "A1", "C1"))
-	must(f.SetCellValue("Lookup", "A1", "Arms and their labels"))
-	must(f.SetSheetRow("Lookup", "A2", &[]any{"control", 0}))
-	must(f.SetSheetRow("Lookup", "A3", &[]any{"treated", 1}))
-	must(f.SetDefinedName(&excelize.DefinedName{Name: "Arms", RefersTo: "Lookup!$A$2:$A$3"}))
-	dv := excelize.NewDataValidation(true)
-	dv.Sqref = "B2:B21"
-	must(dv.SetDropList([]string{"control", "treated"}))
-	must(f.AddDataValidation("Visits", dv))
-	must(f.AddComment("Visits", excelize.Comment{Cell: "C1", Author: "Evaluator", Text: "Scores from the spring round"}))
-	must(f.AddChart("Visits", "F2", &excelize.Chart{
-		Type:   excelize.Col,
-		Series: []excelize.ChartSeries{{Name: "Visits!$C$1", Categories: "Visits!$A$2:$A$21", Values: "Visits!$C$2:$C$21"}},
-	}))
-	must(f.AddPictureFromBytes("Lookup", "E2", &excelize.Picture{Extension: ".png", File: testPNG(t, 40, 30)}))
-	must(f.AddTable("Lookup", &excelize.Table{Range: "A2:B3", Name: "ArmTable", ShowHeaderRow: ptr(false)}))
-	must(f.SetCellValue("Locked", "A1", "Do not edit"))
-	must(f.ProtectSheet("Locked", &excelize.SheetProtectionOptions{Password: "secret", EditScenarios: false}))
-	must(f.SetConditionalFormat("Visits", "C2:C21", []excelize.ConditionalFormatOptions{{Type: "data_bar", Criteria: "=", MinType: "min", MaxType: "max", BarColor: "#638EC6"}}))
-	_, err = f.NewSheet("Pivot")
-	must(err)
-	must(f.AddPivotTable(&excelize.PivotTableOptions{
-		DataRange:       "Visits!A1:C21",
-		PivotTableRange: "Pivot!A1:D10",
-		Rows:            []excelize.PivotTableField{{Data: "Arm"}},
-		Data:            []excelize.PivotTableField{{Data: "Score", Subtotal: "Average", Name: "Mean score"}},
-	}))
-	vba := append(append([]byte{}, oleSignature...), make([]byte, 504)...)
-	must(f.AddVBAProject(vba))
-	must(f.SaveAs(path))
-}
-
-func testPNG(t testing.TB, w, h int) []byte {
-	t.Helper()
-	img := image.NewRGBA(image.Rect(0, 0, w, h))
-	for x := 0; x < w; x++ {
-		for y := 0; y < h; y++ {
-			img.Set(x, y, color.RGBA{uint8(x * 5), uint8(y * 7), 120, 255})
-		}
-	}
-	var buf bytes.Buffer
-	if err := png.Encode(&buf, img); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-// resultsGrid uses every kind of cell.
-func resultsGrid(t testing.TB) *report.Sheet {
-	return &report.Sheet{
-		Name: "Slopewise results",
-		Blocks: []report.Block{
-			{Title: "Effect of the programme by group", Rows: [][]report.Cell{
-				{report.HeadingCell("Group"), report.HeadingCell("Effect"), report.HeadingCell("Share"), report.HeadingCell("p")},
-				{report.TextCell("North"), report.NumberCell(0.12345678901234567, "0.00"), report.PercentCell(0.4567, 1), report.PValueCell(0.000123456789)},
-				{report.TextCell("South"), report.NumberCell(-1234567.890123, "#,##0.0"), report.PercentCell(0.5, 0), report.PValueCell(0.04321)},
-			}},
-			{Rows: [][]report.Cell{{report.ParagraphCell("The programme raised scores in the North more than in the South. "+strings.Repeat("This sentence makes the note long enough to wrap. ", 4), 4)}}},
-			{Title: "Chart", Image: &report.Image{Title: "Effects with confidence intervals", PNG: testPNG(t, 120, 80), Width: 120, Height: 80}},
-		},
-		Settings: []report.Setting{{Label: "Sheet", Value: "Visits"}, {Label: "Header row", Value: "1"}},
-		Spec:     []byte(`{"sheet":"Visits","header_row":1,"outcome":"Score"}`),
-	}
-}
 
 // rewrittenParts are the parts excelize always re-serialises on save
 // (excelize v2.11.1 source: excelize.go and file.go, writeToZip; the
@@ -134,29 +31,6 @@ var rewrittenParts = map[string]bool{
 	"xl/styles.xml":              true,
 	"xl/theme/theme1.xml":        true,
 	"xl/calcChain.xml":           true,
-}
-
-func zipParts(t testing.TB, path string) map[string][]byte {
-	t.Helper()
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer zr.Close()
-	out := map[string][]byte{}
-	for _, f := range zr.File {
-		rc, err := f.Open()
-		if err != nil {
-			t.Fatal(err)
-		}
-		b, err := io.ReadAll(rc)
-		rc.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
-		out[f.Name] = b
-	}
-	return out
 }
 
 // xmlItems flattens an XML document into one string per element: its
@@ -200,17 +74,6 @@ func xmlItems(t testing.TB, body []byte) map[string]int {
 	}
 }
 
-func sha(b []byte) [32]byte { return sha256.Sum256(b) }
-
-func fileHash(t testing.TB, path string) [32]byte {
-	t.Helper()
-	b, err := os.ReadFile(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	return sha(b)
-}
-
 // rawRows reads every sheet's raw values and formulas with excelize, a
 // reader independent of ours.
 func rawRows(t testing.TB, path string) map[string]string {
@@ -242,16 +105,16 @@ func rawRows(t testing.TB, path string) map[string]string {
 func TestWriteResultsRoundTrip(t *testing.T) {
 	dir := t.TempDir()
 	path := filepath.Join(dir, "visits.xlsm")
-	richWorkbook(t, path)
+	iotest.RichWorkbook(t, path)
 	if err := os.Chmod(path, 0o640); err != nil {
 		t.Fatal(err)
 	}
-	before := zipParts(t, path)
-	origHash := fileHash(t, path)
+	before := iotest.ZipParts(t, path)
+	origHash := iotest.FileHash(t, path)
 	rawBefore := rawRows(t, path)
 	now := time.Date(2026, 3, 4, 5, 6, 7, 0, time.UTC)
 
-	w, err := WriteResults(path, resultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
+	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -259,14 +122,14 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 		t.Errorf("written %+v", w)
 	}
 	wantBackup := filepath.Join(dir, "visits (before Slopewise 2026-03-04 05.06.07).xlsm")
-	if w.Backup != wantBackup || fileHash(t, wantBackup) != origHash {
+	if w.Backup != wantBackup || iotest.FileHash(t, wantBackup) != origHash {
 		t.Errorf("backup %q is not the original", w.Backup)
 	}
 	// Windows keeps no Unix permission bits (only read-only or not).
 	if info, err := os.Stat(path); err != nil || (runtime.GOOS != "windows" && info.Mode().Perm() != 0o640) {
 		t.Errorf("permissions after writing: %v %v", info.Mode(), err)
 	}
-	after := zipParts(t, path)
+	after := iotest.ZipParts(t, path)
 	for name, body := range before {
 		got, ok := after[name]
 		switch {
@@ -321,18 +184,18 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 	}
 
 	// A second run with Replace replaces its own sheet; without, it adds one.
-	hash1 := fileHash(t, path)
+	hash1 := iotest.FileHash(t, path)
 	now = now.Add(time.Minute)
-	w2, err := WriteResults(path, resultsGrid(t), WriteOptions{Replace: true, Now: func() time.Time { return now }})
+	w2, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Replace: true, Now: func() time.Time { return now }})
 	if err != nil {
 		t.Fatal(err)
 	}
 	sheets, _ := Sheets(path)
-	if w2.Sheet != "Slopewise results" || len(sheets) != 5 || fileHash(t, w2.Backup) != hash1 {
+	if w2.Sheet != "Slopewise results" || len(sheets) != 5 || iotest.FileHash(t, w2.Backup) != hash1 {
 		t.Errorf("replace: %+v, %d sheets", w2, len(sheets))
 	}
 	now = now.Add(time.Minute)
-	w3, err := WriteResults(path, resultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
+	w3, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Now: func() time.Time { return now }})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -347,33 +210,33 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 func TestWriteCopyKeepsSource(t *testing.T) {
 	dir := t.TempDir()
 	src := filepath.Join(dir, "book.xlsx")
-	richWorkbook(t, src)
-	h := fileHash(t, src)
+	iotest.RichWorkbook(t, src)
+	h := iotest.FileHash(t, src)
 	dst := filepath.Join(dir, "copy.xlsx")
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: dst})
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: dst})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if fileHash(t, src) != h || w.Backup != "" || w.Path != dst {
+	if iotest.FileHash(t, src) != h || w.Backup != "" || w.Path != dst {
 		t.Errorf("source changed or unexpected backup: %+v", w)
 	}
-	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: dst}); !errors.Is(err, ErrTargetExists) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: dst}); !errors.Is(err, ErrTargetExists) {
 		t.Errorf("second copy onto the first: %v", err)
 	}
-	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: src}); !errors.Is(err, ErrSameFile) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: src}); !errors.Is(err, ErrSameFile) {
 		t.Errorf("copy onto the source: %v", err)
 	}
 }
 
 func TestWriteBesideCSV(t *testing.T) {
 	dir := t.TempDir()
-	src := writeFile(t, dir, "survey.csv", []byte("id;score;group\n1;1,25;A\n\n2;0,12345678901234567;B\n"))
-	h := fileHash(t, src)
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{})
+	src := iotest.WriteFile(t, dir, "survey.csv", []byte("id;score;group\n1;1,25;A\n\n2;0,12345678901234567;B\n"))
+	h := iotest.FileHash(t, src)
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if w.Path != filepath.Join(dir, "survey results.xlsx") || fileHash(t, src) != h {
+	if w.Path != filepath.Join(dir, "survey results.xlsx") || iotest.FileHash(t, src) != h {
 		t.Fatalf("written %+v; the CSV must stay as it was", w)
 	}
 	rows := rawRows(t, w.Path)
@@ -397,10 +260,10 @@ func TestWriteBesideCSV(t *testing.T) {
 	if a.CellRef(a.Column("score"), 1) != "cell B4" || b.Column("score").Numbers[1] != a.Column("score").Numbers[1] {
 		t.Errorf("CSV and its data sheet differ: %v vs %v", a.Column("score").Numbers, b.Column("score").Numbers)
 	}
-	if _, err := WriteResults(src, resultsGrid(t), WriteOptions{}); !errors.Is(err, ErrTargetExists) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{}); !errors.Is(err, ErrTargetExists) {
 		t.Errorf("second run without replace: %v", err)
 	}
-	w2, err := WriteResults(src, resultsGrid(t), WriteOptions{Replace: true})
+	w2, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{Replace: true})
 	if err != nil || w2.Backup == "" {
 		t.Errorf("second run with replace: %+v %v", w2, err)
 	}
@@ -427,8 +290,8 @@ func TestWriteBesideCSVCopyData(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			dir := t.TempDir()
 			// four lines, the last without a line break
-			src := writeFile(t, dir, "survey.csv", []byte("id,score\n1,2.5\n2,3.5\n3,4.5"))
-			w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyData: c.copyData, CopyDataLines: c.lines})
+			src := iotest.WriteFile(t, dir, "survey.csv", []byte("id,score\n1,2.5\n2,3.5\n3,4.5"))
+			w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyData: c.copyData, CopyDataLines: c.lines})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -455,7 +318,7 @@ func TestCountLines(t *testing.T) {
 		text       string
 		most, want int
 	}{{"", 10, 0}, {"a", 10, 1}, {"a\n", 10, 1}, {"a\nb", 10, 2}, {"a\r\nb\r\n", 10, 2}, {"a\nb\nc\nd\n", 2, 3}} {
-		got, err := countLines(writeFile(t, dir, "f.csv", []byte(c.text)), c.most)
+		got, err := save.CountLines(iotest.WriteFile(t, dir, "f.csv", []byte(c.text)), c.most)
 		if err != nil || got != c.want {
 			t.Errorf("countLines(%q, %d) = %d, %v; want %d", c.text, c.most, got, err, c.want)
 		}
@@ -464,13 +327,13 @@ func TestCountLines(t *testing.T) {
 
 func TestWriteCopyOfWorkbookWithLostFeature(t *testing.T) {
 	dir := t.TempDir()
-	src := withWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).write(t, dir, "shared.xlsx")
-	h := fileHash(t, src)
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "shared copy.xlsx")})
+	src := iotest.WithWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`).Write(t, dir, "shared.xlsx")
+	h := iotest.FileHash(t, src)
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "shared copy.xlsx")})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if len(w.Lost) != 1 || w.Lost[0] != "a read-only recommendation or a password to modify" || fileHash(t, src) != h {
+	if len(w.Lost) != 1 || w.Lost[0] != "a read-only recommendation or a password to modify" || iotest.FileHash(t, src) != h {
 		t.Errorf("copy: %+v", w)
 	}
 }
@@ -482,7 +345,7 @@ func TestReplaceFailureIsNamed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	err = replaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
+	err = save.ReplaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
 	if !errors.Is(err, ErrCannotReplace) || !strings.HasPrefix(err.Error(), fmt.Sprintf("%q: ", target)) {
 		t.Errorf("rename failure: %v", err)
 	}
@@ -490,7 +353,7 @@ func TestReplaceFailureIsNamed(t *testing.T) {
 
 func TestWriteThroughSymlink(t *testing.T) {
 	dir := t.TempDir()
-	real := simpleBook().write(t, dir, "real.xlsx")
+	real := iotest.SimpleBook().Write(t, dir, "real.xlsx")
 	link := filepath.Join(dir, "link.xlsx")
 	if err := os.Symlink(real, link); err != nil {
 		t.Skip("no symbolic links here")
@@ -499,7 +362,7 @@ func TestWriteThroughSymlink(t *testing.T) {
 		// Wine 8 makes a link that its own file calls do not follow.
 		t.Skip("Wine's symbolic links are not Windows'")
 	}
-	if _, err := WriteResults(link, resultsGrid(t), WriteOptions{}); err != nil {
+	if _, err := WriteResults(link, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
 	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
@@ -512,20 +375,20 @@ func TestWriteThroughSymlink(t *testing.T) {
 
 func TestWorkbookChangedMeanwhile(t *testing.T) {
 	dir := t.TempDir()
-	path := simpleBook().write(t, dir, "busy.xlsx")
-	saved := visitsBook().bytes(t) // what another program saved meanwhile
-	beforeReplace = func(p string) {
+	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
+	saved := iotest.VisitsBook().Bytes(t) // what another program saved meanwhile
+	save.BeforeReplace = func(p string) {
 		if err := os.WriteFile(p, saved, 0o644); err != nil {
 			t.Error(err)
 		}
 	}
-	defer func() { beforeReplace = func(string) {} }()
-	_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	defer func() { save.BeforeReplace = func(string) {} }()
+	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	want := fmt.Sprintf("%q: %s (another program saved it while the results were being written)", path, ErrChangedSinceRead)
 	if !errors.Is(err, ErrChangedSinceRead) || err.Error() != want {
 		t.Errorf("got %v\nwant %s", err, want)
 	}
-	if fileHash(t, path) != sha(saved) {
+	if iotest.FileHash(t, path) != iotest.SHA(saved) {
 		t.Error("the other program's save was overwritten")
 	}
 }
@@ -534,7 +397,7 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 // Windows' ReplaceFileW), exchange leaves each file's content at the other
 // name and nothing else in the folder; twice, each is back.
 func TestExchangeSwaps(t *testing.T) {
-	if exchange("", "") == errNoExchange {
+	if save.Exchange("", "") == save.ErrNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
@@ -546,7 +409,7 @@ func TestExchangeSwaps(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i, want := range [][2]string{{"old", "new"}, {"new", "old"}} {
-		if err := exchange(a, b); err != nil {
+		if err := save.Exchange(a, b); err != nil {
 			t.Fatalf("exchange %d: %v", i+1, err)
 		}
 		ga, _ := os.ReadFile(a)
@@ -566,14 +429,14 @@ func TestExchangeSwaps(t *testing.T) {
 // version is in place, no backup of the version analysed is left, and
 // the save is refused.
 func TestEditAtTheExchange(t *testing.T) {
-	if exchange("", "") == errNoExchange {
+	if save.Exchange("", "") == save.ErrNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
-	path := simpleBook().write(t, dir, "busy.xlsx")
-	saved := visitsBook().bytes(t)
+	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
+	saved := iotest.VisitsBook().Bytes(t)
 	calls := 0
-	afterExchange = func(swappedOut string) {
+	save.AfterExchange = func(swappedOut string) {
 		calls++
 		// The other program writes where the workbook is now; a real
 		// program's save lands in the moment before the exchange, which
@@ -582,12 +445,12 @@ func TestEditAtTheExchange(t *testing.T) {
 			t.Error(err)
 		}
 	}
-	defer func() { afterExchange = func(string) {} }()
-	_, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+	defer func() { save.AfterExchange = func(string) {} }()
+	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	if !errors.Is(err, ErrChangedSinceRead) || calls != 1 {
 		t.Fatalf("got %v after %d exchange(s)", err, calls)
 	}
-	if fileHash(t, path) != sha(saved) {
+	if iotest.FileHash(t, path) != iotest.SHA(saved) {
 		t.Error("the other program's version is not in place")
 	}
 	if names, _ := os.ReadDir(dir); len(names) != 1 {
@@ -601,7 +464,7 @@ func TestEditAtTheExchange(t *testing.T) {
 // for a number stored as text (the limit noted in pointOnlyColumns).
 func TestWriteBesideCSVPointInCommaFile(t *testing.T) {
 	dir := t.TempDir()
-	src := writeFile(t, dir, "mixed.csv", []byte("id;v\n1;1,5\n2;1.5\n3;2,25\n"))
+	src := iotest.WriteFile(t, dir, "mixed.csv", []byte("id;v\n1;1,5\n2;1.5\n3;2,25\n"))
 	a, err := Read(context.Background(), src, Options{})
 	if err != nil {
 		t.Fatal(err)
@@ -609,7 +472,7 @@ func TestWriteBesideCSVPointInCommaFile(t *testing.T) {
 	if v := a.Column("v"); v.Kind != Number || v.Missing[1] != TextInNumbers {
 		t.Fatalf("the CSV's column v: %v, reasons %v", v.Kind, v.Missing)
 	}
-	w, err := WriteResults(src, resultsGrid(t), WriteOptions{})
+	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)
 	}
