@@ -1,6 +1,6 @@
 //go:build linux
 
-package workbook
+package save
 
 import (
 	"errors"
@@ -14,6 +14,7 @@ import (
 	"testing"
 
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
 )
 
 // smallDisk mounts a file system of size bytes (tmpfs) for the test, or
@@ -113,7 +114,7 @@ func TestFullDisk(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			leaveFree(t, dir, c.free)
 			_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
-			if !errors.Is(err, ErrNoSpace) || !errors.Is(err, syscall.ENOSPC) {
+			if !errors.Is(err, table.ErrNoSpace) || !errors.Is(err, syscall.ENOSPC) {
 				t.Errorf("got %v, want the full disk named", err)
 			}
 			if iotest.HashIfFile(path) != iotest.SHA(orig) {
@@ -156,13 +157,13 @@ func TestFullDiskCSV(t *testing.T) {
 	// what is left beside it.
 	leaveFree(t, dir, 64<<10)
 	_, err := WriteResults(csv, iotest.ResultsGrid(t), WriteOptions{CopyData: CopyDataAlways})
-	if !errors.Is(err, ErrNoSpace) {
+	if !errors.Is(err, table.ErrNoSpace) {
 		t.Errorf("the CSV's results: got %v, want the full disk named", err)
 	}
 	whole := filepath.Join(dir, "demo.xlsx")
 	data := make([]byte, 256<<10)
 	copy(data, iotest.SimpleBook().Bytes(t))
-	if err := WriteWhole(whole, data, 0o644); !errors.Is(err, ErrNoSpace) {
+	if err := WriteWhole(whole, data, 0o644); !errors.Is(err, table.ErrNoSpace) {
 		t.Errorf("a file written whole: got %v, want the full disk named", err)
 	}
 	noneOpen(t, dir)

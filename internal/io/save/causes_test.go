@@ -1,6 +1,6 @@
 //go:build unix
 
-package workbook
+package save
 
 import (
 	"context"
@@ -14,9 +14,9 @@ import (
 	"testing"
 	"time"
 
-	"slopewise/internal/io/save"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
+	"slopewise/internal/io/xlsx"
 )
 
 // TestReadOnlyWorkbookNotReplaced: a workbook of mode 0444 is read-only,
@@ -30,7 +30,7 @@ func TestReadOnlyWorkbookNotReplaced(t *testing.T) {
 	}
 	before := iotest.HashIfFile(p)
 	_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
-	if !errors.Is(err, ErrReadOnlyFile) || !strings.Contains(err.Error(), "save the results to a copy") {
+	if !errors.Is(err, table.ErrReadOnlyFile) || !strings.Contains(err.Error(), "save the results to a copy") {
 		t.Fatalf("got %v", err)
 	}
 	if iotest.HashIfFile(p) != before {
@@ -54,7 +54,7 @@ func TestNameTooLong(t *testing.T) {
 	p := iotest.SimpleBook().Write(t, dir, name)
 	before := iotest.HashIfFile(p)
 	_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
-	if !errors.Is(err, ErrNameTooLong) {
+	if !errors.Is(err, table.ErrNameTooLong) {
 		t.Fatalf("got %v", err)
 	}
 	if iotest.HashIfFile(p) != before {
@@ -71,10 +71,10 @@ func TestWriteErrorCauses(t *testing.T) {
 		errno syscall.Errno
 		cause error
 	}{
-		{syscall.ENOSPC, ErrNoSpace}, {syscall.ENAMETOOLONG, ErrNameTooLong},
-		{syscall.EROFS, ErrDiskReadOnly}, {syscall.EACCES, ErrFolderReadOnly},
+		{syscall.ENOSPC, table.ErrNoSpace}, {syscall.ENAMETOOLONG, table.ErrNameTooLong},
+		{syscall.EROFS, table.ErrDiskReadOnly}, {syscall.EACCES, table.ErrFolderReadOnly},
 	} {
-		err := save.WriteError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
+		err := WriteError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
 		if !errors.Is(err, c.cause) || !errors.Is(err, c.errno) {
 			t.Errorf("%v: got %v", c.errno, err)
 		}
@@ -134,12 +134,12 @@ func TestDebrisCleaned(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, q := range gone {
-		if save.FileExists(q) {
+		if FileExists(q) {
 			t.Errorf("%s was not removed", filepath.Base(q))
 		}
 	}
 	for _, q := range kept {
-		if !save.FileExists(q) {
+		if !FileExists(q) {
 			t.Errorf("%s was removed", filepath.Base(q))
 		}
 	}
@@ -154,7 +154,7 @@ func TestDebrisCleaned(t *testing.T) {
 func TestChangedAfterRead(t *testing.T) {
 	dir := t.TempDir()
 	p := iotest.SimpleBook().Write(t, dir, "live.xlsx")
-	tab, err := Read(context.Background(), p, Options{})
+	tab, err := Read(context.Background(), p, table.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -166,7 +166,7 @@ func TestChangedAfterRead(t *testing.T) {
 		t.Fatal(err)
 	}
 	_, err = WriteResults(p, iotest.ResultsGrid(t), WriteOptions{Expect: tab.Source})
-	if !errors.Is(err, ErrChangedSinceRead) || !strings.Contains(err.Error(), "run the analysis again") {
+	if !errors.Is(err, table.ErrChangedSinceRead) || !strings.Contains(err.Error(), "run the analysis again") {
 		t.Fatalf("got %v", err)
 	}
 	if iotest.FileHash(t, p) != iotest.SHA(saved) {
@@ -176,7 +176,7 @@ func TestChangedAfterRead(t *testing.T) {
 		t.Errorf("left in the folder: %v", names)
 	}
 	// Unchanged since reading: written.
-	tab, err = Read(context.Background(), p, Options{})
+	tab, err = Read(context.Background(), p, table.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -193,7 +193,7 @@ func TestTwoSavesAtOnce(t *testing.T) {
 	for trial := 0; trial < 5; trial++ {
 		dir := t.TempDir()
 		p := iotest.SimpleBook().Write(t, dir, "shared.xlsx")
-		tab, err := Read(context.Background(), p, Options{})
+		tab, err := Read(context.Background(), p, table.Options{})
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -209,7 +209,7 @@ func TestTwoSavesAtOnce(t *testing.T) {
 			switch err := <-errs; {
 			case err == nil:
 				ok++
-			case errors.Is(err, ErrChangedSinceRead):
+			case errors.Is(err, table.ErrChangedSinceRead):
 				changed++
 			default:
 				t.Errorf("unexpected: %v", err)
@@ -218,7 +218,7 @@ func TestTwoSavesAtOnce(t *testing.T) {
 		if ok != 1 || changed != 1 {
 			t.Fatalf("trial %d: %d written, %d refused as changed", trial, ok, changed)
 		}
-		sheets, err := Sheets(p)
+		sheets, err := xlsx.Sheets(p)
 		if err != nil || len(sheets) != 2 {
 			t.Errorf("sheets %v (%v)", sheets, err)
 		}
@@ -234,14 +234,14 @@ func TestTwoSavesAtOnce(t *testing.T) {
 func TestStaleLockTakenOver(t *testing.T) {
 	dir := t.TempDir()
 	p := iotest.SimpleBook().Write(t, dir, "book.xlsx")
-	lock := save.RunLockName(p)
+	lock := RunLockName(p)
 	if err := os.WriteFile(lock, []byte("2147483646 1\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
-	if save.FileExists(lock) {
+	if FileExists(lock) {
 		t.Error("the lock is still there")
 	}
 }
@@ -289,7 +289,7 @@ func TestReplaceOnlyOurResults(t *testing.T) {
 	iotest.SimpleBook().Write(t, dir, filepath.Base(target)) // the user's own workbook of that name
 	before := iotest.HashIfFile(target)
 	_, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{Replace: true})
-	if !errors.Is(err, ErrTargetExists) || !strings.Contains(err.Error(), "not a workbook of Slopewise's results") {
+	if !errors.Is(err, table.ErrTargetExists) || !strings.Contains(err.Error(), "not a workbook of Slopewise's results") {
 		t.Fatalf("got %v", err)
 	}
 	if iotest.HashIfFile(target) != before {
@@ -317,14 +317,14 @@ func TestWriteWhole(t *testing.T) {
 	if iotest.HashIfFile(p) != iotest.SHA(data) {
 		t.Error("the file is not the data")
 	}
-	if err := WriteWhole(p, []byte("other"), 0o644); !errors.Is(err, ErrTargetExists) {
+	if err := WriteWhole(p, []byte("other"), 0o644); !errors.Is(err, table.ErrTargetExists) {
 		t.Errorf("an existing file: %v", err)
 	}
 	if names, _ := os.ReadDir(dir); len(names) != 1 {
 		t.Errorf("left in the folder: %v", names)
 	}
 	long := filepath.Join(dir, strings.Repeat("d", 250)+".xlsx")
-	if err := WriteWhole(long, data, 0o644); !errors.Is(err, ErrNameTooLong) {
+	if err := WriteWhole(long, data, 0o644); !errors.Is(err, table.ErrNameTooLong) {
 		t.Errorf("a name too long: %v", err)
 	}
 }
@@ -335,7 +335,7 @@ func TestRunLockOneHolder(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "book.xlsx")
 	for trial := 0; trial < 3; trial++ {
-		os.WriteFile(save.RunLockName(p), []byte("999999 1\n"), 0o644)
+		os.WriteFile(RunLockName(p), []byte("999999 1\n"), 0o644)
 		var holders, most int32
 		var mu sync.Mutex
 		var wg sync.WaitGroup
@@ -343,7 +343,7 @@ func TestRunLockOneHolder(t *testing.T) {
 			wg.Add(1)
 			go func() {
 				defer wg.Done()
-				unlock, err := save.TakeRunLock(p)
+				unlock, err := TakeRunLock(p)
 				if err != nil {
 					t.Error(err)
 					return

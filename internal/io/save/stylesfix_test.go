@@ -1,4 +1,4 @@
-package workbook
+package save
 
 import (
 	"context"
@@ -6,9 +6,8 @@ import (
 	"strings"
 	"testing"
 
-	"slopewise/internal/io/table"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
 )
 
 // TestWriteWithoutStyles: a workbook without a styles part, with an empty
@@ -35,14 +34,14 @@ func TestWriteWithoutStyles(t *testing.T) {
 		t.Run(name, func(t *testing.T) {
 			dir := t.TempDir()
 			path := iotest.WriteFile(t, dir, "s.xlsx", make(iotest.SimpleBook()))
-			before, err := Read(context.Background(), path, Options{})
+			before, err := Read(context.Background(), path, table.Options{})
 			if err != nil {
 				t.Fatal(err)
 			}
 			if _, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 				t.Fatalf("writing: %v", err)
 			}
-			after, err := Read(context.Background(), path, Options{Sheet: before.Sheet})
+			after, err := Read(context.Background(), path, table.Options{Sheet: before.Sheet})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -104,7 +103,7 @@ func TestWriteBesideWideCSV(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	data, err := Read(context.Background(), w.Path, Options{Sheet: DataSheetName})
+	data, err := Read(context.Background(), w.Path, table.Options{Sheet: DataSheetName})
 	if err != nil {
 		t.Fatal(err)
 	}

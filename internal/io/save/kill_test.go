@@ -1,6 +1,6 @@
 //go:build linux
 
-package workbook
+package save
 
 import (
 	"bytes"
@@ -13,9 +13,9 @@ import (
 	"testing"
 	"time"
 
-	"slopewise/internal/io/save"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
+	"slopewise/internal/io/xlsx"
 )
 
 // killSteps are the moments of a save at which TestKilledSave kills it:
@@ -48,7 +48,7 @@ func TestKilledSave(t *testing.T) {
 				t.Fatal(err)
 			}
 			deadline := time.Now().Add(30 * time.Second)
-			for !save.FileExists(marker) {
+			for !FileExists(marker) {
 				if time.Now().After(deadline) {
 					cmd.Process.Kill()
 					cmd.Wait()
@@ -64,7 +64,7 @@ func TestKilledSave(t *testing.T) {
 				t.Fatalf("the workbook is gone: %v", err)
 			}
 			if !bytes.Equal(now, orig) {
-				sheets, err := Sheets(path)
+				sheets, err := xlsx.Sheets(path)
 				if err != nil || len(sheets) != 2 {
 					t.Errorf("the workbook is neither the original nor the whole new one: %v %v", sheets, err)
 				}
@@ -82,7 +82,7 @@ func TestKilledSave(t *testing.T) {
 					os.Chtimes(filepath.Join(dir, e.Name()), old, old)
 				}
 			}
-			tab, err := Read(context.Background(), path, Options{Sheet: "Data"})
+			tab, err := Read(context.Background(), path, table.Options{Sheet: "Data"})
 			if err != nil {
 				t.Fatal(err)
 			}
@@ -108,13 +108,13 @@ func killChild(t *testing.T, step, file string) {
 	}
 	switch step {
 	case "built":
-		save.BeforeReplace = stop
+		BeforeReplace = stop
 	case "backup written":
-		save.BeforeBackupNamed = stop
+		BeforeBackupNamed = stop
 	case "backup named":
-		save.BeforeExchange = stop
+		BeforeExchange = stop
 	case "exchanged":
-		save.AfterExchange = stop
+		AfterExchange = stop
 	}
 	WriteResults(file, iotest.ResultsGrid(t), WriteOptions{})
 	t.Fatal("the save ended without being killed")

@@ -1,4 +1,4 @@
-package workbook
+package save
 
 import (
 	"bytes"
@@ -6,7 +6,6 @@ import (
 	"testing"
 
 	"github.com/xuri/excelize/v2"
-
 	"slopewise/internal/io/iotest"
 )
 

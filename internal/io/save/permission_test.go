@@ -1,6 +1,6 @@
 //go:build unix
 
-package workbook
+package save
 
 import (
 	"context"
@@ -15,8 +15,8 @@ import (
 	"testing"
 
 	"github.com/xuri/excelize/v2"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
 )
 
 // asNobodyEnv marks the copy of the test binary that runs as an ordinary
@@ -101,9 +101,9 @@ func TestPermissionRefusals(t *testing.T) {
 		if err := os.Chmod(p, 0); err != nil {
 			t.Fatal(err)
 		}
-		_, err := Read(context.Background(), p, Options{})
-		want := fmt.Sprintf("%q: %s", p, ErrNoReadAccess)
-		if !errors.Is(err, ErrNoReadAccess) || err.Error() != want {
+		_, err := Read(context.Background(), p, table.Options{})
+		want := fmt.Sprintf("%q: %s", p, table.ErrNoReadAccess)
+		if !errors.Is(err, table.ErrNoReadAccess) || err.Error() != want {
 			t.Errorf("got %v\nwant %s", err, want)
 		}
 	})
@@ -118,8 +118,8 @@ func TestPermissionRefusals(t *testing.T) {
 			t.Fatal(err)
 		}
 		_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
-		want := fmt.Sprintf("%q: %s", folder, ErrFolderReadOnly)
-		if !errors.Is(err, ErrFolderReadOnly) || err.Error() != want {
+		want := fmt.Sprintf("%q: %s", folder, table.ErrFolderReadOnly)
+		if !errors.Is(err, table.ErrFolderReadOnly) || err.Error() != want {
 			t.Errorf("got %v\nwant %s", err, want)
 		}
 		if iotest.HashIfFile(p) != before {
@@ -137,8 +137,8 @@ func TestPermissionRefusals(t *testing.T) {
 			t.Fatal(err)
 		}
 		_, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{})
-		want := fmt.Sprintf("%q: %s", p, ErrNoReadAccess)
-		if !errors.Is(err, ErrNoReadAccess) || err.Error() != want {
+		want := fmt.Sprintf("%q: %s", p, table.ErrNoReadAccess)
+		if !errors.Is(err, table.ErrNoReadAccess) || err.Error() != want {
 			t.Errorf("got %v\nwant %s", err, want)
 		}
 	})

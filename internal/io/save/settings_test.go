@@ -1,4 +1,4 @@
-package workbook
+package save
 
 import (
 	"bytes"
@@ -8,9 +8,8 @@ import (
 	"testing"
 	"time"
 
-	"slopewise/internal/io/save"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/xlsx"
 )
 
 // TestInPlaceKeepsWorkbookSettings: a workbook with the settings that
@@ -39,14 +38,14 @@ func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
 			t.Errorf("the new workbook part lacks %s:\n%s", want, wb)
 		}
 	}
-	if lost := save.MissingSettings([]byte(b.WbExtra+b.WbAfter), []byte(wb)); len(lost) > 0 {
+	if lost := MissingSettings([]byte(b.WbExtra+b.WbAfter), []byte(wb)); len(lost) > 0 {
 		t.Errorf("settings not kept: %v", lost)
 	}
 	back, err := os.ReadFile(w.Backup)
 	if err != nil || !bytes.Equal(back, orig) {
 		t.Errorf("the backup %s is not the original (%v)", w.Backup, err)
 	}
-	if _, err := Sheets(path); err != nil {
+	if _, err := xlsx.Sheets(path); err != nil {
 		t.Errorf("the result does not open: %v", err)
 	}
 }
@@ -57,12 +56,12 @@ func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
 func TestRestoreSettings(t *testing.T) {
 	orig := []byte(`<workbook><fileVersion appName="x"/><workbookPr dateCompatibility="0"/><sheets><sheet name="a"/></sheets><calcPr calcId="1" refMode="R1C1"/></workbook>`)
 	body := []byte(`<workbook><fileVersion appName="x"></fileVersion><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2"/></workbook>`)
-	got, changed := save.RestoreSettings(orig, body)
+	got, changed := RestoreSettings(orig, body)
 	want := `<workbook><fileVersion appName="x"></fileVersion><workbookPr dateCompatibility="0"/><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2" refMode="R1C1"/></workbook>`
 	if !changed || string(got) != want {
 		t.Fatalf("got  %s\nwant %s", got, want)
 	}
-	lost := save.MissingSettings(orig, got)
+	lost := MissingSettings(orig, got)
 	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].Name != "calcId" {
 		t.Errorf("a changed value must remain a difference for the check: %v", lost)
 	}
@@ -79,7 +78,7 @@ func TestBackupNamedWhenWhole(t *testing.T) {
 		t.Fatal(err)
 	}
 	seen := false
-	save.BeforeBackupNamed = func(tmp string) {
+	BeforeBackupNamed = func(tmp string) {
 		seen = true
 		body, err := os.ReadFile(tmp)
 		if err != nil || !bytes.Equal(body, orig) {
@@ -90,7 +89,7 @@ func TestBackupNamedWhenWhole(t *testing.T) {
 			t.Errorf("a backup has its name before it is complete: %v", names)
 		}
 	}
-	defer func() { save.BeforeBackupNamed = func(string) {} }()
+	defer func() { BeforeBackupNamed = func(string) {} }()
 	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)

@@ -1,4 +1,4 @@
-package workbook
+package save
 
 import (
 	"bytes"
@@ -16,9 +16,9 @@ import (
 	"time"
 
 	"github.com/xuri/excelize/v2"
-	"slopewise/internal/io/save"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
+	"slopewise/internal/io/xlsx"
 )
 
 // rewrittenParts are the parts excelize always re-serialises on save
@@ -178,7 +178,7 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 		t.Errorf("spec read back %q, %v", spec, err)
 	}
 	// The data sheet still reads as before through our own reader.
-	tab, err := Read(context.Background(), path, Options{Sheet: "Visits"})
+	tab, err := Read(context.Background(), path, table.Options{Sheet: "Visits"})
 	if err != nil || tab.Column("Score").Numbers[0] != 0.1234567 {
 		t.Fatalf("reading the data back: %v", err)
 	}
@@ -190,7 +190,7 @@ func TestWriteResultsRoundTrip(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	sheets, _ := Sheets(path)
+	sheets, _ := xlsx.Sheets(path)
 	if w2.Sheet != "Slopewise results" || len(sheets) != 5 || iotest.FileHash(t, w2.Backup) != hash1 {
 		t.Errorf("replace: %+v, %d sheets", w2, len(sheets))
 	}
@@ -220,10 +220,10 @@ func TestWriteCopyKeepsSource(t *testing.T) {
 	if iotest.FileHash(t, src) != h || w.Backup != "" || w.Path != dst {
 		t.Errorf("source changed or unexpected backup: %+v", w)
 	}
-	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: dst}); !errors.Is(err, ErrTargetExists) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: dst}); !errors.Is(err, table.ErrTargetExists) {
 		t.Errorf("second copy onto the first: %v", err)
 	}
-	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: src}); !errors.Is(err, ErrSameFile) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{CopyTo: src}); !errors.Is(err, table.ErrSameFile) {
 		t.Errorf("copy onto the source: %v", err)
 	}
 }
@@ -249,18 +249,18 @@ func TestWriteBesideCSV(t *testing.T) {
 		t.Errorf("no results sheet: %v", rows)
 	}
 	// The data sheet reads back as the CSV did, with the same cell references.
-	a, err := Read(context.Background(), src, Options{})
+	a, err := Read(context.Background(), src, table.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	b, err := Read(context.Background(), w.Path, Options{Sheet: DataSheetName})
+	b, err := Read(context.Background(), w.Path, table.Options{Sheet: DataSheetName})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if a.CellRef(a.Column("score"), 1) != "cell B4" || b.Column("score").Numbers[1] != a.Column("score").Numbers[1] {
 		t.Errorf("CSV and its data sheet differ: %v vs %v", a.Column("score").Numbers, b.Column("score").Numbers)
 	}
-	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{}); !errors.Is(err, ErrTargetExists) {
+	if _, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{}); !errors.Is(err, table.ErrTargetExists) {
 		t.Errorf("second run without replace: %v", err)
 	}
 	w2, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{Replace: true})
@@ -318,7 +318,7 @@ func TestCountLines(t *testing.T) {
 		text       string
 		most, want int
 	}{{"", 10, 0}, {"a", 10, 1}, {"a\n", 10, 1}, {"a\nb", 10, 2}, {"a\r\nb\r\n", 10, 2}, {"a\nb\nc\nd\n", 2, 3}} {
-		got, err := save.CountLines(iotest.WriteFile(t, dir, "f.csv", []byte(c.text)), c.most)
+		got, err := CountLines(iotest.WriteFile(t, dir, "f.csv", []byte(c.text)), c.most)
 		if err != nil || got != c.want {
 			t.Errorf("countLines(%q, %d) = %d, %v; want %d", c.text, c.most, got, err, c.want)
 		}
@@ -345,8 +345,8 @@ func TestReplaceFailureIsNamed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	err = save.ReplaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
-	if !errors.Is(err, ErrCannotReplace) || !strings.HasPrefix(err.Error(), fmt.Sprintf("%q: ", target)) {
+	err = ReplaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
+	if !errors.Is(err, table.ErrCannotReplace) || !strings.HasPrefix(err.Error(), fmt.Sprintf("%q: ", target)) {
 		t.Errorf("rename failure: %v", err)
 	}
 }
@@ -368,7 +368,7 @@ func TestWriteThroughSymlink(t *testing.T) {
 	if fi, err := os.Lstat(link); err != nil || fi.Mode()&os.ModeSymlink == 0 {
 		t.Error("the link was replaced by a file")
 	}
-	if sheets, _ := Sheets(real); len(sheets) != 2 {
+	if sheets, _ := xlsx.Sheets(real); len(sheets) != 2 {
 		t.Errorf("the linked file has sheets %v", sheets)
 	}
 }
@@ -377,15 +377,15 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 	dir := t.TempDir()
 	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
 	saved := iotest.VisitsBook().Bytes(t) // what another program saved meanwhile
-	save.BeforeReplace = func(p string) {
+	BeforeReplace = func(p string) {
 		if err := os.WriteFile(p, saved, 0o644); err != nil {
 			t.Error(err)
 		}
 	}
-	defer func() { save.BeforeReplace = func(string) {} }()
+	defer func() { BeforeReplace = func(string) {} }()
 	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
-	want := fmt.Sprintf("%q: %s (another program saved it while the results were being written)", path, ErrChangedSinceRead)
-	if !errors.Is(err, ErrChangedSinceRead) || err.Error() != want {
+	want := fmt.Sprintf("%q: %s (another program saved it while the results were being written)", path, table.ErrChangedSinceRead)
+	if !errors.Is(err, table.ErrChangedSinceRead) || err.Error() != want {
 		t.Errorf("got %v\nwant %s", err, want)
 	}
 	if iotest.FileHash(t, path) != iotest.SHA(saved) {
@@ -397,7 +397,7 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 // Windows' ReplaceFileW), exchange leaves each file's content at the other
 // name and nothing else in the folder; twice, each is back.
 func TestExchangeSwaps(t *testing.T) {
-	if save.Exchange("", "") == save.ErrNoExchange {
+	if Exchange("", "") == ErrNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
@@ -409,7 +409,7 @@ func TestExchangeSwaps(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i, want := range [][2]string{{"old", "new"}, {"new", "old"}} {
-		if err := save.Exchange(a, b); err != nil {
+		if err := Exchange(a, b); err != nil {
 			t.Fatalf("exchange %d: %v", i+1, err)
 		}
 		ga, _ := os.ReadFile(a)
@@ -429,14 +429,14 @@ func TestExchangeSwaps(t *testing.T) {
 // version is in place, no backup of the version analysed is left, and
 // the save is refused.
 func TestEditAtTheExchange(t *testing.T) {
-	if save.Exchange("", "") == save.ErrNoExchange {
+	if Exchange("", "") == ErrNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
 	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
 	saved := iotest.VisitsBook().Bytes(t)
 	calls := 0
-	save.AfterExchange = func(swappedOut string) {
+	AfterExchange = func(swappedOut string) {
 		calls++
 		// The other program writes where the workbook is now; a real
 		// program's save lands in the moment before the exchange, which
@@ -445,9 +445,9 @@ func TestEditAtTheExchange(t *testing.T) {
 			t.Error(err)
 		}
 	}
-	defer func() { save.AfterExchange = func(string) {} }()
+	defer func() { AfterExchange = func(string) {} }()
 	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
-	if !errors.Is(err, ErrChangedSinceRead) || calls != 1 {
+	if !errors.Is(err, table.ErrChangedSinceRead) || calls != 1 {
 		t.Fatalf("got %v after %d exchange(s)", err, calls)
 	}
 	if iotest.FileHash(t, path) != iotest.SHA(saved) {
@@ -465,11 +465,11 @@ func TestEditAtTheExchange(t *testing.T) {
 func TestWriteBesideCSVPointInCommaFile(t *testing.T) {
 	dir := t.TempDir()
 	src := iotest.WriteFile(t, dir, "mixed.csv", []byte("id;v\n1;1,5\n2;1.5\n3;2,25\n"))
-	a, err := Read(context.Background(), src, Options{})
+	a, err := Read(context.Background(), src, table.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	if v := a.Column("v"); v.Kind != Number || v.Missing[1] != TextInNumbers {
+	if v := a.Column("v"); v.Kind != table.Number || v.Missing[1] != table.TextInNumbers {
 		t.Fatalf("the CSV's column v: %v, reasons %v", v.Kind, v.Missing)
 	}
 	w, err := WriteResults(src, iotest.ResultsGrid(t), WriteOptions{})

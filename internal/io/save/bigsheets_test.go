@@ -1,4 +1,4 @@
-package workbook
+package save
 
 import (
 	"archive/zip"
@@ -9,9 +9,8 @@ import (
 	"path/filepath"
 	"testing"
 
-	"slopewise/internal/io/save"
-
 	"slopewise/internal/io/iotest"
+	"slopewise/internal/io/table"
 )
 
 // TestBigSheetsKept lowers the size from which worksheets are kept from
@@ -19,9 +18,9 @@ import (
 // did, and after the results are added in place every original sheet's
 // part is the original's, byte for byte, still packed.
 func TestBigSheetsKept(t *testing.T) {
-	old := save.BigSheet
-	save.BigSheet = 1 << 10
-	defer func() { save.BigSheet = old }()
+	old := BigSheet
+	BigSheet = 1 << 10
+	defer func() { BigSheet = old }()
 	rows := []string{iotest.Row(1, iotest.Inl("A1", "id"), iotest.Inl("B1", "score"), iotest.Inl("C1", "group"))}
 	for i := 2; i < 400; i++ {
 		rows = append(rows, iotest.Row(i, iotest.Num(fmt.Sprintf("A%d", i), fmt.Sprint(i)), iotest.Num(fmt.Sprintf("B%d", i), fmt.Sprint(i%17)), iotest.Sst(fmt.Sprintf("C%d", i), i%2)))
@@ -30,13 +29,13 @@ func TestBigSheetsKept(t *testing.T) {
 	dir := t.TempDir()
 	// Stored, not deflated, so that a part excelize packs again differs.
 	path := iotest.WriteFile(t, dir, "big.xlsx", stored(t, b.Bytes(t)))
-	before, err := Read(context.Background(), path, Options{})
+	before, err := Read(context.Background(), path, table.Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
-	save.BigSheet = old
-	want, err := Read(context.Background(), path, Options{})
-	save.BigSheet = 1 << 10
+	BigSheet = old
+	want, err := Read(context.Background(), path, table.Options{})
+	BigSheet = 1 << 10
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -62,17 +61,17 @@ func TestBigSheetsKept(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !save.SameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
+	if !SameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
 		t.Error("the big sheet's part was not kept as it was")
 	}
-	after, err := Read(context.Background(), w.Path, Options{Sheet: "Visits"})
+	after, err := Read(context.Background(), w.Path, table.Options{Sheet: "Visits"})
 	if err != nil {
 		t.Fatal(err)
 	}
 	if d := iotest.SameTables(before, after); d != "" {
 		t.Errorf("the sheet reads differently after the results were added: %s", d)
 	}
-	if _, err := Read(context.Background(), w.Path, Options{Sheet: w.Sheet}); err != nil {
+	if _, err := Read(context.Background(), w.Path, table.Options{Sheet: w.Sheet}); err != nil {
 		t.Errorf("the results sheet: %v", err)
 	}
 }
