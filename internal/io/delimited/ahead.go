@@ -43,14 +43,14 @@ type aheadRow struct {
 	num, line, cells int
 }
 
-// AheadRows is how many rows a batch holds at most (a variable for
+// aheadRows is how many rows a batch holds at most (a variable for
 // tests), and aheadBytes about how many bytes of text: a batch ends at
 // the row that reaches it.
-var AheadRows = 256
+var aheadRows = 256
 
 const aheadBytes = 4 << 20
 
-func NewAheadSource(scan *csvScanner) *aheadSource {
+func newAheadSource(scan *csvScanner) *aheadSource {
 	a := &aheadSource{scan: scan, ready: make(chan *rowBatch, 4), spare: make(chan *rowBatch, 6),
 		stop: make(chan struct{}), done: make(chan struct{})}
 	go a.fill()
@@ -69,7 +69,7 @@ func (a *aheadSource) fill() {
 			b = &rowBatch{}
 		}
 		b.rows, b.cols, b.starts, b.ends, b.arena, b.err = b.rows[:0], b.cols[:0], b.starts[:0], b.ends[:0], b.arena[:0], nil
-		for len(b.rows) < AheadRows && len(b.arena) < aheadBytes {
+		for len(b.rows) < aheadRows && len(b.arena) < aheadBytes {
 			line, err := a.scan.advance()
 			if err != nil {
 				b.err = err

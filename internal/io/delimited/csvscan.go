@@ -42,13 +42,13 @@ type csvScanner struct {
 	endLine   int
 }
 
-// ErrScannerRefused marks a record that the scanner leaves to encoding/csv.
-var ErrScannerRefused = errors.New("the fast text reader leaves this record to the standard one")
+// errScannerRefused marks a record that the scanner leaves to encoding/csv.
+var errScannerRefused = errors.New("the fast text reader leaves this record to the standard one")
 
 // OpenScanner opens a text file whose format has been sniffed.
 func OpenScanner(path string, tf *table.TextFormat) (*csvScanner, error) {
 	if tf.Delimiter >= 0x80 {
-		return nil, fmt.Errorf("%w: delimiter %q", ErrScannerRefused, tf.Delimiter)
+		return nil, fmt.Errorf("%w: delimiter %q", errScannerRefused, tf.Delimiter)
 	}
 	f, err := os.Open(path)
 	if err != nil {
@@ -118,7 +118,7 @@ func (s *csvScanner) readRecord() error {
 	posLine := s.numLine
 	d := s.delim
 	refused := func() error {
-		return fmt.Errorf("%w: a quote out of place on line %d", ErrScannerRefused, s.numLine)
+		return fmt.Errorf("%w: a quote out of place on line %d", errScannerRefused, s.numLine)
 	}
 parseField:
 	for {
@@ -220,7 +220,7 @@ func (s *csvScanner) advance() (line int, err error) {
 			return 0, io.EOF
 		}
 		var pe *csv.ParseError
-		if errors.Is(err, ErrScannerRefused) || errors.As(err, &pe) {
+		if errors.Is(err, errScannerRefused) || errors.As(err, &pe) {
 			return 0, err
 		}
 		return 0, &table.Error{Path: s.path, Cause: table.ErrNotText, Underlying: err}

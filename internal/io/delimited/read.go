@@ -12,7 +12,7 @@ import (
 func Read(ctx context.Context, path string, opts table.Options) (*table.Table, error) {
 	info, _ := os.Stat(path)
 	tbl := &table.Table{Path: path, Source: info}
-	src, tf, err := OpenText(path)
+	src, tf, err := openText(path)
 	tbl.Text = tf
 	dc := false
 	if tf != nil {

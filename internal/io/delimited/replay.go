@@ -37,8 +37,8 @@ import (
 type replay struct {
 	names []string
 	size  int
-	F     *os.File
-	Path  string // still to remove, where an open file cannot be removed
+	f     *os.File
+	path  string // still to remove, where an open file cannot be removed
 	w     *bufio.Writer
 	bytes int64
 	rows  int  // the rows recorded
@@ -60,12 +60,12 @@ func newReplay(names []string, size int) *replay {
 	if err != nil {
 		return nil
 	}
-	return &replay{names: slices.Clone(names), size: size, F: f, Path: path, w: bufio.NewWriterSize(f, 1<<20)}
+	return &replay{names: slices.Clone(names), size: size, f: f, path: path, w: bufio.NewWriterSize(f, 1<<20)}
 }
 
-// Matches reports whether a pass over names in chunks of size can be
+// matches reports whether a pass over names in chunks of size can be
 // replayed.
-func (r *replay) Matches(names []string, size int) bool {
+func (r *replay) matches(names []string, size int) bool {
 	return r != nil && r.done && r.size == size && slices.Equal(r.names, names)
 }
 
@@ -144,9 +144,9 @@ func (r *replay) close() {
 	if r == nil {
 		return
 	}
-	r.F.Close()
-	if r.Path != "" {
-		os.Remove(r.Path)
+	r.f.Close()
+	if r.path != "" {
+		os.Remove(r.path)
 	}
 }
 
@@ -158,10 +158,10 @@ var errBadReplay = errors.New("the pass's temporary copy does not read back")
 // given to each, so that a pass that meets errBadReplay can go on from
 // there.
 func (r *replay) play(ctx context.Context, cols []*chunkColumn, out []*table.Column, each func(rows []int, cols []*table.Column) error) (played int, err error) {
-	if _, err := r.F.Seek(0, io.SeekStart); err != nil {
+	if _, err := r.f.Seek(0, io.SeekStart); err != nil {
 		return 0, errBadReplay
 	}
-	br := bufio.NewReaderSize(r.F, 1<<20)
+	br := bufio.NewReaderSize(r.f, 1<<20)
 	var rows []int
 	var frame, raw []byte
 	var cr bytes.Reader

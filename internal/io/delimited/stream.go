@@ -31,14 +31,14 @@ type Stream struct {
 
 	tf     *table.TextFormat
 	file   os.FileInfo // the file as surveyed
-	Replay *replay     // the first pass's chunks, for the passes after it
+	replay *replay     // the first pass's chunks, for the passes after it
 }
 
 // Close removes the temporary copy of the first pass's chunks, if any.
 // The Stream's passes parse the file again after it.
 func (s *Stream) Close() {
-	s.Replay.close()
-	s.Replay = nil
+	s.replay.close()
+	s.replay = nil
 }
 
 // ErrChangedWhileRead is the cause of a pass that did not see the rows
@@ -69,7 +69,7 @@ func OpenStream(ctx context.Context, path string, opts table.Options) (*Stream, 
 	if err != nil {
 		return nil, err
 	}
-	src := NewAheadSource(scan)
+	src := newAheadSource(scan)
 	defer src.Close()
 	t := &table.Table{Path: path, Text: tf}
 	if tf.Encoding != "UTF-8" {
@@ -223,8 +223,8 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		out[i] = &c.Column
 	}
 	skip := 0 // chunks already given from a replay that broke off
-	if s.Replay.Matches(names, size) {
-		played, err := s.Replay.play(ctx, cols, out, each)
+	if s.replay.matches(names, size) {
+		played, err := s.replay.play(ctx, cols, out, each)
 		if ctx.Err() != nil && err == ctx.Err() {
 			return &table.Error{Path: s.Outline.Path, Cause: table.ErrCancelled, Underlying: err}
 		}
@@ -243,13 +243,13 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 	if err != nil {
 		return err
 	}
-	src := NewAheadSource(scan)
+	src := newAheadSource(scan)
 	defer src.Close()
 	var rec *replay
-	if s.Replay == nil && skip == 0 {
+	if s.replay == nil && skip == 0 {
 		rec = newReplay(names, size)
 		defer func() {
-			if rec != nil && s.Replay != rec {
+			if rec != nil && s.replay != rec {
 				rec.close()
 			}
 		}()
@@ -309,14 +309,14 @@ func (s *Stream) Pass(ctx context.Context, names []string, size int, each func(r
 		return &table.Error{Path: s.Outline.Path, Cause: ErrChangedWhileRead, Detail: fmt.Sprintf("%d data rows were read first, %d now", s.Rows, seen)}
 	}
 	if rec != nil && rec.finish(cols) {
-		s.Replay = rec
+		s.replay = rec
 	}
 	return nil
 }
 
-// InternLimit bounds the texts a column keeps one copy of (a variable
+// internLimit bounds the texts a column keeps one copy of (a variable
 // for tests).
-var InternLimit = 1 << 16
+var internLimit = 1 << 16
 
 // chunkColumn is one column of a chunk, filled cell by cell.
 type chunkColumn struct {
@@ -401,7 +401,7 @@ func (c *chunkColumn) keep(s string) (string, uint32) {
 		return c.texts[id-1], id
 	}
 	k := strings.Clone(s)
-	if len(c.texts) >= InternLimit {
+	if len(c.texts) >= internLimit {
 		return k, 0
 	}
 	c.texts = append(c.texts, k)

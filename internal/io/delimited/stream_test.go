@@ -25,11 +25,11 @@ import (
 func TestStreamMatchesRead(t *testing.T) {
 	// Batches of a few rows, so that the survey's read-ahead crosses
 	// batches often.
-	defer func(n int) { AheadRows = n }(AheadRows)
-	AheadRows = 5
+	defer func(n int) { aheadRows = n }(aheadRows)
+	aheadRows = 5
 	// Few texts kept once, so that replays write most texts out whole.
-	defer func(n int) { InternLimit = n }(InternLimit)
-	InternLimit = 3
+	defer func(n int) { internLimit = n }(internLimit)
+	internLimit = 3
 	dir := t.TempDir()
 	rng := rand.New(rand.NewPCG(3, 9))
 	for n := 0; n < 60; n++ {
@@ -70,7 +70,7 @@ func compareStream(t *testing.T, path string, opts table.Options) {
 	// The first pass parses the file and keeps a replay; the second plays
 	// it back; both must give Read's cells.
 	for pass := range 2 {
-		if pass == 1 && !s.Replay.Matches(names, 7) {
+		if pass == 1 && !s.replay.matches(names, 7) {
 			t.Fatalf("%s: no replay after the first pass", path)
 		}
 		comparePass(t, s, want, names, path)
@@ -149,7 +149,7 @@ func compareScanner(t *testing.T, name string, in []byte) {
 	if err != nil {
 		return
 	}
-	std, _, err := OpenText(path)
+	std, _, err := openText(path)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -166,7 +166,7 @@ func compareScanner(t *testing.T, name string, in []byte) {
 			if (e1 == io.EOF) != (e2 == io.EOF) || (e1 == nil) != (e2 == nil) {
 				t.Fatalf("%s, record %d: encoding/csv says %v, the scanner %v", name, rec, e1, e2)
 			}
-			if e2 != nil && e2 != io.EOF && !errors.Is(e2, ErrScannerRefused) {
+			if e2 != nil && e2 != io.EOF && !errors.Is(e2, errScannerRefused) {
 				t.Fatalf("%s, record %d: the scanner fails with %v", name, rec, e2)
 			}
 			return
@@ -270,15 +270,15 @@ func TestReplayFallsBack(t *testing.T) {
 	if err := s.Pass(context.Background(), names, 7, func([]int, []*table.Column) error { return stop }); err != stop {
 		t.Fatalf("stopped pass: %v", err)
 	}
-	if s.Replay != nil {
+	if s.replay != nil {
 		t.Fatal("a pass that ended early kept a replay")
 	}
 	comparePass(t, s, want, names, path)
-	if !s.Replay.Matches(names, 7) || s.Replay.Matches(names[:1], 7) || s.Replay.Matches(names, 8) {
+	if !s.replay.matches(names, 7) || s.replay.matches(names[:1], 7) || s.replay.matches(names, 8) {
 		t.Fatal("the replay does not match the pass it recorded, or matches another")
 	}
-	if s.Replay.Path != "" {
-		t.Errorf("the replay file %s was not removed while open", s.Replay.Path)
+	if s.replay.path != "" {
+		t.Errorf("the replay file %s was not removed while open", s.replay.path)
 	}
 	chunks := 0
 	if err := s.Pass(context.Background(), names[:1], 7, func([]int, []*table.Column) error { chunks++; return nil }); err != nil || chunks != (want.Len()+6)/7 {
@@ -295,7 +295,7 @@ func TestReplayFallsBack(t *testing.T) {
 	// ends, and flip one bit in the middle.
 	chunkEnd := int64(0)
 	for _, cut := range []string{"middle", "end of a chunk", "flipped bit"} {
-		info, err := s.Replay.F.Stat()
+		info, err := s.replay.f.Stat()
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -305,27 +305,27 @@ func TestReplayFallsBack(t *testing.T) {
 			size = chunkEnd
 		case "flipped bit":
 			b := make([]byte, 1)
-			if _, err := s.Replay.F.ReadAt(b, size); err != nil {
+			if _, err := s.replay.f.ReadAt(b, size); err != nil {
 				t.Fatal(err)
 			}
 			b[0] ^= 0x10
-			if _, err := s.Replay.F.WriteAt(b, size); err != nil {
+			if _, err := s.replay.f.WriteAt(b, size); err != nil {
 				t.Fatal(err)
 			}
 			size = info.Size()
 		}
-		if err := s.Replay.F.Truncate(size); err != nil {
+		if err := s.replay.f.Truncate(size); err != nil {
 			t.Fatal(err)
 		}
 		comparePass(t, s, want, names, path)
-		if s.Replay != nil {
+		if s.replay != nil {
 			t.Fatalf("cut at the %s: the damaged replay was kept", cut)
 		}
 		comparePass(t, s, want, names, path) // records anew
-		if !s.Replay.Matches(names, 7) {
+		if !s.replay.matches(names, 7) {
 			t.Fatal("no new replay after a damaged one")
 		}
-		chunkEnd = frameEnd(t, s.Replay.F, 2)
+		chunkEnd = frameEnd(t, s.replay.f, 2)
 	}
 	comparePass(t, s, want, names, path)
 }
@@ -356,7 +356,7 @@ func TestAheadMatchesScanner(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ahead := NewAheadSource(two)
+		ahead := newAheadSource(two)
 		for row := 0; ; row++ {
 			n1, c1, e1 := one.Next()
 			n2, c2, e2 := ahead.Next()

@@ -41,9 +41,9 @@ type textSource struct {
 	endLine int
 }
 
-// OpenText sniffs a text file's encoding, delimiter and decimal separator
+// openText sniffs a text file's encoding, delimiter and decimal separator
 // and opens it for reading.
-func OpenText(path string) (table.RowSource, *table.TextFormat, error) {
+func openText(path string) (table.RowSource, *table.TextFormat, error) {
 	tf, err := SniffText(path)
 	if err != nil {
 		return nil, nil, err
@@ -139,8 +139,8 @@ func SniffText(path string) (*table.TextFormat, error) {
 	return tf, nil
 }
 
-// IsASCII reports whether b holds only bytes below 0x80, eight at a time.
-func IsASCII(b []byte) bool {
+// isASCII reports whether b holds only bytes below 0x80, eight at a time.
+func isASCII(b []byte) bool {
 	for len(b) >= 8 {
 		if binary.LittleEndian.Uint64(b)&0x8080808080808080 != 0 {
 			return false
@@ -171,7 +171,7 @@ func scanEncoding(path string, br *bufio.Reader, tf *table.TextFormat) error {
 		if i := bytes.IndexByte(chunk, 0); i >= 0 {
 			return table.Fail(path, table.ErrNotText, fmt.Sprintf("it contains a zero byte at line %d", line+bytes.Count(chunk[:i], []byte{'\n'})))
 		}
-		if bad1252 == 0 && !IsASCII(chunk) {
+		if bad1252 == 0 && !isASCII(chunk) {
 			for i, c := range chunk {
 				if undefined1252[c] {
 					bad1252 = line + bytes.Count(chunk[:i], []byte{'\n'})

@@ -150,7 +150,7 @@ func TestEncodingScanFarDown(t *testing.T) {
 		s    string
 		want bool
 	}{{"", true}, {"abc", true}, {"abcdefgh", true}, {"abcdefgh\x80", false}, {"\xffabcdefgh", false}, {"abcdefghijklmnop\xc3\xa9", false}} {
-		if got := IsASCII([]byte(c.s)); got != c.want {
+		if got := isASCII([]byte(c.s)); got != c.want {
 			t.Errorf("isASCII(%q) = %v", c.s, got)
 		}
 	}

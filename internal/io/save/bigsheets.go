@@ -15,9 +15,9 @@ import (
 	"slopewise/internal/io/xlsx"
 )
 
-// BigSheet is the unpacked size from which a worksheet is kept from
+// bigSheet is the unpacked size from which a worksheet is kept from
 // excelize when the results are written.
-var BigSheet uint64 = 8 << 20
+var bigSheet uint64 = 8 << 20
 
 // buildKeepingSheets is buildInTemp for a workbook whose worksheets may be
 // big: excelize unpacks, and on saving packs again, every worksheet it
@@ -36,7 +36,7 @@ func buildKeepingSheets(target string, base []byte, limit, limitXML int64, stage
 	var small bytes.Buffer
 	zw := zip.NewWriter(&small)
 	for _, f := range zr.File {
-		if xlsx.IsWorksheetPart(f.Name) && f.UncompressedSize64 > BigSheet {
+		if xlsx.IsWorksheetPart(f.Name) && f.UncompressedSize64 > bigSheet {
 			stubbed[strings.ToLower(f.Name)] = f
 			w, err := zw.CreateHeader(&zip.FileHeader{Name: f.Name, Method: zip.Deflate, Modified: f.Modified})
 			if err == nil {

@@ -18,9 +18,9 @@ import (
 // did, and after the results are added in place every original sheet's
 // part is the original's, byte for byte, still packed.
 func TestBigSheetsKept(t *testing.T) {
-	old := BigSheet
-	BigSheet = 1 << 10
-	defer func() { BigSheet = old }()
+	old := bigSheet
+	bigSheet = 1 << 10
+	defer func() { bigSheet = old }()
 	rows := []string{iotest.Row(1, iotest.Inl("A1", "id"), iotest.Inl("B1", "score"), iotest.Inl("C1", "group"))}
 	for i := 2; i < 400; i++ {
 		rows = append(rows, iotest.Row(i, iotest.Num(fmt.Sprintf("A%d", i), fmt.Sprint(i)), iotest.Num(fmt.Sprintf("B%d", i), fmt.Sprint(i%17)), iotest.Sst(fmt.Sprintf("C%d", i), i%2)))
@@ -33,9 +33,9 @@ func TestBigSheetsKept(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	BigSheet = old
+	bigSheet = old
 	want, err := Read(context.Background(), path, table.Options{})
-	BigSheet = 1 << 10
+	bigSheet = 1 << 10
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -61,7 +61,7 @@ func TestBigSheetsKept(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if !SameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
+	if !sameStoredPart(orig, raw(w.Path, "xl/worksheets/sheet1.xml")) {
 		t.Error("the big sheet's part was not kept as it was")
 	}
 	after, err := Read(context.Background(), w.Path, table.Options{Sheet: "Visits"})

@@ -74,7 +74,7 @@ func TestWriteErrorCauses(t *testing.T) {
 		{syscall.ENOSPC, table.ErrNoSpace}, {syscall.ENAMETOOLONG, table.ErrNameTooLong},
 		{syscall.EROFS, table.ErrDiskReadOnly}, {syscall.EACCES, table.ErrFolderReadOnly},
 	} {
-		err := WriteError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
+		err := writeError("x", "", &fs.PathError{Op: "open", Path: "x", Err: c.errno})
 		if !errors.Is(err, c.cause) || !errors.Is(err, c.errno) {
 			t.Errorf("%v: got %v", c.errno, err)
 		}
@@ -134,12 +134,12 @@ func TestDebrisCleaned(t *testing.T) {
 		t.Fatal(err)
 	}
 	for _, q := range gone {
-		if FileExists(q) {
+		if fileExists(q) {
 			t.Errorf("%s was not removed", filepath.Base(q))
 		}
 	}
 	for _, q := range kept {
-		if !FileExists(q) {
+		if !fileExists(q) {
 			t.Errorf("%s was removed", filepath.Base(q))
 		}
 	}
@@ -234,14 +234,14 @@ func TestTwoSavesAtOnce(t *testing.T) {
 func TestStaleLockTakenOver(t *testing.T) {
 	dir := t.TempDir()
 	p := iotest.SimpleBook().Write(t, dir, "book.xlsx")
-	lock := RunLockName(p)
+	lock := runLockName(p)
 	if err := os.WriteFile(lock, []byte("2147483646 1\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
 	if _, err := WriteResults(p, iotest.ResultsGrid(t), WriteOptions{}); err != nil {
 		t.Fatal(err)
 	}
-	if FileExists(lock) {
+	if fileExists(lock) {
 		t.Error("the lock is still there")
 	}
 }
@@ -335,7 +335,7 @@ func TestRunLockOneHolder(t *testing.T) {
 	dir := t.TempDir()
 	p := filepath.Join(dir, "book.xlsx")
 	for trial := 0; trial < 3; trial++ {
-		os.WriteFile(RunLockName(p), []byte("999999 1\n"), 0o644)
+		os.WriteFile(runLockName(p), []byte("999999 1\n"), 0o644)
 		var holders, most int32
 		var mu sync.Mutex
 		var wg sync.WaitGroup
@@ -343,7 +343,7 @@ func TestRunLockOneHolder(t *testing.T) {
 			wg.Add(1)
 			go func() {
 				defer wg.Done()
-				unlock, err := TakeRunLock(p)
+				unlock, err := takeRunLock(p)
 				if err != nil {
 					t.Error(err)
 					return

@@ -8,16 +8,16 @@ import "golang.org/x/sys/unix"
 // at the target (same device and inode).
 const exchangeKeepsIdentity = true
 
-// Exchange swaps the files at a and b in one step (renameat2 with
+// exchange swaps the files at a and b in one step (renameat2 with
 // RENAME_EXCHANGE, Linux 3.15 and later, on the file systems that offer
 // it); errNoExchange where the system or the file system cannot.
-func Exchange(a, b string) error {
+func exchange(a, b string) error {
 	err := unix.Renameat2(unix.AT_FDCWD, a, unix.AT_FDCWD, b, unix.RENAME_EXCHANGE)
 	switch err {
 	case nil:
 		return nil
 	case unix.ENOSYS, unix.EINVAL, unix.ENOTSUP:
-		return ErrNoExchange
+		return errNoExchange
 	}
 	return err
 }

@@ -2,9 +2,9 @@
 
 package save
 
-// Exchange is not offered here: the save renames, after checking the
+// exchange is not offered here: the save renames, after checking the
 // file just before (the window between the check and the rename remains;
 // DEVELOPERS.md).
-func Exchange(a, b string) error { return ErrNoExchange }
+func exchange(a, b string) error { return errNoExchange }
 
 const exchangeKeepsIdentity = true

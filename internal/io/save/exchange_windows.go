@@ -29,7 +29,7 @@ const (
 	exchangeKeepsIdentity = false
 )
 
-// Exchange swaps the files at a and b with ReplaceFileW: b's file moves
+// exchange swaps the files at a and b with ReplaceFileW: b's file moves
 // to a spare name beside a (its backup name) as a becomes b, then the
 // spare name becomes a. The file moved out of b is the one that was
 // there at that instant, so a save by another program just before it is
@@ -38,15 +38,15 @@ const (
 // ("merges" them; errors there ignored), which is what a spreadsheet
 // program's save does too. errNoExchange where the system or the file
 // system cannot.
-func Exchange(a, b string) error {
+func exchange(a, b string) error {
 	if a == "" || b == "" {
 		if procReplaceFileW.Find() != nil {
-			return ErrNoExchange
+			return errNoExchange
 		}
 		return errors.New("no file named")
 	}
 	if procReplaceFileW.Find() != nil {
-		return ErrNoExchange
+		return errNoExchange
 	}
 	spare := ""
 	for k := 1; ; k++ {
@@ -71,7 +71,7 @@ func Exchange(a, b string) error {
 	if r == 0 {
 		switch e {
 		case errInvalidFunction, errNotSupported, errNotSameDevice:
-			return ErrNoExchange
+			return errNoExchange
 		case errMoveReplacement2:
 			// b is now only at the spare name: put it back.
 			if err := os.Rename(spare, b); err != nil {

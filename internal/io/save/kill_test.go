@@ -48,7 +48,7 @@ func TestKilledSave(t *testing.T) {
 				t.Fatal(err)
 			}
 			deadline := time.Now().Add(30 * time.Second)
-			for !FileExists(marker) {
+			for !fileExists(marker) {
 				if time.Now().After(deadline) {
 					cmd.Process.Kill()
 					cmd.Wait()
@@ -108,13 +108,13 @@ func killChild(t *testing.T, step, file string) {
 	}
 	switch step {
 	case "built":
-		BeforeReplace = stop
+		beforeReplace = stop
 	case "backup written":
-		BeforeBackupNamed = stop
+		beforeBackupNamed = stop
 	case "backup named":
-		BeforeExchange = stop
+		beforeExchange = stop
 	case "exchanged":
-		AfterExchange = stop
+		afterExchange = stop
 	}
 	WriteResults(file, iotest.ResultsGrid(t), WriteOptions{})
 	t.Fatal("the save ended without being killed")

@@ -19,8 +19,8 @@ const (
 	lockPoll  = 100 * time.Millisecond
 )
 
-// RunLockName is the lock's path for a file.
-func RunLockName(path string) string {
+// runLockName is the lock's path for a file.
+func runLockName(path string) string {
 	dir, base := filepath.Split(path)
 	return filepath.Join(dir, "."+base+".slopewise.lock")
 }

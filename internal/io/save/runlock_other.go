@@ -13,9 +13,9 @@ import (
 	"slopewise/internal/io/table"
 )
 
-// TakeRunLock takes the lock for path; the returned function lets it go.
-func TakeRunLock(path string) (func(), error) {
-	name := RunLockName(path)
+// takeRunLock takes the lock for path; the returned function lets it go.
+func takeRunLock(path string) (func(), error) {
+	name := runLockName(path)
 	deadline := time.Now().Add(lockWait)
 	for {
 		f, err := os.OpenFile(name, os.O_WRONLY|os.O_CREATE|os.O_EXCL, 0o644)

@@ -13,11 +13,11 @@ import (
 	"slopewise/internal/io/table"
 )
 
-// TakeRunLock takes the lock for path; the returned function lets it go.
+// takeRunLock takes the lock for path; the returned function lets it go.
 // Where the file system cannot lock (some network shares), the save goes
 // on without it, as it did before there was one.
-func TakeRunLock(path string) (func(), error) {
-	name := RunLockName(path)
+func takeRunLock(path string) (func(), error) {
+	name := runLockName(path)
 	deadline := time.Now().Add(lockWait)
 	for {
 		f, err := os.OpenFile(name, os.O_RDWR|os.O_CREATE, 0o644)

@@ -24,11 +24,11 @@ var keptSettings = []string{"workbookPr", "calcPr"}
 
 // attrList is an element's attributes as written: the name with its
 // prefix, and the value.
-type attrList []struct{ Name, value string }
+type attrList []struct{ name, value string }
 
 func (l attrList) get(name string) (string, bool) {
 	for _, a := range l {
-		if a.Name == name {
+		if a.name == name {
 			return a.value, true
 		}
 	}
@@ -64,7 +64,7 @@ func settingTags(body []byte) (map[string]attrList, map[string][2]int64) {
 				if a.Name.Space != "" {
 					n = a.Name.Space + ":" + n
 				}
-				l = append(l, struct{ Name, value string }{n, a.Value})
+				l = append(l, struct{ name, value string }{n, a.Value})
 			}
 			attrs[name] = l
 			spans[name] = [2]int64{start, dec.InputOffset()}
@@ -72,18 +72,18 @@ func settingTags(body []byte) (map[string]attrList, map[string][2]int64) {
 	}
 }
 
-// MissingSettings lists, by element, the attributes of orig's kept
+// missingSettings lists, by element, the attributes of orig's kept
 // elements that body lacks or holds with another value.
-func MissingSettings(orig, body []byte) map[string]attrList {
+func missingSettings(orig, body []byte) map[string]attrList {
 	want, _ := settingTags(orig)
 	have, _ := settingTags(body)
 	out := map[string]attrList{}
 	for name, attrs := range want {
 		for _, a := range attrs {
-			if strings.HasPrefix(a.Name, "xmlns") {
+			if strings.HasPrefix(a.name, "xmlns") {
 				continue
 			}
-			if v, ok := have[name].get(a.Name); !ok || !sameSetting(v, a.value) {
+			if v, ok := have[name].get(a.name); !ok || !sameSetting(v, a.value) {
 				out[name] = append(out[name], a)
 			}
 		}
@@ -106,11 +106,11 @@ func sameSetting(a, b string) bool {
 	return a == b || norm(a) == norm(b)
 }
 
-// RestoreSettings writes the attributes body lacks into its tags. An
+// restoreSettings writes the attributes body lacks into its tags. An
 // attribute body holds with another value is not changed: verifyRewrite
 // then refuses the save.
-func RestoreSettings(orig, body []byte) ([]byte, bool) {
-	missing := MissingSettings(orig, body)
+func restoreSettings(orig, body []byte) ([]byte, bool) {
+	missing := missingSettings(orig, body)
 	if len(missing) == 0 {
 		return body, false
 	}
@@ -123,10 +123,10 @@ func RestoreSettings(orig, body []byte) ([]byte, bool) {
 	for name, attrs := range missing {
 		var b strings.Builder
 		for _, a := range attrs {
-			if _, ok := have[name].get(a.Name); ok {
+			if _, ok := have[name].get(a.name); ok {
 				continue
 			}
-			b.WriteString(" " + a.Name + `="`)
+			b.WriteString(" " + a.name + `="`)
 			xml.EscapeText(&b, []byte(a.value))
 			b.WriteString(`"`)
 		}
@@ -240,7 +240,7 @@ func keepSettings(tmp, wbPart string, orig []byte) error {
 	if err != nil {
 		return err
 	}
-	fixed, changed := RestoreSettings(orig, body)
+	fixed, changed := restoreSettings(orig, body)
 	if !changed {
 		return nil
 	}

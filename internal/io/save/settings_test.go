@@ -38,7 +38,7 @@ func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
 			t.Errorf("the new workbook part lacks %s:\n%s", want, wb)
 		}
 	}
-	if lost := MissingSettings([]byte(b.WbExtra+b.WbAfter), []byte(wb)); len(lost) > 0 {
+	if lost := missingSettings([]byte(b.WbExtra+b.WbAfter), []byte(wb)); len(lost) > 0 {
 		t.Errorf("settings not kept: %v", lost)
 	}
 	back, err := os.ReadFile(w.Backup)
@@ -56,13 +56,13 @@ func TestInPlaceKeepsWorkbookSettings(t *testing.T) {
 func TestRestoreSettings(t *testing.T) {
 	orig := []byte(`<workbook><fileVersion appName="x"/><workbookPr dateCompatibility="0"/><sheets><sheet name="a"/></sheets><calcPr calcId="1" refMode="R1C1"/></workbook>`)
 	body := []byte(`<workbook><fileVersion appName="x"></fileVersion><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2"/></workbook>`)
-	got, changed := RestoreSettings(orig, body)
+	got, changed := restoreSettings(orig, body)
 	want := `<workbook><fileVersion appName="x"></fileVersion><workbookPr dateCompatibility="0"/><bookViews/><sheets><sheet name="a"/></sheets><calcPr calcId="2" refMode="R1C1"/></workbook>`
 	if !changed || string(got) != want {
 		t.Fatalf("got  %s\nwant %s", got, want)
 	}
-	lost := MissingSettings(orig, got)
-	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].Name != "calcId" {
+	lost := missingSettings(orig, got)
+	if len(lost) != 1 || len(lost["calcPr"]) != 1 || lost["calcPr"][0].name != "calcId" {
 		t.Errorf("a changed value must remain a difference for the check: %v", lost)
 	}
 }
@@ -78,7 +78,7 @@ func TestBackupNamedWhenWhole(t *testing.T) {
 		t.Fatal(err)
 	}
 	seen := false
-	BeforeBackupNamed = func(tmp string) {
+	beforeBackupNamed = func(tmp string) {
 		seen = true
 		body, err := os.ReadFile(tmp)
 		if err != nil || !bytes.Equal(body, orig) {
@@ -89,7 +89,7 @@ func TestBackupNamedWhenWhole(t *testing.T) {
 			t.Errorf("a backup has its name before it is complete: %v", names)
 		}
 	}
-	defer func() { BeforeBackupNamed = func(string) {} }()
+	defer func() { beforeBackupNamed = func(string) {} }()
 	w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	if err != nil {
 		t.Fatal(err)

@@ -39,7 +39,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	if target == "" {
 		target = ResultsPathFor(src)
 	}
-	unlock, err := TakeRunLock(target)
+	unlock, err := takeRunLock(target)
 	if err != nil {
 		return nil, err
 	}
@@ -63,7 +63,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		if most <= 0 {
 			most = DefaultCopyDataLines
 		}
-		lines, err := CountLines(src, most)
+		lines, err := countLines(src, most)
 		if err != nil {
 			return nil, sniff.StatError(src, err)
 		}
@@ -106,7 +106,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 			return nil, e // a problem in the text file, not in writing
 		}
 		if diskCause(err) != otherFailure {
-			return nil, WriteError(target, "writing the data sheet failed", err)
+			return nil, writeError(target, "writing the data sheet failed", err)
 		}
 		return nil, &table.Error{Path: target, Cause: table.ErrVerifyFailed, Detail: "writing the data sheet failed: " + err.Error(), Underlying: err}
 	}
@@ -124,7 +124,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 	if err != nil {
 		return nil, sniff.StatError(src, err)
 	}
-	if FileExists(target) {
+	if fileExists(target) {
 		if w.Backup, err = backup(target, opts.Now()); err != nil {
 			return nil, err
 		}
@@ -132,7 +132,7 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 			info = ti
 		}
 	}
-	if err := ReplaceFile(tmp, target, info.Mode().Perm(), info); err != nil {
+	if err := replaceFile(tmp, target, info.Mode().Perm(), info); err != nil {
 		return nil, err
 	}
 	return w, nil
@@ -153,11 +153,11 @@ func copyData(src, tmp string, wide *wideCopy) (int, error) {
 	return spliceDataSheet(tmp, rows, tf.DecimalComma, wide)
 }
 
-// CountLines counts the lines of the file at path, stopping once they
+// countLines counts the lines of the file at path, stopping once they
 // pass most (it then returns most+1): a quick measure of a text file's
 // size in rows, a record with a line break inside quotes counting as
 // two. A last line without a line break counts.
-func CountLines(path string, most int) (int, error) {
+func countLines(path string, most int) (int, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return 0, err

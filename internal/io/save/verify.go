@@ -50,11 +50,11 @@ func verifyRewrite(orig []byte, tmpPath string, replaced string, limit, limitXML
 	if errA != nil || errB != nil {
 		return &table.Error{Cause: table.ErrVerifyFailed, Detail: "the workbook part cannot be read", Underlying: errors.Join(errA, errB)}
 	}
-	if lost := MissingSettings(wbA, wbB); len(lost) > 0 {
+	if lost := missingSettings(wbA, wbB); len(lost) > 0 {
 		var names []string
 		for el, attrs := range lost {
 			for _, at := range attrs {
-				names = append(names, el+" "+at.Name)
+				names = append(names, el+" "+at.name)
 			}
 		}
 		sort.Strings(names)
@@ -82,7 +82,7 @@ func verifyRewrite(orig []byte, tmpPath string, replaced string, limit, limitXML
 		if !s.Worksheet {
 			continue
 		}
-		if SameStoredPart(a.File(a.Parts[s.Name]), b.File(b.Parts[s.Name])) && isPrefix(sstA, sstB) {
+		if sameStoredPart(a.File(a.Parts[s.Name]), b.File(b.Parts[s.Name])) && isPrefix(sstA, sstB) {
 			continue // the same bytes, and every string they name unchanged
 		}
 		da, err := sheetDigest(a, a.Parts[s.Name], sstA)
@@ -160,10 +160,10 @@ func sheetDigest(p *xlsx.Package, part string, sst []string) ([32]byte, error) {
 	return sum, nil
 }
 
-// SameStoredPart reports two zip entries whose stored (compressed) bytes
+// sameStoredPart reports two zip entries whose stored (compressed) bytes
 // are the same, as when a part is copied without being unpacked: then
 // their content is the same, and the sheet need not be read cell by cell.
-func SameStoredPart(a, b *zip.File) bool {
+func sameStoredPart(a, b *zip.File) bool {
 	if a == nil || b == nil || a.CRC32 != b.CRC32 || a.UncompressedSize64 != b.UncompressedSize64 ||
 		a.CompressedSize64 != b.CompressedSize64 || a.Method != b.Method {
 		return false

@@ -223,7 +223,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 			return nil, err
 		}
 	}
-	unlock, err := TakeRunLock(target)
+	unlock, err := takeRunLock(target)
 	if err != nil {
 		return nil, err
 	}
@@ -324,7 +324,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		}
 		return nil, err
 	}
-	BeforeReplace(src)
+	beforeReplace(src)
 	if inPlace {
 		// Someone may have saved the workbook while the results were made.
 		if now, err := os.Stat(src); err != nil || !sameVersion(now, info) {
@@ -339,7 +339,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		if w.Backup, err = backupBytes(target, orig, info.Mode().Perm(), opts.Now()); err != nil {
 			return nil, err
 		}
-	} else if FileExists(target) {
+	} else if fileExists(target) {
 		if w.Backup, err = backup(target, opts.Now()); err != nil {
 			return nil, err
 		}
@@ -358,7 +358,7 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 			w.Backup = ""
 		}
 	} else {
-		err = ReplaceFile(tmp, target, info.Mode().Perm(), info)
+		err = replaceFile(tmp, target, info.Mode().Perm(), info)
 	}
 	if err != nil {
 		return nil, err
@@ -380,22 +380,22 @@ func keptName(target string) string {
 	ext := filepath.Ext(base)
 	stem := strings.TrimSuffix(base, ext)
 	name := filepath.Join(dir, stem+" (saved by another program)"+ext)
-	for k := 2; FileExists(name); k++ {
+	for k := 2; fileExists(name); k++ {
 		name = filepath.Join(dir, fmt.Sprintf("%s (saved by another program %d)%s", stem, k, ext))
 	}
 	return name
 }
 
-// ErrNoExchange: the system cannot swap two files in one step.
-var ErrNoExchange = errors.New("no atomic exchange here")
+// errNoExchange: the system cannot swap two files in one step.
+var errNoExchange = errors.New("no atomic exchange here")
 
-// BeforeExchange runs when the backup is named and the new workbook is
+// beforeExchange runs when the backup is named and the new workbook is
 // about to take the original's place; tests use it to act at that moment.
-var BeforeExchange = func(string) {}
+var beforeExchange = func(string) {}
 
-// AfterExchange runs when the new workbook and the original have been
+// afterExchange runs when the new workbook and the original have been
 // swapped; tests use it to act at that moment.
-var AfterExchange = func(string) {}
+var afterExchange = func(string) {}
 
 // replaceChecked puts the new workbook at target in place of the file
 // analysed. Where the system can swap two files in one step (Linux's
@@ -412,21 +412,21 @@ func replaceChecked(tmp, target string, orig []byte, info fs.FileInfo) error {
 		return &table.Error{Path: target, Cause: table.ErrCannotReplace, Underlying: err}
 	}
 	chownLike(tmp, info)
-	BeforeExchange(tmp)
-	err := Exchange(tmp, target)
-	if errors.Is(err, ErrNoExchange) {
-		return ReplaceFile(tmp, target, info.Mode().Perm(), info)
+	beforeExchange(tmp)
+	err := exchange(tmp, target)
+	if errors.Is(err, errNoExchange) {
+		return replaceFile(tmp, target, info.Mode().Perm(), info)
 	}
 	if err != nil {
 		return &table.Error{Path: target, Cause: table.ErrCannotReplace, Underlying: err}
 	}
-	AfterExchange(tmp)
+	afterExchange(tmp)
 	out, err1 := os.Stat(tmp)
 	body, err2 := os.ReadFile(tmp)
 	// Windows may move a file's identity to its replacement: there the
 	// bytes decide.
 	if err1 != nil || err2 != nil || (exchangeKeepsIdentity && !os.SameFile(out, info)) || !bytes.Equal(body, orig) {
-		if err := Exchange(tmp, target); err != nil {
+		if err := exchange(tmp, target); err != nil {
 			// Keep the other program's version where a person finds it;
 			// the caller removes tmp.
 			kept := keptName(target)
@@ -457,7 +457,7 @@ const (
 
 func checkInflation(src string, zr *zip.Reader) error {
 	for _, f := range zr.File {
-		if xlsx.IsWorksheetPart(f.Name) && f.UncompressedSize64 > BigSheet {
+		if xlsx.IsWorksheetPart(f.Name) && f.UncompressedSize64 > bigSheet {
 			continue
 		}
 		if f.UncompressedSize64 > inflationSize && f.UncompressedSize64 > inflationRatio*max(f.CompressedSize64, 1) {
@@ -467,9 +467,9 @@ func checkInflation(src string, zr *zip.Reader) error {
 	return nil
 }
 
-// BeforeReplace runs just before the check that the original is as it
+// beforeReplace runs just before the check that the original is as it
 // was read; tests use it to change the file at that moment.
-var BeforeReplace = func(string) {}
+var beforeReplace = func(string) {}
 
 // checkCopyTarget refuses a copy that would overwrite the source, or an
 // existing file the caller did not allow to replace.
@@ -511,7 +511,7 @@ func holdsOurResults(path string) bool {
 	return false
 }
 
-func FileExists(path string) bool {
+func fileExists(path string) bool {
 	_, err := os.Stat(path)
 	return err == nil
 }
@@ -685,21 +685,21 @@ func buildInTemp(target string, base []byte, limit, limitXML int64, stages ...fu
 	dir, name := filepath.Dir(target), filepath.Base(target)
 	tmp, err := os.CreateTemp(dir, "."+name+".slopewise-*.tmp")
 	if err != nil {
-		return "", WriteError(dir, "", err)
+		return "", writeError(dir, "", err)
 	}
 	if _, err := xf.WriteTo(tmp); err != nil {
 		tmp.Close()
 		os.Remove(tmp.Name())
-		return "", WriteError(target, "writing the new file failed", err)
+		return "", writeError(target, "writing the new file failed", err)
 	}
 	if err := tmp.Sync(); err != nil {
 		tmp.Close()
 		os.Remove(tmp.Name())
-		return "", WriteError(target, "the new file could not be saved to disk", err)
+		return "", writeError(target, "the new file could not be saved to disk", err)
 	}
 	if err := tmp.Close(); err != nil {
 		os.Remove(tmp.Name())
-		return "", WriteError(target, "", err)
+		return "", writeError(target, "", err)
 	}
 	return tmp.Name(), nil
 }
@@ -731,7 +731,7 @@ func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (str
 			extra = " " + strconv.Itoa(k)
 		}
 		dst = filepath.Join(dir, fmt.Sprintf("%s (before Slopewise %s%s)%s", stem, stamp, extra, ext))
-		if !FileExists(dst) {
+		if !fileExists(dst) {
 			break
 		}
 	}
@@ -740,32 +740,32 @@ func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (str
 	// like a real one (issue 13).
 	f, err := os.CreateTemp(filepath.Dir(path), "."+base+".slopewise-backup-*.tmp")
 	if err != nil {
-		return "", WriteError(dst, "the backup could not be made", err)
+		return "", writeError(dst, "the backup could not be made", err)
 	}
 	tmp := f.Name()
 	defer os.Remove(tmp) // a no-op once renamed
 	if err := fillTemp(f, orig, mode); err != nil {
-		return "", WriteError(dst, "the backup could not be made", err)
+		return "", writeError(dst, "the backup could not be made", err)
 	}
 	again, err := os.ReadFile(tmp)
 	if err != nil || !bytes.Equal(again, orig) {
 		return "", &table.Error{Path: dst, Cause: table.ErrVerifyFailed, Detail: "the backup does not read back equal to the original"}
 	}
-	BeforeBackupNamed(tmp)
+	beforeBackupNamed(tmp)
 	if err := renameNoClobber(tmp, dst); err != nil {
 		if errors.Is(err, fs.ErrExist) {
 			return "", &table.Error{Path: dst, Cause: table.ErrTargetExists, Detail: "a file of the backup's name appeared while it was made"}
 		}
-		return "", WriteError(dst, "the backup could not be given its name", err)
+		return "", writeError(dst, "the backup could not be given its name", err)
 	}
 	syncDir(filepath.Dir(path))
 	return dst, nil
 }
 
-// WriteError words a failure to create or write a file by its cause: a
+// writeError words a failure to create or write a file by its cause: a
 // full disk, a name too long, a read-only disk, else a folder Slopewise
 // may not write to; the system's own reason stays underneath.
-func WriteError(path, detail string, err error) *table.Error {
+func writeError(path, detail string, err error) *table.Error {
 	cause := table.ErrFolderReadOnly
 	switch diskCause(err) {
 	case diskFull:
@@ -783,23 +783,23 @@ func WriteError(path, detail string, err error) *table.Error {
 // path is not replaced (ErrTargetExists). Failures carry their cause
 // (a full disk, a name too long, a folder that may not be written).
 func WriteWhole(path string, data []byte, perm fs.FileMode) error {
-	if FileExists(path) {
+	if fileExists(path) {
 		return table.Fail(path, table.ErrTargetExists, "")
 	}
 	f, err := os.CreateTemp(filepath.Dir(path), "."+filepath.Base(path)+".slopewise-*.tmp")
 	if err != nil {
-		return WriteError(filepath.Dir(path), "", err)
+		return writeError(filepath.Dir(path), "", err)
 	}
 	tmp := f.Name()
 	defer os.Remove(tmp) // a no-op once renamed
 	if err := fillTemp(f, data, perm); err != nil {
-		return WriteError(path, "", err)
+		return writeError(path, "", err)
 	}
 	if err := renameNoClobber(tmp, path); err != nil {
 		if errors.Is(err, fs.ErrExist) {
 			return table.Fail(path, table.ErrTargetExists, "")
 		}
-		return WriteError(path, "", err)
+		return writeError(path, "", err)
 	}
 	syncDir(filepath.Dir(path))
 	return nil
@@ -826,19 +826,19 @@ func renameNoClobber(tmp, dst string) error {
 	case errors.Is(err, fs.ErrExist):
 		return err
 	}
-	if FileExists(dst) {
+	if fileExists(dst) {
 		return fs.ErrExist
 	}
 	return os.Rename(tmp, dst)
 }
 
-// BeforeBackupNamed runs when the backup is complete under its temporary
+// beforeBackupNamed runs when the backup is complete under its temporary
 // name; tests use it to stop the save there.
-var BeforeBackupNamed = func(string) {}
+var beforeBackupNamed = func(string) {}
 
-// ReplaceFile gives tmp the original's permissions (and owner, where
+// replaceFile gives tmp the original's permissions (and owner, where
 // allowed) and renames it over target.
-func ReplaceFile(tmp, target string, perm fs.FileMode, orig fs.FileInfo) error {
+func replaceFile(tmp, target string, perm fs.FileMode, orig fs.FileInfo) error {
 	if err := os.Chmod(tmp, perm); err != nil {
 		return &table.Error{Path: target, Cause: table.ErrCannotReplace, Underlying: err}
 	}

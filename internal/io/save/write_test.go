@@ -318,7 +318,7 @@ func TestCountLines(t *testing.T) {
 		text       string
 		most, want int
 	}{{"", 10, 0}, {"a", 10, 1}, {"a\n", 10, 1}, {"a\nb", 10, 2}, {"a\r\nb\r\n", 10, 2}, {"a\nb\nc\nd\n", 2, 3}} {
-		got, err := CountLines(iotest.WriteFile(t, dir, "f.csv", []byte(c.text)), c.most)
+		got, err := countLines(iotest.WriteFile(t, dir, "f.csv", []byte(c.text)), c.most)
 		if err != nil || got != c.want {
 			t.Errorf("countLines(%q, %d) = %d, %v; want %d", c.text, c.most, got, err, c.want)
 		}
@@ -345,7 +345,7 @@ func TestReplaceFailureIsNamed(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	err = ReplaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
+	err = replaceFile(filepath.Join(dir, "missing.tmp"), target, 0o644, info)
 	if !errors.Is(err, table.ErrCannotReplace) || !strings.HasPrefix(err.Error(), fmt.Sprintf("%q: ", target)) {
 		t.Errorf("rename failure: %v", err)
 	}
@@ -377,12 +377,12 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 	dir := t.TempDir()
 	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
 	saved := iotest.VisitsBook().Bytes(t) // what another program saved meanwhile
-	BeforeReplace = func(p string) {
+	beforeReplace = func(p string) {
 		if err := os.WriteFile(p, saved, 0o644); err != nil {
 			t.Error(err)
 		}
 	}
-	defer func() { BeforeReplace = func(string) {} }()
+	defer func() { beforeReplace = func(string) {} }()
 	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	want := fmt.Sprintf("%q: %s (another program saved it while the results were being written)", path, table.ErrChangedSinceRead)
 	if !errors.Is(err, table.ErrChangedSinceRead) || err.Error() != want {
@@ -397,7 +397,7 @@ func TestWorkbookChangedMeanwhile(t *testing.T) {
 // Windows' ReplaceFileW), exchange leaves each file's content at the other
 // name and nothing else in the folder; twice, each is back.
 func TestExchangeSwaps(t *testing.T) {
-	if Exchange("", "") == ErrNoExchange {
+	if exchange("", "") == errNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
@@ -409,7 +409,7 @@ func TestExchangeSwaps(t *testing.T) {
 		t.Fatal(err)
 	}
 	for i, want := range [][2]string{{"old", "new"}, {"new", "old"}} {
-		if err := Exchange(a, b); err != nil {
+		if err := exchange(a, b); err != nil {
 			t.Fatalf("exchange %d: %v", i+1, err)
 		}
 		ga, _ := os.ReadFile(a)
@@ -429,14 +429,14 @@ func TestExchangeSwaps(t *testing.T) {
 // version is in place, no backup of the version analysed is left, and
 // the save is refused.
 func TestEditAtTheExchange(t *testing.T) {
-	if Exchange("", "") == ErrNoExchange {
+	if exchange("", "") == errNoExchange {
 		t.Skip("this system has no atomic exchange")
 	}
 	dir := t.TempDir()
 	path := iotest.SimpleBook().Write(t, dir, "busy.xlsx")
 	saved := iotest.VisitsBook().Bytes(t)
 	calls := 0
-	AfterExchange = func(swappedOut string) {
+	afterExchange = func(swappedOut string) {
 		calls++
 		// The other program writes where the workbook is now; a real
 		// program's save lands in the moment before the exchange, which
@@ -445,7 +445,7 @@ func TestEditAtTheExchange(t *testing.T) {
 			t.Error(err)
 		}
 	}
-	defer func() { AfterExchange = func(string) {} }()
+	defer func() { afterExchange = func(string) {} }()
 	_, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 	if !errors.Is(err, table.ErrChangedSinceRead) || calls != 1 {
 		t.Fatalf("got %v after %d exchange(s)", err, calls)

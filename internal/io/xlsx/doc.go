@@ -7,7 +7,7 @@
 // A worksheet's rows come from one of two readers side by side, both
 // behind table.RowSource: the byte scanner (fastsheet.go), and the
 // encoding/xml token reader (sheetstream.go) that takes every sheet the
-// scanner gives back (ErrFastFallback); their differential test and fuzz
+// scanner gives back (errFastFallback); their differential test and fuzz
 // target (fastsheet_test.go, testdata/fuzz/FuzzFastSheet) hold them to
 // the same table. Read gives a whole table.Table; a formula cell whose
 // saved result is missing or marked out of date is calculated when its

@@ -23,7 +23,7 @@ import (
 // namespace prefixes — and meets anything else (a comment or CDATA
 // section, an unknown entity, a character XML does not allow, an element
 // it does not expect, a malformed tag or value) by giving up with
-// ErrFastFallback. Read then reads the sheet again with sheetStream,
+// errFastFallback. Read then reads the sheet again with sheetStream,
 // which reads it or says what is wrong: the fast reader never guesses
 // and never words an error.
 type fastSheet struct {
@@ -52,12 +52,12 @@ type fastSheet struct {
 // spreadsheet program writes such rows.
 const maxRowBytes = 32 << 20
 
-// ErrFastFallback is the fast reader giving a sheet back to sheetStream.
-var ErrFastFallback = errors.New("the fast worksheet reader leaves this sheet to the standard one")
+// errFastFallback is the fast reader giving a sheet back to sheetStream.
+var errFastFallback = errors.New("the fast worksheet reader leaves this sheet to the standard one")
 
-func fallback(what string) error { return fmt.Errorf("%w: %s", ErrFastFallback, what) }
+func fallback(what string) error { return fmt.Errorf("%w: %s", errFastFallback, what) }
 
-func NewFastSheet(p *Package, part string) (*fastSheet, error) {
+func newFastSheet(p *Package, part string) (*fastSheet, error) {
 	sst, err := fastSharedStrings(p)
 	if err != nil {
 		return nil, err

@@ -24,7 +24,7 @@ func readBoth(t *testing.T, path string, opts table.Options) (fast, slow *table.
 	t.Helper()
 	fast, fastErr = readTable(context.Background(), path, opts, true)
 	slow, slowErr = readTable(context.Background(), path, opts, false)
-	return fast, slow, fastErr, slowErr, errors.Is(fastErr, ErrFastFallback)
+	return fast, slow, fastErr, slowErr, errors.Is(fastErr, errFastFallback)
 }
 
 // checkSame fails when the two readers disagree: different tables, or an
@@ -171,7 +171,7 @@ func TestFastSheetRaw(t *testing.T) {
 		if !checkSame(t, name, path, table.Options{HeaderRow: table.NoHeader}) {
 			t.Errorf("%s: the fast reader read it instead of giving it back", name)
 		}
-		if _, err := Read(context.Background(), path, table.Options{HeaderRow: table.NoHeader}); errors.Is(err, ErrFastFallback) {
+		if _, err := Read(context.Background(), path, table.Options{HeaderRow: table.NoHeader}); errors.Is(err, errFastFallback) {
 			t.Errorf("%s: Read let the fallback through: %v", name, err)
 		}
 	}
@@ -278,7 +278,7 @@ func BenchmarkSheetReaders(b *testing.B) {
 		b.ReportMetric(float64(b.N*iotest.BenchRows)/time.Since(start).Seconds(), "rows/s")
 	}
 	b.Run("fast", func(b *testing.B) {
-		iterate(b, func(p *Package, part string) (table.RowSource, error) { return NewFastSheet(p, part) })
+		iterate(b, func(p *Package, part string) (table.RowSource, error) { return newFastSheet(p, part) })
 	})
 	b.Run("sheetStream", func(b *testing.B) {
 		iterate(b, func(p *Package, part string) (table.RowSource, error) { return NewSheetStream(p, part) })

@@ -65,22 +65,22 @@ var calcFunctions = map[string]bool{
 	"IF": true, "AND": true, "OR": true, "NOT": true, "NA": true,
 }
 
-// FormulaLog lists the formula cells of the sheet being read that need
+// formulaLog lists the formula cells of the sheet being read that need
 // a value calculated.
-type FormulaLog struct {
-	Need []cellKey
-	Over bool // more than maxCalcCells
+type formulaLog struct {
+	need []cellKey
+	over bool // more than maxCalcCells
 }
 
 func (p *Package) logFormula(k cellKey) {
 	if p.computed != nil {
 		return // the second reading: what is left was tried already
 	}
-	if len(p.Formulas.Need) >= maxCalcCells {
-		p.Formulas.Over = true
+	if len(p.formulas.need) >= maxCalcCells {
+		p.formulas.over = true
 		return
 	}
-	p.Formulas.Need = append(p.Formulas.Need, k)
+	p.formulas.need = append(p.formulas.need, k)
 }
 
 // Package gives a worksheet reader's package, for read to find the
@@ -91,10 +91,10 @@ func (s *cellReader) Package() *Package { return s.pkg }
 // region, and the notes on its tables, to the table builder.
 func (s *cellReader) Regions() (*table.RegionFilter, []string) { return s.pkg.filter, s.pkg.tableNotes }
 
-// FormulaResults are the values calculated for one sheet, and why the
+// formulaResults are the values calculated for one sheet, and why the
 // others were not, by column.
-type FormulaResults struct {
-	Values map[cellKey]computedValue
+type formulaResults struct {
+	values map[cellKey]computedValue
 	why    map[int32]string
 }
 
@@ -107,23 +107,23 @@ type calculator struct {
 
 var plainRef = regexp.MustCompile(`^\$?([A-Za-z]{1,3})\$?([0-9]{1,7})(?::\$?([A-Za-z]{1,3})\$?([0-9]{1,7}))?$`)
 
-// Calculate tries every logged cell of the sheet.
-func Calculate(path, sheet, part string, log FormulaLog, opts table.Options) (res *FormulaResults) {
-	res = &FormulaResults{Values: map[cellKey]computedValue{}, why: map[int32]string{}}
+// calculate tries every logged cell of the sheet.
+func calculate(path, sheet, part string, log formulaLog, opts table.Options) (res *formulaResults) {
+	res = &formulaResults{values: map[cellKey]computedValue{}, why: map[int32]string{}}
 	whyAll := func(why string) {
-		for _, k := range log.Need {
+		for _, k := range log.need {
 			if _, ok := res.why[k.col]; !ok {
 				res.why[k.col] = why
 			}
 		}
 	}
-	if log.Over {
+	if log.over {
 		whyAll(fmt.Sprintf("the sheet has more than %d such formulas, more than Slopewise calculates", maxCalcCells))
 		return res
 	}
 	defer func() {
 		if r := recover(); r != nil {
-			res.Values = map[cellKey]computedValue{}
+			res.values = map[cellKey]computedValue{}
 			whyAll(fmt.Sprint("the calculation stopped: ", r))
 		}
 	}()
@@ -145,7 +145,7 @@ func Calculate(path, sheet, part string, log FormulaLog, opts table.Options) (re
 	}
 	defer f.Close()
 	c := &calculator{f: f, sheet: sheet, memo: map[cellKey]string{}}
-	need := append([]cellKey(nil), log.Need...)
+	need := append([]cellKey(nil), log.need...)
 	sort.Slice(need, func(i, j int) bool {
 		if need[i].row != need[j].row {
 			return need[i].row < need[j].row
@@ -157,7 +157,7 @@ func Calculate(path, sheet, part string, log FormulaLog, opts table.Options) (re
 		if why == "" {
 			v, ok := c.value(k)
 			if ok {
-				res.Values[k] = v
+				res.values[k] = v
 				continue
 			}
 			why = "gives an empty result, which spreadsheet programs read differently"
@@ -416,9 +416,9 @@ func (c *calculator) value(k cellKey) (computedValue, bool) {
 	return computedValue{typ: "str", v: v}, true
 }
 
-// ExplainFormulas records why cells were not calculated and adds notes
+// explainFormulas records why cells were not calculated and adds notes
 // on the formula cells that had no usable saved result.
-func ExplainFormulas(t *table.Table, res *FormulaResults) {
+func explainFormulas(t *table.Table, res *formulaResults) {
 	for _, col := range t.Columns {
 		f := &col.Formulas
 		if f.Missing > 0 {

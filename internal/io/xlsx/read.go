@@ -22,19 +22,19 @@ func Read(ctx context.Context, path string, opts table.Options) (*table.Table, e
 // sheetStream), or with sheetStream only.
 func readCalc(ctx context.Context, path string, opts table.Options, fast bool) (*table.Table, error) {
 	t, log, part, err := readFast(ctx, path, opts, nil, fast)
-	if err != nil || len(log.Need) == 0 && !log.Over {
+	if err != nil || len(log.need) == 0 && !log.over {
 		return t, err
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, &table.Error{Path: path, Sheet: t.Sheet, Cause: table.ErrCancelled, Underlying: err}
 	}
-	res := Calculate(path, t.Sheet, part, log, opts)
-	if len(res.Values) > 0 {
+	res := calculate(path, t.Sheet, part, log, opts)
+	if len(res.values) > 0 {
 		if t, _, _, err = readFast(ctx, path, opts, res, fast); err != nil {
 			return nil, err
 		}
 	}
-	ExplainFormulas(t, res)
+	explainFormulas(t, res)
 	return t, nil
 }
 
@@ -42,9 +42,9 @@ func readCalc(ctx context.Context, path string, opts table.Options, fast bool) (
 // standard one; or, with fast false, with the standard one only. calc
 // holds the values calculated for the sheet's formula cells after a
 // first reading (formulas.go), or is nil.
-func readFast(ctx context.Context, path string, opts table.Options, calc *FormulaResults, fast bool) (*table.Table, FormulaLog, string, error) {
+func readFast(ctx context.Context, path string, opts table.Options, calc *formulaResults, fast bool) (*table.Table, formulaLog, string, error) {
 	t, log, part, err := read(ctx, path, opts, calc, fast)
-	if fast && errors.Is(err, ErrFastFallback) {
+	if fast && errors.Is(err, errFastFallback) {
 		return read(ctx, path, opts, calc, false)
 	}
 	return t, log, part, err
@@ -53,14 +53,14 @@ func readFast(ctx context.Context, path string, opts table.Options, calc *Formul
 // read is Read with the fast worksheet reader or with sheetStream; it
 // also gives the formula cells that need a value calculated, and the
 // worksheet's part in the package.
-func read(ctx context.Context, path string, opts table.Options, calc *FormulaResults, fast bool) (*table.Table, FormulaLog, string, error) {
-	var log FormulaLog
+func read(ctx context.Context, path string, opts table.Options, calc *formulaResults, fast bool) (*table.Table, formulaLog, string, error) {
+	var log formulaLog
 	var part string
 	t, err := readTableWith(ctx, path, opts, calc, fast, func(p *Package, sheet string) {
-		log, part = p.Formulas, p.Parts[sheet]
+		log, part = p.formulas, p.Parts[sheet]
 	})
 	if err != nil {
-		return nil, FormulaLog{}, "", err
+		return nil, formulaLog{}, "", err
 	}
 	return t, log, part, nil
 }
@@ -72,17 +72,17 @@ func readTable(ctx context.Context, path string, opts table.Options, fast bool) 
 
 // readTableWith is readTable with calculated formula values, handing
 // the workbook's package, once read, to done.
-func readTableWith(ctx context.Context, path string, opts table.Options, calc *FormulaResults, fast bool, done func(p *Package, sheet string)) (*table.Table, error) {
+func readTableWith(ctx context.Context, path string, opts table.Options, calc *formulaResults, fast bool, done func(p *Package, sheet string)) (*table.Table, error) {
 	info, _ := os.Stat(path)
 	tbl := &table.Table{Path: path, Source: info}
-	src, sheet, err := OpenSheet(path, opts, calc, fast)
+	src, sheet, err := openXLSXSheet(path, opts, calc, fast)
 	tbl.Sheet = sheet
 	if err != nil {
 		return nil, err
 	}
 	defer src.Close()
 	if err := table.Build(ctx, src, tbl, opts, false); err != nil {
-		if errors.Is(err, ErrFastFallback) {
+		if errors.Is(err, errFastFallback) {
 			return nil, err
 		}
 		return nil, table.Located(err, path, tbl.Sheet)

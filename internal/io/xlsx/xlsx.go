@@ -71,7 +71,7 @@ type Package struct {
 	// computed holds the values Slopewise calculated for formula cells of
 	// the sheet being read; formulas logs the cells that need one.
 	computed map[cellKey]computedValue
-	Formulas FormulaLog
+	formulas formulaLog
 	// filter keeps the sheet read to its data region (tables.go).
 	filter     *table.RegionFilter
 	tableNotes []string
@@ -412,9 +412,9 @@ func (p *Package) checkDepth(name string) (err error) {
 	}
 }
 
-// OpenSheet opens the worksheet to read: the one named, or the first
+// openXLSXSheet opens the worksheet to read: the one named, or the first
 // visible one.
-func OpenSheet(path string, opts table.Options, calc *FormulaResults, fast bool) (table.RowSource, string, error) {
+func openXLSXSheet(path string, opts table.Options, calc *formulaResults, fast bool) (table.RowSource, string, error) {
 	p, err := OpenPackage(path, opts)
 	if err != nil {
 		return nil, "", err
@@ -450,7 +450,7 @@ func OpenSheet(path string, opts table.Options, calc *FormulaResults, fast bool)
 		}
 	}
 	if calc != nil {
-		p.computed = calc.Values
+		p.computed = calc.values
 	}
 	part, ok := p.Parts[name]
 	if !ok {
@@ -477,8 +477,8 @@ func OpenSheet(path string, opts table.Options, calc *FormulaResults, fast bool)
 	p.tableNotes = tableNotes
 	var src table.RowSource
 	if fast {
-		src, err = NewFastSheet(p, part)
-		if errors.Is(err, ErrFastFallback) {
+		src, err = newFastSheet(p, part)
+		if errors.Is(err, errFastFallback) {
 			src, err = NewSheetStream(p, part)
 		}
 	} else {
