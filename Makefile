@@ -65,7 +65,7 @@ interop-corpus:
 # a row under a true null: the difference of two groups with 8 clusters, and
 # the joint tests (the straight-line check with 8 to 60 clusters, 6 groups
 # with 6 to 40); prints the rejection rates at 5% of CR1 and of the
-# bootstrap with their Monte Carlo standard errors. About ten minutes on
+# bootstrap with their Monte Carlo standard errors. About seven minutes on
 # two cores: too slow for every test run.
 size-study:
 	$(GO) test ./internal/estimate -run TestSizeStudy -size-study -v -timeout 30m

@@ -22,10 +22,13 @@ type NotJudged struct {
 }
 
 // maxJointTerms is the most restrictions a joint test with g clusters is
-// judged on: g − 1, the rank the cluster-robust covariance can have. At
-// that bound the restricted wild cluster bootstrap still holds its level in
-// the size study (sizestudy_test.go: the linearity check's 8 terms with 9
-// and 10 clusters), while CR1's F does not anywhere near it.
+// judged on: g − 1, the rank the cluster-robust covariance can have. No
+// tighter bound is needed: at q = g − 1 the restricted wild cluster
+// bootstrap still holds its level in the size study (TestSizeStudyJoint,
+// 2,000 data sets a row, rejections at 5% of a true null: the line's 8
+// terms with 9 clusters 6.0%, 6 groups' 5 terms with 6 clusters 4.5%,
+// Monte Carlo s.e. 0.5), while CR1's F(q, g − 1) rejects 88% and 67%.
+// Above it the Wald statistic does not exist.
 func maxJointTerms(g int) int { return g - 1 }
 
 // judgeJoint returns nil when a joint test of q restrictions with g
