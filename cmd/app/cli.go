@@ -634,6 +634,8 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
 		}
 		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g%s\n", h.F, h.DF1, h.DF2, h.P, boot)
+	} else if nj := out.HeterogeneityNotJudged; nj != nil {
+		fmt.Fprintf(w, "Same effect in every group? %s\n", nj.Reason)
 	}
 	if b := out.Bootstrap; b != nil {
 		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)

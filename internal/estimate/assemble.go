@@ -65,7 +65,9 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	} else {
 		ds.groupEffects(s, in, res, facts)
 	}
-	if w, ok := in.wald(ds.iCols); ok {
+	if nj := judgeJoint(len(ds.iCols), len(ds.clusterLabels)); nj != nil {
+		res.HeterogeneityNotJudged = nj
+	} else if w, ok := in.wald(ds.iCols); ok {
 		res.Heterogeneity = &w
 	} else {
 		res.Notes = append(res.Notes, fmt.Sprintf("The test that all group effects are equal cannot be computed: the estimated covariance of the %d interaction terms is singular (with clusters, this happens when there are too few of them).", len(ds.iCols)))

@@ -15,11 +15,14 @@ type Result struct {
 	// order of Coefficients.
 	Covariance [][]float64 `json:"covariance"`
 
-	Moderator     ModeratorInfo  `json:"moderator"`
-	Effects       []GroupEffect  `json:"effects"`
-	Differences   []Difference   `json:"differences"`
-	Heterogeneity *WaldTest      `json:"heterogeneity,omitempty"`
-	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	Moderator     ModeratorInfo `json:"moderator"`
+	Effects       []GroupEffect `json:"effects"`
+	Differences   []Difference  `json:"differences"`
+	Heterogeneity *WaldTest     `json:"heterogeneity,omitempty"`
+	// HeterogeneityNotJudged is set instead of Heterogeneity when its
+	// interaction terms outnumber what the clusters can judge (joint.go).
+	HeterogeneityNotJudged *NotJudged     `json:"heterogeneity_not_judged,omitempty"`
+	JohnsonNeyman          *JohnsonNeyman `json:"johnson_neyman,omitempty"`
 	// Linearity checks a continuous moderator's straight line against the
 	// effect within each third of it; nil for groups, or when the check
 	// could not be made (Notes says why).

@@ -65,7 +65,10 @@ func Cautions(run Run, res *estimate.Result) []string {
 			}
 			add("In the group %s only %s rows are %s, so its effect is imprecise.", quoted(thin.Group), count(arm), which)
 		}
-		if len(res.Effects) > 2 {
+		switch {
+		case len(res.Effects) > 2 && res.HeterogeneityNotJudged != nil:
+			add("With %d groups there are %d pairwise comparisons; some will look clear by chance, and with %d clusters there is no overall test to look at first.", len(res.Effects), len(res.Differences), res.Model.Clusters)
+		case len(res.Effects) > 2:
 			add("With %d groups there are %d pairwise comparisons; some will look clear by chance. Look at the overall test first.", len(res.Effects), len(res.Differences))
 		}
 	} else {
@@ -79,10 +82,12 @@ func Cautions(run Run, res *estimate.Result) []string {
 			add("The effect at %s %s is outside the observed range (%s to %s) and rests on the straight-line form of the model alone.", m, joinAnd(outside), readable(res.Moderator.Min), readable(res.Moderator.Max))
 		}
 		switch l := res.Linearity; {
+		case l != nil && l.NotJudged != nil:
+			add("The model assumes the effect changes in a straight line with %s. With %d clusters that cannot be checked (the check weighs %d terms; %d clusters can carry at most %d), so if the true pattern is curved, effects between and beyond the probe values can be off. More clusters, or %s split into two groups, would allow a check.", m, l.NotJudged.Clusters, l.NotJudged.Terms, l.NotJudged.Clusters, l.NotJudged.MaxTerms, m)
 		case l != nil && l.Contradicts:
 			add("The effects within the thirds of %s depart from the straight line the model assumes, so effects read off the line, between and beyond the probe values, can be off; a moderator split into groups may describe the pattern better.", m)
 		case l != nil && l.Wald != nil:
-			add("The model assumes the effect changes in a straight line with %s. The effects estimated within each third of %s are consistent with that line (%s), though with few rows a check like this can miss a curve.", m, m, pText(l.Wald.P))
+			add("The model assumes the effect changes in a straight line with %s. The effects estimated within each third of %s are consistent with that line (%s), though with few rows a check like this can miss a curve.", m, m, waldPWords(l.Wald))
 		default:
 			add("The model assumes the effect changes in a straight line with %s; if the true pattern is curved, effects between and beyond the probe values can be off.", m)
 		}

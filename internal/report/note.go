@@ -136,6 +136,8 @@ func (w *noteWriter) groups() {
 			verdict = "the data show that it differs between at least some of them"
 		}
 		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(p, boot), verdict)
+	} else if nj := res.HeterogeneityNotJudged; nj != nil {
+		w.say("Whether the %s is the same in all %d groups %s.", w.what(), len(res.Effects), notJudgedWords(nj, res.Spec.Cluster))
 	}
 	d := res.LargestDifference()
 	ev := w.evidence(d.Inference, d.Boot)
@@ -242,20 +244,43 @@ func (w *noteWriter) continuous() {
 }
 
 // linearity flags a straight line that the effects within the thirds of
-// the moderator contradict (METHODS §5).
+// the moderator contradict (METHODS §5), by the bootstrap's p-value when it
+// ran, and says when there are too few clusters to judge it.
 func (w *noteWriter) linearity() {
 	l := w.res.Linearity
+	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
+	if l != nil && l.NotJudged != nil {
+		w.say("Whether the %s follows the straight line the model assumes %s; the effects within each third of %s are shown beside the line, untested.",
+			w.what(), notJudgedWords(l.NotJudged, w.res.Spec.Cluster), m)
+		return
+	}
 	if l == nil || !l.Contradicts {
 		return
 	}
-	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
 	var parts []string
 	for _, th := range l.Thirds {
 		parts = append(parts, fmt.Sprintf("around %s it is %s (%s) where the line gives %s", readable(th.Median),
 			w.u.amount(th.Effect.Estimate), w.u.interval(alpha, th.Effect.CILow, th.Effect.CIHigh), w.u.amount(th.Line.Estimate)))
 	}
 	w.say("Estimated within each third of %s, the %s does not follow the straight line the model assumes (test of the line against the thirds, %s): %s. The values above rest on that line, so read them with care and look at the thirds in the chart.",
-		m, w.what(), pText(l.Wald.P), strings.Join(parts, "; "))
+		m, w.what(), waldPWords(l.Wald), strings.Join(parts, "; "))
+}
+
+// waldPWords is a joint test's p-value in words: the bootstrap's when it
+// ran (METHODS §8), else the one from F.
+func waldPWords(t *estimate.WaldTest) string {
+	if p, boot := heterogeneityP(t); boot {
+		return "bootstrap " + pText(p)
+	}
+	return pText(t.P)
+}
+
+// notJudgedWords says why a joint test is not made, completing a sentence
+// whose subject is the question it would answer: "… cannot be judged with
+// only 6 clusters of "school": …".
+func notJudgedWords(nj *estimate.NotJudged, cluster string) string {
+	return fmt.Sprintf("cannot be judged with only %d clusters of %s: the test weighs %d terms at once, and standard errors that allow for clusters can weigh at most %d (one fewer than the clusters), so a p-value would mean nothing (Cameron & Miller 2015)",
+		nj.Clusters, quoted(cluster), nj.Terms, nj.MaxTerms)
 }
 
 // equivalence says whether the two one-sided tests conclude that the

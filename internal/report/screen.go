@@ -307,7 +307,11 @@ func (b *sheetBuilder) screenSummary(sr ScreenRun, sc *estimate.Screen) {
 				cells = append(cells, optionalP(h.PBoot))
 			}
 		} else {
-			cells = append(cells, TextCell("not computable"), Cell{}, Cell{})
+			why := "not computable"
+			if r.HeterogeneityNotJudged != nil {
+				why = "too few clusters to judge"
+			}
+			cells = append(cells, TextCell(why), Cell{}, Cell{})
 			if boot {
 				cells = append(cells, Cell{})
 			}

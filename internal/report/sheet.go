@@ -282,6 +282,9 @@ func (b *sheetBuilder) differences() {
 			row = append(row, PValueCell(*h.PBoot))
 		}
 		rows = append(rows, []Cell{}, head, row)
+	} else if nj := res.HeterogeneityNotJudged; nj != nil {
+		rows = append(rows, []Cell{}, []Cell{HeadingCell("Same effect in every group?")},
+			[]Cell{ParagraphCell(capitalise("whether it is the same in all "+count(len(res.Effects))+" groups "+notJudgedWords(nj, res.Spec.Cluster))+".", tableWidth)})
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		rows = append(rows, []Cell{}, []Cell{HeadingCell("Where the effect is distinguishable from zero")},
@@ -367,13 +370,24 @@ func (b *sheetBuilder) linearity() {
 			NumberCell(th.Median, ""), NumberCell(float64(th.Rows), "#,##0"), NumberCell(th.Effect.Estimate, f), NumberCell(th.Effect.SE, f),
 			NumberCell(th.Effect.CILow, f), NumberCell(th.Effect.CIHigh, f), NumberCell(th.Line.Estimate, f)})
 	}
-	verdict := "The test of the line against the thirds cannot be computed (with clusters, it needs more of them than the 8 terms it tests)."
+	verdict := "The test of the line against the thirds cannot be computed."
+	if nj := l.NotJudged; nj != nil {
+		verdict = capitalise("whether the thirds depart from the line "+notJudgedWords(nj, res.Spec.Cluster)) + "."
+	}
 	if w := l.Wald; w != nil {
-		rows = append(rows, []Cell{}, []Cell{HeadingCell("Test of the line against the thirds"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")},
-			[]Cell{TextCell("all 8 terms the thirds add"), NumberCell(w.F, "0.000"), NumberCell(float64(w.DF1), "0"), NumberCell(float64(w.DF2), "0"), PValueCell(w.P)})
+		head := []Cell{HeadingCell("Test of the line against the thirds"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")}
+		row := []Cell{TextCell("all 8 terms the thirds add"), NumberCell(w.F, "0.000"), NumberCell(float64(w.DF1), "0"), NumberCell(float64(w.DF2), "0"), PValueCell(w.P)}
+		if w.PBoot != nil {
+			head = append(head, HeadingCell("Bootstrap p-value"))
+			row = append(row, PValueCell(*w.PBoot))
+		}
+		rows = append(rows, []Cell{}, head, row)
 		verdict = "The thirds are consistent with the straight line."
 		if l.Contradicts {
 			verdict = "The thirds contradict the straight line: the effect does not change evenly with " + m + "."
+		}
+		if w.PBoot != nil {
+			verdict += " With few clusters the verdict rests on the bootstrap p-value; the one from F rejects far too often when the test weighs many terms."
 		}
 	}
 	rows = append(rows, []Cell{ParagraphCell("Each third's effect is estimated from its own rows, at the third's median (binned model of Hainmueller, Mummolo & Xu 2019); the test asks whether the thirds depart from the line by more than chance allows. "+verdict, tableWidth)})
