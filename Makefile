@@ -7,7 +7,7 @@ GO ?= go
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
 APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
 
-.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack wine-tests
+.PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack wine-tests save-trials
 
 test: deps vet go-test wine-tests attack fuzz dist-check
 
@@ -53,6 +53,14 @@ go-test:
 # install. Part of test.
 wine-tests:
 	packaging/wine-tests.sh
+
+# The save's fault trials as a person meets them (issue 13): two runs at
+# once, another program's save at a random moment, a kill at a random
+# moment, on a 7 MB workbook. Minutes; not part of test.
+save-trials: build
+	scripts/save-trials.py bin/slopewise pairs 12
+	scripts/save-trials.py bin/slopewise edits 30
+	scripts/save-trials.py bin/slopewise kills 40
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:
