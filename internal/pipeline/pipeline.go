@@ -39,7 +39,8 @@ func Analyze(ctx context.Context, run report.Run, progress func(rows int)) (*Ana
 	return AnalyzeTable(ctx, run, t)
 }
 
-// AnalyzeTable fits and builds from a table already read.
+// AnalyzeTable fits and builds from a table already read. The run's
+// Groupings are found from the table unless the caller has them.
 func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Analysis, error) {
 	run.Sheet, run.HeaderRow, run.Table = t.Sheet, t.HeaderRow, t.Region
 	if err := ctx.Err(); err != nil {
@@ -51,6 +52,9 @@ func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Anal
 	res, err := estimate.FitContext(ctx, EngineData(t), run.Spec, nil)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
+	}
+	if run.Groupings == nil {
+		run.Groupings = Groupings(t, run.Spec)
 	}
 	sheet, err := report.Build(run, res)
 	if err != nil {

@@ -25,6 +25,11 @@ type Source struct {
 	Table *workbook.Table
 	// Stream is the surveyed text file; nil when read whole.
 	Stream *workbook.Stream
+
+	// groupings is the last answer of Groupings, for the spec whose
+	// groupingKey is groupingsKey.
+	groupings    []report.Grouping
+	groupingsKey string
 }
 
 // Open readies the run's file for Analyze: a text file is surveyed for a
@@ -67,6 +72,9 @@ func (s *Source) Outline() *workbook.Table {
 // in memory, so the result is always Fit's. The Analysis of a streamed
 // fit has no Table.
 func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error) {
+	if s.groupingsKey == groupingKey(run.Spec) {
+		run.Groupings = s.groupings
+	}
 	if s.Stream == nil {
 		return AnalyzeTable(ctx, run, s.Table)
 	}
@@ -82,6 +90,9 @@ func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(o), err)
+	}
+	if run.Groupings, err = s.Groupings(ctx, run.Spec); err != nil {
+		return nil, err
 	}
 	sheet, err := report.Build(run, res)
 	if err != nil {

@@ -1,0 +1,404 @@
+package pipeline
+
+import (
+	"cmp"
+	"context"
+	"fmt"
+	"hash/maphash"
+	"math"
+	"slices"
+
+	"slopewise/internal/estimate"
+	"slopewise/internal/io/workbook"
+	"slopewise/internal/report"
+)
+
+// Thresholds of the grouping check.
+const (
+	// nestShare: a column holds the moderator (the treatment) constant
+	// when, beyond what chance alone would give, at least this share of
+	// the rows lie in its values within which the moderator does not vary
+	// (kappa = (s − e)/(1 − e), s the share seen, e the share expected if
+	// the column's values were unrelated to the moderator). Why 0.9: for
+	// an indicator with an even split, a share s of rows in values within
+	// which it is constant gives an intraclass correlation of at least s
+	// (the within-value variance, at most (1 − s)/4, over the total 1/4),
+	// and Moulton's understatement factor 1 + (m − 1)·ρx·ρe grows with
+	// it; at 0.9 it is at least nine tenths of what full nesting gives,
+	// while a few rows that moved or were mistyped do not hide the
+	// pattern. Our derivation from Moulton (1990).
+	nestShare = 0.9
+	// repeatShare and maxRepeatRows: a column repeats units when at least
+	// this share of its rows lie in values holding the same number of
+	// rows, from 2 to maxRepeatRows, which is how an identifier of people
+	// seen before and after, or at a few visits, looks; a measurement
+	// such as age spreads its counts instead, and sites of a balanced
+	// design hold more rows each. The data cannot tell a person seen 12
+	// times from a site of 12 people: both are reported. Our choice, with
+	// a year of monthly visits as the upper end.
+	repeatShare   = 0.8
+	maxRepeatRows = 12
+	// maxGroupingColumns: the check looks at the first this many
+	// candidate columns in sheet order, so that a sheet of thousands of
+	// columns stays quick. Our choice.
+	maxGroupingColumns = 100
+	// maxTrackedValues bounds, over all candidate columns, the distinct
+	// values the check keeps, so that a streamed file's memory does not
+	// grow with its rows; a column past the bound is left unchecked (it
+	// has far too many values to be a useful cluster anyway, or is an
+	// identifier of one row each). Our choice: about 40 MB.
+	maxTrackedValues = 1 << 20
+)
+
+// Groupings finds the columns that group the rows the spec uses: for each
+// column of text, yes/no values or whole numbers that is not in the model
+// (the cluster column included, marked), whether it holds the moderator
+// constant within each of its values, the treatment (assignment by site),
+// or repeats units (an identifier with several rows each). A column with
+// one value, with one row per value, or that is the moderator or the
+// treatment under another name is left out. The strongest come first.
+// One pass over the rows. The answer is never nil, so that a run can tell
+// "none found" from "not looked".
+func Groupings(t *workbook.Table, s estimate.Spec) []report.Grouping {
+	sc := newGroupingScan(t, s)
+	if sc == nil {
+		return []report.Grouping{}
+	}
+	sc.add(EngineData(t))
+	return sc.result()
+}
+
+// Groupings is the package's Groupings for a source: a table read whole,
+// or one more pass over a streamed file. The answer for a spec is kept,
+// so that asking before and after a fit costs one pass.
+func (s *Source) Groupings(ctx context.Context, spec estimate.Spec) ([]report.Grouping, error) {
+	key := groupingKey(spec)
+	if s.groupings != nil && s.groupingsKey == key {
+		return s.groupings, nil
+	}
+	gs := []report.Grouping{}
+	if s.Stream == nil {
+		gs = Groupings(s.Table, spec)
+	} else if sc := newGroupingScan(s.Stream.Outline, spec); sc != nil {
+		names := usedColumns(s.Stream.Outline, spec)
+		for _, name := range sc.names {
+			if !slices.Contains(names, name) {
+				names = append(names, name)
+			}
+		}
+		err := streamChunks{s.Stream, names}.Pass(ctx, func(d *estimate.Data, release func()) error {
+			defer release()
+			sc.add(d)
+			return nil
+		})
+		if err != nil {
+			return nil, err
+		}
+		gs = sc.result()
+	}
+	s.groupings, s.groupingsKey = gs, key
+	return gs, nil
+}
+
+// groupingKey is what the check's answer depends on in a spec.
+func groupingKey(s estimate.Spec) string {
+	k := s.Treatment.Column + "\x00" + string(s.Treatment.Kind) + s.Treatment.Treated + "\x00"
+	for _, name := range specColumns(s) {
+		k += name + "\x00"
+	}
+	return k
+}
+
+// groupingScan gathers, chunk by chunk, what each candidate column's
+// values hold. Values are kept as 64-bit hashes (texts) or bit patterns
+// (numbers), so memory grows with the distinct values, not with their
+// length; two texts sharing a hash, about one chance in 10¹³ among a
+// million values, would be read as one value.
+type groupingScan struct {
+	spec   estimate.Spec
+	used   map[string]bool
+	names  []string
+	cands  []*candidate
+	mod    levelCount
+	trt    levelCount
+	rows   int
+	seed   maphash.Seed
+	budget int
+}
+
+// candidate is one column's values so far.
+type candidate struct {
+	name    string
+	cluster bool
+	index   map[uint64]int32
+	values  []valueFacts
+	rows    int
+	dropped bool // not whole numbers, or too many values to keep
+}
+
+// valueFacts are one value's rows and what the moderator and the
+// treatment are on them.
+type valueFacts struct {
+	n                  int
+	mod, trt           uint64
+	modMixed, trtMixed bool
+}
+
+// levelCount counts the rows of each value of the moderator or the
+// treatment, for the share that chance alone would hold constant; past
+// maxTrackedValues values, the rest are counted together (untracked).
+type levelCount struct {
+	n         map[uint64]int
+	untracked int
+}
+
+func (l *levelCount) add(k uint64) {
+	if _, ok := l.n[k]; ok || len(l.n) < maxTrackedValues {
+		l.n[k]++
+		return
+	}
+	l.untracked++
+}
+
+// sameChance is the probability that n rows drawn at random all have the
+// same value: Σ p_l^n over the values' shares p_l, levels of equal
+// counts taken together so that the cost stays linear. Rows past the
+// tracked values are taken as one value, which can only raise it.
+func (l *levelCount) sameChance(ns []int, total int) map[int]float64 {
+	byCount := map[int]int{}
+	for _, c := range l.n {
+		byCount[c]++
+	}
+	if l.untracked > 0 {
+		byCount[l.untracked]++
+	}
+	out := make(map[int]float64, len(ns))
+	for _, n := range ns {
+		if _, done := out[n]; done {
+			continue
+		}
+		var p float64
+		for c, k := range byCount {
+			p += float64(k) * math.Pow(float64(c)/float64(total), float64(n))
+		}
+		out[n] = min(p, 1)
+	}
+	return out
+}
+
+// newGroupingScan picks the candidate columns of the table (or a
+// stream's outline) for a spec; nil when the spec lacks a role.
+func newGroupingScan(t *workbook.Table, s estimate.Spec) *groupingScan {
+	if s.Outcome == "" || s.Treatment.Column == "" || s.Moderator.Column == "" {
+		return nil
+	}
+	sc := &groupingScan{spec: s, used: map[string]bool{}, seed: maphash.MakeSeed(), budget: maxTrackedValues,
+		mod: levelCount{n: map[uint64]int{}}, trt: levelCount{n: map[uint64]int{}}}
+	model := map[string]bool{s.Outcome: true, s.Treatment.Column: true, s.Moderator.Column: true, s.Weights: true}
+	for _, c := range s.Controls {
+		model[c] = true
+	}
+	for _, name := range usedColumns(t, s) {
+		sc.used[name] = true
+	}
+	for _, c := range t.Columns {
+		switch {
+		case model[c.Name], len(sc.cands) == maxGroupingColumns && c.Name != s.Cluster:
+			continue
+		case c.Kind == workbook.Number, c.Kind == workbook.Category, c.Kind == workbook.YesNo, c.Kind == workbook.Text:
+			sc.names = append(sc.names, c.Name)
+			sc.cands = append(sc.cands, &candidate{name: c.Name, cluster: c.Name == s.Cluster, index: map[uint64]int32{}})
+		}
+	}
+	return sc
+}
+
+// add takes one chunk of rows: its usable rows (a usable value in every
+// column the spec uses) are counted for every candidate column that has
+// a value there.
+func (sc *groupingScan) add(d *estimate.Data) {
+	byName := map[string]*estimate.Column{}
+	for i := range d.Columns {
+		byName[d.Columns[i].Name] = &d.Columns[i]
+	}
+	usable := usableRows(d, sc.used)
+	mod, trt := byName[sc.spec.Moderator.Column], byName[sc.spec.Treatment.Column]
+	if mod == nil || trt == nil {
+		return
+	}
+	modKey := make([]uint64, len(usable))
+	trtKey := make([]uint64, len(usable))
+	for r, u := range usable {
+		if !u {
+			continue
+		}
+		modKey[r] = sc.key(mod, r)
+		trtKey[r] = sc.treatmentKey(trt, r)
+		sc.mod.add(modKey[r])
+		sc.trt.add(trtKey[r])
+		sc.rows++
+	}
+	for _, c := range sc.cands {
+		col := byName[c.name]
+		if c.dropped || col == nil {
+			continue
+		}
+		for r, u := range usable {
+			if !u || !hasValue(col, r) {
+				continue
+			}
+			if col.Num != nil && col.Num[r] != math.Trunc(col.Num[r]) {
+				sc.drop(c)
+				break
+			}
+			k := sc.key(col, r)
+			j, ok := c.index[k]
+			if !ok {
+				if sc.budget == 0 {
+					sc.drop(c)
+					break
+				}
+				sc.budget--
+				j = int32(len(c.values))
+				c.index[k] = j
+				c.values = append(c.values, valueFacts{mod: modKey[r], trt: trtKey[r]})
+			}
+			v := &c.values[j]
+			v.n++
+			v.modMixed = v.modMixed || v.mod != modKey[r]
+			v.trtMixed = v.trtMixed || v.trt != trtKey[r]
+			c.rows++
+		}
+	}
+}
+
+// drop leaves a column unchecked and gives its values back to the budget.
+func (sc *groupingScan) drop(c *candidate) {
+	sc.budget += len(c.values)
+	c.dropped, c.index, c.values = true, nil, nil
+}
+
+// key is row r's value of c as 64 bits: a number's bits (−0 as 0), or a
+// text's hash.
+func (sc *groupingScan) key(c *estimate.Column, r int) uint64 {
+	if c.Num != nil {
+		return math.Float64bits(c.Num[r] + 0)
+	}
+	return maphash.String(sc.seed, c.Text[r])
+}
+
+// treatmentKey is row r's treatment as the model reads it: treated or
+// not for labels, the value itself otherwise.
+func (sc *groupingScan) treatmentKey(c *estimate.Column, r int) uint64 {
+	if sc.spec.Treatment.Kind != estimate.TreatmentLabels {
+		return sc.key(c, r)
+	}
+	v := ""
+	if c.Text != nil {
+		v = c.Text[r]
+	} else {
+		v = fmt.Sprint(c.Num[r])
+	}
+	if v == sc.spec.Treatment.Treated {
+		return 1
+	}
+	return 0
+}
+
+// result turns the counts into findings, strongest first.
+func (sc *groupingScan) result() []report.Grouping {
+	out := []report.Grouping{}
+	for _, c := range sc.cands {
+		if c.dropped || len(c.values) < 2 || c.rows == 0 {
+			continue
+		}
+		ns := make([]int, len(c.values))
+		single := true
+		for i, v := range c.values {
+			ns[i] = v.n
+			single = single && v.n == 1
+		}
+		if single {
+			continue
+		}
+		g := report.Grouping{Column: c.name, Groups: len(c.values), Rows: sc.rows, Cluster: c.cluster}
+		modChance, trtChance := sc.mod.sameChance(ns, sc.rows), sc.trt.sameChance(ns, sc.rows)
+		var modChanceShare, trtChanceShare float64
+		modRows, trtRows := 0, 0
+		for _, v := range c.values {
+			w := float64(v.n) / float64(c.rows)
+			modChanceShare += w * modChance[v.n]
+			trtChanceShare += w * trtChance[v.n]
+			if !v.modMixed {
+				modRows += v.n
+			}
+			if !v.trtMixed {
+				trtRows += v.n
+			}
+		}
+		modSeen, trtSeen := float64(modRows)/float64(c.rows), float64(trtRows)/float64(c.rows)
+		g.ModeratorShare, g.TreatmentShare = modSeen, trtSeen
+		// A column that is the moderator or the treatment under another
+		// name (as many values, each all of one) says nothing new.
+		sameAsMod := modSeen == 1 && len(c.values) == len(sc.mod.n) && sc.mod.untracked == 0
+		sameAsTrt := trtSeen == 1 && len(c.values) == len(sc.trt.n) && sc.trt.untracked == 0
+		if (sameAsMod || sameAsTrt) && !c.cluster {
+			continue
+		}
+		g.NestsModerator = beyondChance(modSeen, modChanceShare) >= nestShare
+		g.NestsTreatment = beyondChance(trtSeen, trtChanceShare) >= nestShare
+		g.RowsEach, g.Repeats = repeats(ns, c.rows)
+		if g.NestsModerator || g.NestsTreatment || g.Repeats || g.Cluster {
+			out = append(out, g)
+		}
+	}
+	slices.SortStableFunc(out, func(a, b report.Grouping) int {
+		return cmp.Or(
+			-cmp.Compare(strength(a), strength(b)),
+			-cmp.Compare(a.Groups, b.Groups))
+	})
+	return out
+}
+
+// beyondChance is the share seen beyond the share expected by chance,
+// (s − e)/(1 − e), or 0 when chance alone gives every row.
+func beyondChance(seen, chance float64) float64 {
+	if chance >= 1 {
+		return 0
+	}
+	return (seen - chance) / (1 - chance)
+}
+
+// strength ranks findings: nesting by the larger share it holds
+// constant, above repeated units by the share of rows in the usual count.
+func strength(g report.Grouping) float64 {
+	switch {
+	case g.NestsModerator && g.NestsTreatment:
+		return 2 + max(g.ModeratorShare, g.TreatmentShare)
+	case g.NestsModerator:
+		return 1 + g.ModeratorShare
+	case g.NestsTreatment:
+		return 1 + g.TreatmentShare
+	case g.Repeats:
+		return 0.5
+	}
+	return 0
+}
+
+// repeats finds the count of rows most values hold and whether the
+// column looks like an identifier of units seen several times: at least
+// repeatShare of its rows in values of that count, from 2 to
+// maxRepeatRows, and more values than rows in each (so that a column of
+// periods, a few values of many rows, is not read as one).
+func repeats(ns []int, rows int) (each int, ok bool) {
+	byCount := map[int]int{}
+	for _, n := range ns {
+		byCount[n] += n
+	}
+	for n, r := range byCount {
+		if r > byCount[each] || r == byCount[each] && n < each {
+			each = n
+		}
+	}
+	return each, each >= 2 && each <= maxRepeatRows && each < len(ns) && float64(byCount[each]) >= repeatShare*float64(rows)
+}
