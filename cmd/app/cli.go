@@ -65,6 +65,16 @@ Roles:
   --center V               subtract V from a number moderator before fitting
   --controls A,B,..        other columns to adjust for
   --cluster COL            rows of the same value are alike (sites, classes)
+  --grouping warn|refuse   what to do when the data show that the rows come
+                           in groups that --cluster does not allow for: a
+                           column holds the moderator or the treatment
+                           constant within each of its values (every row of
+                           a site has the same region), or repeats units (an
+                           identifier with several rows each). warn (the
+                           default) prints the finding and keeps it in the
+                           results' cautions; refuse stops with exit status 1
+                           before fitting, for scripts that must not run
+                           without the right cluster
   --weights COL            a weight for each row (sampling or precision weights)
 
 Options:
@@ -288,6 +298,7 @@ type analyzeFlags struct {
 	moderator, moderatorType, ref string
 	values, center                string
 	planned                       bool
+	grouping                      string
 }
 
 func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
@@ -300,6 +311,7 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.values, "moderator-values", "", "")
 	fs.StringVar(&f.center, "center", "", "")
 	fs.BoolVar(&f.planned, "planned", false, "")
+	fs.StringVar(&f.grouping, "grouping", "warn", "")
 	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
 		return nil, err
 	}
@@ -313,6 +325,9 @@ func (f *analyzeFlags) check() error {
 	}
 	if f.moderator == "" {
 		return usagef("--moderator is required")
+	}
+	if f.grouping != "warn" && f.grouping != "refuse" {
+		return usagef("--grouping must be warn or refuse, not %q", f.grouping)
 	}
 	switch f.moderatorType {
 	case "", "binary", "category", "number":
@@ -596,12 +611,24 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if run.Spec, err = f.spec(src.Outline()); err != nil {
 		return err
 	}
+	if f.grouping == "refuse" {
+		gs, err := src.Groupings(ctx, run.Spec)
+		if err != nil {
+			return err
+		}
+		if col, words := report.GroupingWarning(run.Spec, gs); words != "" {
+			return fmt.Errorf("%s: the rows come in groups that the standard errors would not allow for, and --grouping refuse stops here. %s Give --cluster %s, or --grouping warn to run with this warning.", f.file, words, col)
+		}
+	}
 	a, err := src.Analyze(ctx, run)
 	if err != nil {
 		return err
 	}
 	human := f.human(stdout, stderr)
 	f.printNotices(human)
+	if col, words := report.GroupingWarning(a.Run.Spec, a.Run.Groupings); words != "" {
+		fmt.Fprintf(human, "Warning: %s Give --cluster %s to allow for it.\n\n", words, col)
+	}
 	printSummary(human, a)
 	// The guard is for reading and fitting: ended in the middle of a save
 	// it would leave its temporary files and say nothing was changed.
