@@ -155,7 +155,7 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 			add(Warning, "The cluster column %q has only %d clusters. With fewer than about 40, cluster-robust errors are too optimistic: keep the wild cluster bootstrap on (it is on by default), and treat borderline results with care.", s.Cluster, g)
 		}
 	}
-	if column, words := report.GroupingWarning(s, Groupings(t, s)); words != "" {
+	if column, words := report.GroupingWarning(s, groupingsOf(t, d, s)); words != "" {
 		out = append(out, Check{Severity: Warning, Cluster: column,
 			Message: fmt.Sprintf("%s Choose %q as the cluster column to allow for it.", words, column)})
 	}

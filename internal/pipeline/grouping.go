@@ -43,11 +43,13 @@ const (
 	// columns stays quick. Our choice.
 	maxGroupingColumns = 100
 	// maxTrackedValues bounds, over all candidate columns, the distinct
-	// values the check keeps, so that a streamed file's memory does not
-	// grow with its rows; a column past the bound is left unchecked (it
-	// has far too many values to be a useful cluster anyway, or is an
-	// identifier of one row each). Our choice: about 40 MB.
-	maxTrackedValues = 1 << 20
+	// values the check keeps, so that memory does not grow with the rows
+	// of a streamed file: when the bound is reached, the column with the
+	// most values is left unchecked (an identifier of one row each, most
+	// often). So a column of more than 262,144 values is never reported,
+	// people seen twice in a panel of that size included. Our choice:
+	// about 16 MB.
+	maxTrackedValues = 1 << 18
 )
 
 // Groupings finds the columns that group the rows the spec uses: for each
@@ -60,44 +62,75 @@ const (
 // One pass over the rows. The answer is never nil, so that a run can tell
 // "none found" from "not looked".
 func Groupings(t *workbook.Table, s estimate.Spec) []report.Grouping {
+	return groupingsOf(t, EngineData(t), s)
+}
+
+// groupingsOf is Groupings on the table's columns already adapted.
+func groupingsOf(t *workbook.Table, d *estimate.Data, s estimate.Spec) []report.Grouping {
 	sc := newGroupingScan(t, s)
 	if sc == nil {
 		return []report.Grouping{}
 	}
-	sc.add(EngineData(t))
+	sc.add(d)
 	return sc.result()
 }
 
 // Groupings is the package's Groupings for a source: a table read whole,
-// or one more pass over a streamed file. The answer for a spec is kept,
-// so that asking before and after a fit costs one pass.
+// or one pass over a streamed file that asks for the columns the fit's
+// passes will ask for, so that the copy of them the first pass keeps
+// serves the fit. The answer for a spec is kept, so that asking before a
+// fit costs the fit nothing more.
 func (s *Source) Groupings(ctx context.Context, spec estimate.Spec) ([]report.Grouping, error) {
-	key := groupingKey(spec)
-	if s.groupings != nil && s.groupingsKey == key {
+	if gs := s.knownGroupings(spec); gs != nil {
+		return gs, nil
+	}
+	if s.Stream == nil {
+		s.keepGroupings(spec, Groupings(s.Table, spec))
 		return s.groupings, nil
 	}
-	gs := []report.Grouping{}
-	if s.Stream == nil {
-		gs = Groupings(s.Table, spec)
-	} else if sc := newGroupingScan(s.Stream.Outline, spec); sc != nil {
-		names := usedColumns(s.Stream.Outline, spec)
+	chunks, sc := s.chunks(spec)
+	if sc == nil {
+		return []report.Grouping{}, nil
+	}
+	chunks.tap = sc
+	err := chunks.Pass(ctx, func(_ *estimate.Data, release func()) error {
+		release()
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	s.keepGroupings(spec, sc.result())
+	return s.groupings, nil
+}
+
+// chunks are the streamed passes for a spec: the columns it uses and the
+// candidates of the grouping check, with the check's scan (nil when the
+// spec lacks a role).
+func (s *Source) chunks(spec estimate.Spec) (*streamChunks, *groupingScan) {
+	o := s.Stream.Outline
+	names := usedColumns(o, spec)
+	sc := newGroupingScan(o, spec)
+	if sc != nil {
 		for _, name := range sc.names {
 			if !slices.Contains(names, name) {
 				names = append(names, name)
 			}
 		}
-		err := streamChunks{s.Stream, names}.Pass(ctx, func(d *estimate.Data, release func()) error {
-			defer release()
-			sc.add(d)
-			return nil
-		})
-		if err != nil {
-			return nil, err
-		}
-		gs = sc.result()
 	}
-	s.groupings, s.groupingsKey = gs, key
-	return gs, nil
+	return &streamChunks{s: s.Stream, names: names}, sc
+}
+
+// knownGroupings is the answer kept for the spec, or nil.
+func (s *Source) knownGroupings(spec estimate.Spec) []report.Grouping {
+	if s.groupings != nil && s.groupingsKey == groupingKey(spec) {
+		return s.groupings
+	}
+	return nil
+}
+
+func (s *Source) keepGroupings(spec estimate.Spec, gs []report.Grouping) {
+	s.groupings, s.groupingsKey = gs, groupingKey(spec)
 }
 
 // groupingKey is what the check's answer depends on in a spec.
@@ -124,6 +157,8 @@ type groupingScan struct {
 	rows   int
 	seed   maphash.Seed
 	budget int
+	// complete is set when a streamed pass has given every chunk.
+	complete bool
 }
 
 // candidate is one column's values so far.
@@ -254,8 +289,7 @@ func (sc *groupingScan) add(d *estimate.Data) {
 			k := sc.key(col, r)
 			j, ok := c.index[k]
 			if !ok {
-				if sc.budget == 0 {
-					sc.drop(c)
+				if sc.budget == 0 && sc.dropLargest() == c {
 					break
 				}
 				sc.budget--
@@ -270,6 +304,19 @@ func (sc *groupingScan) add(d *estimate.Data) {
 			c.rows++
 		}
 	}
+}
+
+// dropLargest leaves unchecked the column with the most values, which
+// is the one nearest to an identifier of one row each, and returns it.
+func (sc *groupingScan) dropLargest() *candidate {
+	var largest *candidate
+	for _, c := range sc.cands {
+		if !c.dropped && (largest == nil || len(c.values) > len(largest.values)) {
+			largest = c
+		}
+	}
+	sc.drop(largest)
+	return largest
 }
 
 // drop leaves a column unchecked and gives its values back to the budget.

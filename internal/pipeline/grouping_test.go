@@ -214,6 +214,26 @@ func TestGroupingsStreamed(t *testing.T) {
 	}
 }
 
+// TestGroupingsBudget: when the values kept reach the bound, the column
+// with the most values (an identifier of one row each) is let go, not
+// the column that happened to add the next value.
+func TestGroupingsBudget(t *testing.T) {
+	header, rows := sites(t, func(s, i int) (int, string) { return i % 2, []string{"north", "south", "east"}[s/10] })
+	tb := table(t, header, rows)
+	sc := newGroupingScan(tb, regionSpec())
+	sc.budget = 200 // pid alone has 600 values; site 30, age 37
+	sc.add(EngineData(tb))
+	for _, c := range sc.cands {
+		// score is let go too, for its decimals.
+		if c.dropped != (c.name == "pid" || c.name == "score") {
+			t.Errorf("%s dropped: %v", c.name, c.dropped)
+		}
+	}
+	if site := byColumn(sc.result(), "site"); site == nil || !site.NestsModerator {
+		t.Errorf("site: %+v", site)
+	}
+}
+
 // BenchmarkGroupings measures the check on 200,000 rows with 200 sites
 // and a column of one row each.
 func BenchmarkGroupings(b *testing.B) {
