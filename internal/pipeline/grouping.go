@@ -7,6 +7,8 @@ import (
 	"hash/maphash"
 	"math"
 	"slices"
+	"strings"
+	"sync"
 
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
@@ -62,17 +64,40 @@ const (
 // One pass over the rows. The answer is never nil, so that a run can tell
 // "none found" from "not looked".
 func Groupings(t *workbook.Table, s estimate.Spec) []report.Grouping {
-	return groupingsOf(t, EngineData(t), s)
+	return groupingsOf(t, nil, s)
 }
 
-// groupingsOf is Groupings on the table's columns already adapted.
+// groupingsOf is Groupings on the table's columns already adapted (or
+// adapted here when d is nil). The
+// last answer is kept: the window checks the roles after every choice,
+// and most choices (a reference group, values to report at) leave the
+// answer as it was.
 func groupingsOf(t *workbook.Table, d *estimate.Data, s estimate.Spec) []report.Grouping {
-	sc := newGroupingScan(t, s)
-	if sc == nil {
-		return []report.Grouping{}
+	key := groupingKey(s)
+	lastGroupings.Lock()
+	defer lastGroupings.Unlock()
+	if lastGroupings.table == t && lastGroupings.key == key {
+		return lastGroupings.gs
 	}
-	sc.add(d)
-	return sc.result()
+	gs := []report.Grouping{}
+	if sc := newGroupingScan(t, s); sc != nil {
+		if d == nil {
+			d = EngineData(t)
+		}
+		sc.add(d)
+		gs = sc.result()
+	}
+	lastGroupings.table, lastGroupings.key, lastGroupings.gs = t, key, gs
+	return gs
+}
+
+// lastGroupings is the last answer of groupingsOf. A table is never
+// changed once read, so its pointer and the spec's key name the answer.
+var lastGroupings struct {
+	sync.Mutex
+	table *workbook.Table
+	key   string
+	gs    []report.Grouping
 }
 
 // Groupings is the package's Groupings for a source: a table read whole,
@@ -133,13 +158,12 @@ func (s *Source) keepGroupings(spec estimate.Spec, gs []report.Grouping) {
 	s.groupings, s.groupingsKey = gs, groupingKey(spec)
 }
 
-// groupingKey is what the check's answer depends on in a spec.
+// groupingKey is what the check's answer depends on in a spec: each role
+// by name, the treatment's reading, and the controls.
 func groupingKey(s estimate.Spec) string {
-	k := s.Treatment.Column + "\x00" + string(s.Treatment.Kind) + s.Treatment.Treated + "\x00"
-	for _, name := range specColumns(s) {
-		k += name + "\x00"
-	}
-	return k
+	parts := append([]string{s.Outcome, s.Treatment.Column, string(s.Treatment.Kind), s.Treatment.Treated,
+		s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...)
+	return strings.Join(parts, "\x00")
 }
 
 // groupingScan gathers, chunk by chunk, what each candidate column's
