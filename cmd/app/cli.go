@@ -224,6 +224,7 @@ type modelFlags struct {
 	draws                       int
 	seed                        uint64
 	margin                      float64
+	grouping                    string // warn or refuse
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -259,6 +260,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.draws, "draws", 0, "")
 	fs.Uint64Var(&f.seed, "seed", 0, "")
 	fs.Float64Var(&f.margin, "equivalence-margin", 0, "")
+	fs.StringVar(&f.grouping, "grouping", "warn", "")
 }
 
 // parse reads the command line into fs, the file coming before or after
@@ -298,7 +300,6 @@ type analyzeFlags struct {
 	moderator, moderatorType, ref string
 	values, center                string
 	planned                       bool
-	grouping                      string
 }
 
 func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
@@ -311,7 +312,6 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.values, "moderator-values", "", "")
 	fs.StringVar(&f.center, "center", "", "")
 	fs.BoolVar(&f.planned, "planned", false, "")
-	fs.StringVar(&f.grouping, "grouping", "warn", "")
 	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
 		return nil, err
 	}
@@ -325,9 +325,6 @@ func (f *analyzeFlags) check() error {
 	}
 	if f.moderator == "" {
 		return usagef("--moderator is required")
-	}
-	if f.grouping != "warn" && f.grouping != "refuse" {
-		return usagef("--grouping must be warn or refuse, not %q", f.grouping)
 	}
 	switch f.moderatorType {
 	case "", "binary", "category", "number":
@@ -389,6 +386,9 @@ func (f *modelFlags) check() error {
 	}
 	if _, ok := copyDataChoices[f.copyData]; !ok {
 		return usagef("--copy-data must be auto, yes or no, not %q", f.copyData)
+	}
+	if f.grouping != "warn" && f.grouping != "refuse" {
+		return usagef("--grouping must be warn or refuse, not %q", f.grouping)
 	}
 	if f.set["equivalence-margin"] && !(f.margin > 0 && !math.IsInf(f.margin, 0)) {
 		return usagef("--equivalence-margin must be a positive number in the outcome's units, not %g", f.margin)
@@ -616,8 +616,8 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		if err != nil {
 			return err
 		}
-		if col, words := report.GroupingWarning(run.Spec, gs); words != "" {
-			return fmt.Errorf("%s: the rows come in groups that the standard errors would not allow for, and --grouping refuse stops here. %s Give --cluster %s, or --grouping warn to run with this warning.", f.file, words, col)
+		if err := f.refuseGrouped("", run.Spec, gs); err != nil {
+			return err
 		}
 	}
 	a, err := src.Analyze(ctx, run)
@@ -626,9 +626,7 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	}
 	human := f.human(stdout, stderr)
 	f.printNotices(human)
-	if col, words := report.GroupingWarning(a.Run.Spec, a.Run.Groupings); words != "" {
-		fmt.Fprintf(human, "Warning: %s Give --cluster %s to allow for it.\n\n", words, col)
-	}
+	printGrouping(human, "", a.Run.Spec, a.Run.Groupings)
 	printSummary(human, a)
 	// The guard is for reading and fitting: ended in the middle of a save
 	// it would leave its temporary files and say nothing was changed.
@@ -640,6 +638,24 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return printJSON(stdout, report.Summarize(a.Run, a.Result))
 	}
 	return nil
+}
+
+// refuseGrouped is the refusal of --grouping refuse when the grouping
+// check warns; which names the moderator, for screen.
+func (f *modelFlags) refuseGrouped(which string, spec estimate.Spec, gs []report.Grouping) error {
+	col, words := report.GroupingWarning(spec, gs)
+	if words == "" {
+		return nil
+	}
+	return fmt.Errorf("%s: the rows come in groups that the standard errors would not allow for, and --grouping refuse stops here.%s %s Give --cluster %s, or --grouping warn to run with this warning.", f.file, which, words, col)
+}
+
+// printGrouping prints the grouping check's warning, if any; which names
+// the moderator, for screen.
+func printGrouping(w io.Writer, which string, spec estimate.Spec, gs []report.Grouping) {
+	if col, words := report.GroupingWarning(spec, gs); words != "" {
+		fmt.Fprintf(w, "Warning:%s %s Give --cluster %s to allow for it.\n\n", which, words, col)
+	}
 }
 
 // printSummary writes the effects and differences for a terminal.

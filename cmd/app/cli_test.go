@@ -967,3 +967,30 @@ func TestGroupingWarning(t *testing.T) {
 		t.Errorf("streamed text file, --grouping refuse: exit %d\n%s", code, errs)
 	}
 }
+
+// TestScreenGroupingWarning: screen makes the grouping check for each
+// moderator: region, a property of the sites, is warned about and
+// refused with --grouping refuse; first_time, which varies within every
+// site, is not; the moderator's own cautions in the JSON carry it.
+func TestScreenGroupingWarning(t *testing.T) {
+	path := writeDemo(t)
+	args := []string{"screen", path, "--outcome", "earnings_6m", "--treatment", "coached", "--moderators", "first_time,region", "--dry-run"}
+	code, out, errs := runCLI(t, append(args, "--json")...)
+	if code != exitOK || !strings.Contains(errs, "Warning: (moderator region) Every row of a site has the same region") || strings.Contains(errs, "(moderator first_time)") {
+		t.Fatalf("screen: exit %d\n%s", code, errs)
+	}
+	var o report.ScreenOutput
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range o.Moderators {
+		has := len(m.Detail.Cautions) > 0 && strings.HasPrefix(m.Detail.Cautions[0], "Every row of a site has the same region")
+		if has != (m.Moderator == "region") {
+			t.Errorf("moderator %s: cautions %q", m.Moderator, m.Detail.Cautions)
+		}
+	}
+	code, _, errs = runCLI(t, append(args, "--grouping", "refuse")...)
+	if code != exitData || !strings.Contains(errs, "For the moderator region: Every row of a site has the same region") {
+		t.Errorf("screen --grouping refuse: exit %d\n%s", code, errs)
+	}
+}

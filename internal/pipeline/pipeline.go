@@ -105,11 +105,24 @@ func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, pr
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
 	}
+	if sr.Groupings == nil {
+		sr.Groupings = ScreenGroupings(t, sr)
+	}
 	sheet, err := report.BuildScreen(sr, sc)
 	if err != nil {
 		return nil, err
 	}
 	return &ScreenAnalysis{Run: sr, Table: t, Screen: sc, Sheet: sheet}, nil
+}
+
+// ScreenGroupings are the Groupings of each moderator of a screen, in
+// order.
+func ScreenGroupings(t *workbook.Table, sr report.ScreenRun) [][]report.Grouping {
+	out := make([][]report.Grouping, len(sr.Candidates))
+	for i := range sr.Candidates {
+		out[i] = Groupings(t, sr.SpecFor(i))
+	}
+	return out
 }
 
 // Save writes the screen's results sheet into the workbook (or beside a
