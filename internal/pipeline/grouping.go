@@ -48,9 +48,9 @@ const (
 	// values the check keeps, so that memory does not grow with the rows
 	// of a streamed file: when the bound is reached, the column with the
 	// most values is left unchecked (an identifier of one row each, most
-	// often). So a column of more than 262,144 values is never reported,
-	// people seen twice in a panel of that size included. Our choice:
-	// about 16 MB.
+	// often), then the next largest if need be. So a column of more than
+	// 262,144 values is never reported, people seen twice in a panel of
+	// that size included. Our choice: about 16 MB.
 	maxTrackedValues = 1 << 18
 )
 
@@ -68,10 +68,9 @@ func Groupings(t *workbook.Table, s estimate.Spec) []report.Grouping {
 }
 
 // groupingsOf is Groupings on the table's columns already adapted (or
-// adapted here when d is nil). The
-// last answer is kept: the window checks the roles after every choice,
-// and most choices (a reference group, values to report at) leave the
-// answer as it was.
+// adapted here when d is nil). The last answer is kept: the window checks
+// the roles after every choice, and most choices (a reference group,
+// values to report at) leave the answer as it was.
 func groupingsOf(t *workbook.Table, d *estimate.Data, s estimate.Spec) []report.Grouping {
 	key := groupingKey(s)
 	lastGroupings.Lock()
@@ -169,8 +168,9 @@ func groupingKey(s estimate.Spec) string {
 // groupingScan gathers, chunk by chunk, what each candidate column's
 // values hold. Values are kept as 64-bit hashes (texts) or bit patterns
 // (numbers), so memory grows with the distinct values, not with their
-// length; two texts sharing a hash, about one chance in 10¹³ among a
-// million values, would be read as one value.
+// length; two texts sharing a hash would be read as one value, a chance
+// of about one in 500 million among the 2^18 values kept at most
+// (n²/2 pairs, each 2^-64).
 type groupingScan struct {
 	spec   estimate.Spec
 	used   map[string]bool
