@@ -41,6 +41,9 @@ type rolesScreen struct {
 	weights   *widget.Select
 	checks    *fyne.Container
 	form      *fyne.Container // holds the current form; rebuilt as choices change
+	// useCluster chooses the column a check suggests as the cluster; nil
+	// when no check suggests one. It acts only when tapped.
+	useCluster *widget.Button
 
 	filling    bool
 	lastChecks []pipeline.Check
@@ -309,8 +312,14 @@ func (s *rolesScreen) changed() {
 	} else {
 		s.lastChecks = pipeline.Precheck(s.u.table, spec)
 	}
+	s.useCluster = nil
 	for _, c := range s.lastChecks {
 		s.checks.Add(checkRow(c))
+		if c.Cluster != "" && s.useCluster == nil {
+			column := c.Cluster
+			s.useCluster = widget.NewButtonWithIcon(fmt.Sprintf("Use %q as the cluster", column), theme.ConfirmIcon(), func() { s.cluster.SetSelected(column) })
+			s.checks.Add(container.NewHBox(s.useCluster))
+		}
 	}
 	if len(s.lastChecks) == 0 {
 		s.checks.Add(checkRow(pipeline.Check{Severity: pipeline.Note, Message: "Nothing to warn about: every group has treated and untreated rows."}))

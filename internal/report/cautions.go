@@ -30,6 +30,9 @@ func Cautions(run Run, res *estimate.Result) []string {
 	var out []string
 	add := func(format string, args ...any) { out = append(out, fmt.Sprintf(format, args...)) }
 	m := res.Moderator.Column
+	if col, words := GroupingWarning(res.Spec, run.Groupings); words != "" {
+		add("%s The standard errors here do not allow for it: run again with %s as the cluster column.", words, quoted(col))
+	}
 	if !run.Randomized {
 		add("The treatment was not marked as randomly assigned, so these are associations, not effects: treated and untreated rows may differ in ways the controls do not capture.")
 	}

@@ -26,6 +26,7 @@ func Note(run Run, res *estimate.Result) string {
 	}
 	w.equivalence()
 	w.precision()
+	w.clusterBasis()
 	w.bootstrapSentences()
 	w.moderatorWords()
 	return strings.Join(w.sentences, " ")

@@ -19,6 +19,9 @@ type ScreenRun struct {
 	Base Run `json:"run"`
 	// Candidates are the moderators tried, in the order asked.
 	Candidates []Candidate `json:"candidates"`
+	// Groupings are, for each candidate in order, what the data show
+	// about the columns that group the rows (Run.Groupings); not stored.
+	Groupings [][]Grouping `json:"-"`
 }
 
 // Candidate is one moderator of a screen.
@@ -38,16 +41,27 @@ func (sr ScreenRun) Moderators() []estimate.Moderator {
 	return out
 }
 
+// SpecFor is the model of the i-th moderator: the base spec with it as
+// the moderator.
+func (sr ScreenRun) SpecFor(i int) estimate.Spec {
+	s := sr.Base.Spec
+	s.Moderator = sr.Candidates[i].Moderator
+	return s
+}
+
 // RunFor is the run of the i-th moderator read as an analysis of its own:
 // planned or not, one of how many tried, with its Holm-adjusted p-value,
 // so that its note reports an exploratory moderator only with the
 // adjusted p (METHODS §6, §9).
 func (sr ScreenRun) RunFor(sc *estimate.Screen, i int) Run {
 	r := sr.Base
-	r.Spec.Moderator = sr.Candidates[i].Moderator
+	r.Spec = sr.SpecFor(i)
 	r.Planned = sr.Candidates[i].Planned
 	r.ModeratorsTried = len(sr.Candidates)
 	r.AdjustedP = sc.Rows[i].PHolm
+	if i < len(sr.Groupings) {
+		r.Groupings = sr.Groupings[i]
+	}
 	return r
 }
 
