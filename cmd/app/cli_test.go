@@ -764,7 +764,7 @@ func TestScreenEndToEnd(t *testing.T) {
 			titles = append(titles, r[0])
 		}
 	}
-	want := []string{"What was asked", "Moderators compared", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
+	want := []string{"Moderators compared", "What was asked", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
 	if strings.Join(titles, "|") != strings.Join(want, "|") {
 		t.Errorf("sheet titles %q, want %q", titles, want)
 	}
