@@ -6,12 +6,12 @@ import (
 	"context"
 	"encoding/csv"
 	"fmt"
-	"io"
 	"math"
 	"os"
 	"os/exec"
 	"path/filepath"
 	"regexp"
+	"sort"
 	"strconv"
 	"strings"
 	"testing"
@@ -35,11 +35,18 @@ type formulaCase struct {
 
 var formulaCases = []formulaCase{
 	{name: "demo", moderator: estimate.Moderator{Column: demo.ColRegion, Kind: estimate.ModeratorCategorical},
-		spec: func(s *estimate.Spec) { s.Controls = []string{demo.ColAge, demo.ColBaselineScore}; s.Cluster = demo.ColSite }},
+		spec: func(s *estimate.Spec) {
+			s.Controls = []string{demo.ColAge, demo.ColBaselineScore}
+			s.Cluster = demo.ColSite
+		}},
 	{name: "weighted", moderator: estimate.Moderator{Column: demo.ColRegion, Kind: estimate.ModeratorCategorical},
 		spec: func(s *estimate.Spec) { s.Weights = demo.ColAge }},
 	{name: "clustered", moderator: estimate.Moderator{Column: demo.ColFirstTime, Kind: estimate.ModeratorBinary},
-		spec: func(s *estimate.Spec) { s.Cluster = demo.ColSite; s.Bootstrap.Off = true; s.Controls = []string{demo.ColAge} }},
+		spec: func(s *estimate.Spec) {
+			s.Cluster = demo.ColSite
+			s.Bootstrap.Off = true
+			s.Controls = []string{demo.ColAge}
+		}},
 	{name: "number-moderator", moderator: estimate.Moderator{Column: demo.ColBaselineScore, Kind: estimate.ModeratorContinuous},
 		spec: func(s *estimate.Spec) { s.Controls = []string{demo.ColAge} }},
 	{name: "screen", screen: []estimate.Moderator{{Column: demo.ColRegion, Kind: estimate.ModeratorCategorical},
@@ -207,47 +214,38 @@ var formulaCell = regexp.MustCompile(`<c r="([A-Z]+)([0-9]+)"([^>]*)><f>([^<]*)<
 // workbook's bytes with those results removed.
 func sheetFormulas(t *testing.T, path, sheet string) ([]storedFormula, []byte) {
 	t.Helper()
-	part := sheetPart(t, path, sheet)
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		t.Fatal(err)
+	all := parts(t, path)
+	part := sheetPart(t, all, sheet)
+	body := all[part]
+	var fs []storedFormula
+	for _, m := range formulaCell.FindAllSubmatch(body, -1) {
+		if strings.Contains(string(m[3]), `t="`) {
+			t.Errorf("%s: formula cell %s%s is stored with a type (%s), not as a number", sheet, m[1], m[2], m[3])
+		}
+		v, err := strconv.ParseFloat(string(m[5]), 64)
+		if err != nil {
+			t.Fatal(err)
+		}
+		row, _ := strconv.Atoi(string(m[2]))
+		fs = append(fs, storedFormula{ref: string(m[1]) + string(m[2]), formula: string(m[4]), row: row - 1, col: columnIndex(string(m[1])), value: v})
 	}
-	defer zr.Close()
+	if n := strings.Count(string(body), "<f>"); n != len(fs) {
+		t.Errorf("%s: %d formulas, %d with a stored result", sheet, n, len(fs))
+	}
+	all[part] = formulaCell.ReplaceAll(body, []byte(`<c r="$1$2"$3><f>$4</f></c>`))
 	var out bytes.Buffer
 	zw := zip.NewWriter(&out)
-	var fs []storedFormula
-	for _, f := range zr.File {
-		rc, err := f.Open()
+	names := make([]string, 0, len(all))
+	for name := range all {
+		names = append(names, name)
+	}
+	sort.Strings(names) // "[Content_Types].xml" first
+	for _, name := range names {
+		w, err := zw.Create(name)
+		if err == nil {
+			_, err = w.Write(all[name])
+		}
 		if err != nil {
-			t.Fatal(err)
-		}
-		body, err := io.ReadAll(rc)
-		rc.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
-		if f.Name == part {
-			for _, m := range formulaCell.FindAllSubmatch(body, -1) {
-				if strings.Contains(string(m[3]), `t="`) {
-					t.Errorf("%s: formula cell %s%s is stored with a type (%s), not as a number", sheet, m[1], m[2], m[3])
-				}
-				v, err := strconv.ParseFloat(string(m[5]), 64)
-				if err != nil {
-					t.Fatal(err)
-				}
-				row, _ := strconv.Atoi(string(m[2]))
-				fs = append(fs, storedFormula{ref: string(m[1]) + string(m[2]), formula: string(m[4]), row: row - 1, col: columnIndex(string(m[1])), value: v})
-			}
-			if n := strings.Count(string(body), "<f>"); n != len(fs) {
-				t.Errorf("%s: %d formulas, %d with a stored result", sheet, n, len(fs))
-			}
-			body = formulaCell.ReplaceAll(body, []byte(`<c r="$1$2"$3><f>$4</f></c>`))
-		}
-		w, err := zw.Create(f.Name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if _, err := w.Write(body); err != nil {
 			t.Fatal(err)
 		}
 	}
@@ -259,36 +257,17 @@ func sheetFormulas(t *testing.T, path, sheet string) ([]storedFormula, []byte) {
 
 // sheetPart is the zip part of a sheet, through the workbook's
 // relationships.
-func sheetPart(t *testing.T, path, sheet string) string {
+func sheetPart(t *testing.T, all map[string][]byte, sheet string) string {
 	t.Helper()
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer zr.Close()
-	read := func(name string) string {
-		for _, f := range zr.File {
-			if f.Name == name {
-				rc, _ := f.Open()
-				b, _ := io.ReadAll(rc)
-				rc.Close()
-				return string(b)
-			}
-		}
-		t.Fatalf("no part %s", name)
-		return ""
-	}
-	wb := read("xl/workbook.xml")
-	m := regexp.MustCompile(`<sheet [^>]*name="` + regexp.QuoteMeta(sheet) + `"[^>]*r:id="([^"]+)"`).FindStringSubmatch(wb)
+	m := regexp.MustCompile(`<sheet [^>]*name="` + regexp.QuoteMeta(sheet) + `"[^>]*r:id="([^"]+)"`).FindSubmatch(all["xl/workbook.xml"])
 	if m == nil {
-		t.Fatalf("no sheet %q in %s", sheet, wb)
+		t.Fatalf("no sheet %q in the workbook", sheet)
 	}
-	rels := read("xl/_rels/workbook.xml.rels")
-	target := regexp.MustCompile(`<Relationship [^>]*Id="` + m[1] + `"[^>]*Target="([^"]+)"|<Relationship [^>]*Target="([^"]+)"[^>]*Id="` + m[1] + `"`).FindStringSubmatch(rels)
+	target := regexp.MustCompile(`<Relationship [^>]*Id="` + string(m[1]) + `"[^>]*Target="([^"]+)"|<Relationship [^>]*Target="([^"]+)"[^>]*Id="` + string(m[1]) + `"`).FindSubmatch(all["xl/_rels/workbook.xml.rels"])
 	if target == nil {
 		t.Fatalf("no relationship %s", m[1])
 	}
-	p := target[1] + target[2]
+	p := string(target[1]) + string(target[2])
 	if strings.HasPrefix(p, "/") {
 		return strings.TrimPrefix(p, "/")
 	}
