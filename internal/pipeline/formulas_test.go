@@ -63,13 +63,7 @@ var formulaCases = []formulaCase{
 // 1e-9 relative — on the demo, on a weighted, a clustered and a
 // number-moderator analysis, and on a screen of several moderators.
 func TestSheetFormulasRecalculated(t *testing.T) {
-	bin, err := exec.LookPath("soffice")
-	if err != nil {
-		if os.Getenv("CI") == "true" {
-			t.Fatal("soffice (LibreOffice) is missing; CI installs it with the Debian package libreoffice-calc-nogui")
-		}
-		t.Skip("soffice (LibreOffice) is not installed")
-	}
+	bin := soffice(t)
 	dir := t.TempDir()
 	type written struct {
 		name, path, sheet string
@@ -77,14 +71,7 @@ func TestSheetFormulasRecalculated(t *testing.T) {
 	}
 	var books []written
 	for _, c := range formulaCases {
-		path := filepath.Join(dir, c.name+".xlsx")
-		book, err := demo.Workbook()
-		if err != nil {
-			t.Fatal(err)
-		}
-		if err := os.WriteFile(path, book, 0o644); err != nil {
-			t.Fatal(err)
-		}
+		path := writeDemo(t, filepath.Join(dir, c.name+".xlsx"))
 		spec := estimate.Spec{Outcome: demo.ColEarnings, Treatment: estimate.Treatment{Column: demo.ColCoached}, Moderator: c.moderator}
 		if c.spec != nil {
 			c.spec(&spec)
@@ -186,6 +173,32 @@ func TestSheetFormulasRecalculated(t *testing.T) {
 		}
 		t.Logf("%s: %d formulas recalculated by LibreOffice, largest relative difference from the engine %.2g", b.name, checked, worst)
 	}
+}
+
+// soffice is LibreOffice's program, which CI must have.
+func soffice(t *testing.T) string {
+	t.Helper()
+	bin, err := exec.LookPath("soffice")
+	if err != nil {
+		if os.Getenv("CI") == "true" {
+			t.Fatal("soffice (LibreOffice) is missing; CI installs it with the Debian package libreoffice-calc-nogui")
+		}
+		t.Skip("soffice (LibreOffice) is not installed")
+	}
+	return bin
+}
+
+// writeDemo writes the demo workbook at path.
+func writeDemo(t *testing.T, path string) string {
+	t.Helper()
+	book, err := demo.Workbook()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(path, book, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path
 }
 
 // engineValues collects the engine's effects, differences and their

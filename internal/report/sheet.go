@@ -62,13 +62,14 @@ func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
 // effect in each group and the note.
 func (b *sheetBuilder) answer() error {
 	run, res := b.run, b.res
-	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
+	h := sheetChartHeight(res)
+	png, err := Chart(res, ChartOptions{Randomized: run.Randomized, Width: chartWidth, Height: h})
 	if err != nil {
 		return fmt.Errorf("drawing the chart: %w", err)
 	}
 	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Image: &Image{
 		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
-		PNG:   png, Width: chartWidth, Height: chartHeight,
+		PNG:   png, Width: chartWidth, Height: h,
 	}})
 	b.effects()
 	var rows [][]Cell
@@ -82,6 +83,16 @@ func (b *sheetBuilder) answer() error {
 	rows = append(rows, paragraphs(Cautions(run, res))...)
 	b.add("note", "In plain words", rows)
 	return nil
+}
+
+// sheetChartHeight is the height of the sheet's chart: for groups, room
+// for each group's row (a printed page holds more of the sheet), at most
+// the chart's usual height; for a number moderator, the usual height.
+func sheetChartHeight(res *estimate.Result) int {
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		return chartHeight
+	}
+	return min(chartHeight, max(chartMinSide+100, 180+55*len(res.Effects)))
 }
 
 // details adds the differences between groups and the checks of the

@@ -77,13 +77,17 @@ type placedImage struct {
 // heading widens its column only to its longest word, and wraps.
 const (
 	minWidth   = 7
-	firstWidth = 20
+	firstWidth = 26
 	otherWidth = 12
 	// headingWidth: a heading's longest word widens a column up to this
 	// ("Untreated", "Difference"); a longer word breaks inside the cell.
 	headingWidth = 11
-	lineHight    = 15 // points per line of 11-point text
-	rowPixels    = 20 // pixels a default row takes on screen
+	lineHight    = 15 // points a row of one line of 11-point text takes
+	// wrapLine is the height of each line of wrapped 11-point text: the
+	// default font's line is about 13.4 points (Carlito, with Calibri's
+	// metrics: ascent and descent 1.22 em), with a little to spare.
+	wrapLine  = 14
+	rowPixels = 20 // pixels a default row takes on screen
 )
 
 // Printed pages: portrait, fitted to one page wide. The breaks between
@@ -97,7 +101,7 @@ const (
 	printReserve  = 0.97
 	// printWidthChars is the width, in characters, a sheet is widened to
 	// (about 660 points at 7 pixels a character, printed at about 80%).
-	printWidthChars = 122
+	printWidthChars = 126
 	// titleHeight is the height of a block's title row (13-point bold).
 	titleHeight = 18
 )
@@ -249,7 +253,7 @@ func layOut(s *report.Sheet) *layout {
 		return w
 	}
 	grow := func(row int, lines int) {
-		l.heights[row] = math.Min(409, math.Max(l.heights[row], float64(lines)*lineHight+3))
+		l.heights[row] = math.Min(409, math.Max(l.heights[row], math.Max(lineHight, float64(lines)*wrapLine+3)))
 	}
 	merged := func(r, c int, cell report.Cell, style int, bold bool) {
 		if c < last {
@@ -284,8 +288,8 @@ func layOut(s *report.Sheet) *layout {
 			if len(cells) == 0 && i > 0 {
 				// A blank row inside a block ends one of its tables: each is
 				// kept whole on its own.
-				l.units = append(l.units, unit{from, r, keep})
-				from, keep = r, false
+				l.units = append(l.units, unit{from, r + 1, keep})
+				from, keep = r+1, false
 			}
 			for c, cell := range cells {
 				if c > last {
@@ -504,7 +508,7 @@ func newStyles(f *excelize.File) (*styles, error) {
 		styleHeading:   {Font: &excelize.Font{Bold: true}},
 		styleText:      {Alignment: &excelize.Alignment{Vertical: "top"}},
 		styleParagraph: {Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
-		stylePValue:    {CustomNumFmt: ptr(pValueFormat)},
+		stylePValue:    {CustomNumFmt: ptr(pValueFormat), Alignment: top},
 		styleSpec:      {Font: &excelize.Font{Size: 8, Color: "808080"}},
 		// The sheet's title, wrapped across the columns.
 		styleSheetTitle: {Font: &excelize.Font{Bold: true, Size: 14}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
@@ -516,7 +520,16 @@ func newStyles(f *excelize.File) (*styles, error) {
 		styleLabel:   {Font: &excelize.Font{Bold: true}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
 		styleWrapped: {Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
 	}
+	// Bold and sized text in the workbook's own font: a font without a
+	// name is drawn in whatever the reading program picks.
+	family, err := f.GetDefaultFont()
+	if err != nil {
+		return nil, err
+	}
 	for slot, def := range defs {
+		if def.Font != nil {
+			def.Font.Family = family
+		}
 		id, err := f.NewStyle(def)
 		if err != nil {
 			return nil, err
@@ -527,6 +540,9 @@ func newStyles(f *excelize.File) (*styles, error) {
 }
 
 func ptr[T any](v T) *T { return &v }
+
+// top aligns a number with the top line of the wrapped text beside it.
+var top = &excelize.Alignment{Vertical: "top"}
 
 // forCell returns the style id a cell is drawn with.
 func (s *styles) forCell(p placed) (int, error) {
@@ -549,7 +565,7 @@ func (s *styles) forCell(p placed) (int, error) {
 		if d > 0 {
 			format = "0." + strings.Repeat("0", d) + "%"
 		}
-		id, err := s.f.NewStyle(&excelize.Style{CustomNumFmt: &format})
+		id, err := s.f.NewStyle(&excelize.Style{CustomNumFmt: &format, Alignment: top})
 		s.percent[d] = id
 		return id, err
 	case report.Number:
@@ -560,7 +576,7 @@ func (s *styles) forCell(p placed) (int, error) {
 			return id, nil
 		}
 		format := p.cell.Format
-		id, err := s.f.NewStyle(&excelize.Style{CustomNumFmt: &format})
+		id, err := s.f.NewStyle(&excelize.Style{CustomNumFmt: &format, Alignment: top})
 		s.numbers[p.cell.Format] = id
 		return id, err
 	}
