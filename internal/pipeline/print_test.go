@@ -120,6 +120,14 @@ func cellText(sheet, ref string) string {
 // set to a folder, the PDF is kept there as results.pdf.
 func TestResultsSheetPrintsLegibly(t *testing.T) {
 	bin := soffice(t)
+	// The sheet's fonts are Calibri's; without it or Carlito (its
+	// metrics), LibreOffice draws wider characters and shrinks the page.
+	if font, err := exec.Command("fc-match", "Calibri").Output(); err != nil || !regexp.MustCompile(`(?i)carlito|calibri`).Match(font) {
+		if os.Getenv("CI") == "true" {
+			t.Fatalf("no font with Calibri's metrics (fc-match Calibri: %q, %v); CI installs the Debian package fonts-crosextra-carlito", font, err)
+		}
+		t.Skipf("no font with Calibri's metrics (fc-match Calibri: %q): install fonts-crosextra-carlito", font)
+	}
 	dir := t.TempDir()
 	a := demoAnalysis(t, dir)
 	// The sheet alone: written beside a text file, without its data.
