@@ -117,7 +117,9 @@ func cellText(sheet, ref string) string {
 // — and reads the PDF: at most 4 pages, and text at least 8 points high
 // (the font size of each piece of text as placed on the page, after the
 // scaling that fits the sheet to the page's width). With RESULTS_PAGES
-// set to a folder, the PDF is kept there as results.pdf.
+// set to a folder, the PDF is kept there as results.pdf, with the
+// Moderators sheet of a screen of the demo as moderators.pdf
+// (scripts/results-pages.sh makes the README's pictures of them).
 func TestResultsSheetPrintsLegibly(t *testing.T) {
 	bin := soffice(t)
 	// The sheet's fonts are Calibri's; without it or Carlito (its
@@ -130,15 +132,56 @@ func TestResultsSheetPrintsLegibly(t *testing.T) {
 	}
 	dir := t.TempDir()
 	a := demoAnalysis(t, dir)
-	// The sheet alone: written beside a text file, without its data.
-	src := filepath.Join(dir, "print", "slopewise-demo.csv")
-	if err := os.MkdirAll(filepath.Dir(src), 0o755); err != nil {
+	pdf := printSheet(t, bin, filepath.Join(dir, "results"), a.Sheet)
+	if keep := os.Getenv("RESULTS_PAGES"); keep != "" {
+		if err := os.WriteFile(filepath.Join(keep, "results.pdf"), pdf, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		// The Moderators sheet of a screen of the demo, for the README.
+		sr := report.ScreenRun{Base: a.Run}
+		sr.Base.Spec.Controls = []string{demo.ColAge}
+		for _, m := range []estimate.Moderator{{Column: demo.ColRegion, Kind: estimate.ModeratorCategorical},
+			{Column: demo.ColFirstTime, Kind: estimate.ModeratorBinary}, {Column: demo.ColBaselineScore, Kind: estimate.ModeratorContinuous}} {
+			sr.Candidates = append(sr.Candidates, report.Candidate{Moderator: m, Planned: m.Column == demo.ColRegion})
+		}
+		sa, err := Screen(context.Background(), sr, nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(filepath.Join(keep, "moderators.pdf"), printSheet(t, bin, filepath.Join(dir, "moderators"), sa.Sheet), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(pdf, -1))
+	sizes := textSizes(t, pdf)
+	body, smallest := mostCommon(sizes), math.Inf(1)
+	for s := range sizes {
+		if s > 0 { // text drawn at no size is not seen
+			smallest = math.Min(smallest, s)
+		}
+	}
+	t.Logf("%d pages; body text %.2f points high, the smallest %.2f", pages, body, smallest)
+	if pages < 1 || pages > 4 {
+		t.Errorf("the results sheet prints on %d pages, want 1 to 4", pages)
+	}
+	if body < 8 {
+		t.Errorf("body text %.2f points high, want at least 8", body)
+	}
+}
+
+// printSheet has LibreOffice print a results sheet to PDF: the sheet
+// alone, in a workbook of its own written beside a text file without its
+// data, in the folder dir.
+func printSheet(t *testing.T, bin, dir string, sheet *report.Sheet) []byte {
+	t.Helper()
+	src := filepath.Join(dir, "slopewise-demo.csv")
+	if err := os.MkdirAll(dir, 0o755); err != nil {
 		t.Fatal(err)
 	}
 	if err := os.WriteFile(src, []byte("a\n1\n"), 0o644); err != nil {
 		t.Fatal(err)
 	}
-	w, err := workbook.WriteResults(src, a.Sheet, workbook.WriteOptions{CopyData: workbook.CopyDataNever})
+	w, err := workbook.WriteResults(src, sheet, workbook.WriteOptions{CopyData: workbook.CopyDataNever})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -158,26 +201,7 @@ func TestResultsSheetPrintsLegibly(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if keep := os.Getenv("RESULTS_PAGES"); keep != "" {
-		if err := os.WriteFile(filepath.Join(keep, "results.pdf"), pdf, 0o644); err != nil {
-			t.Fatal(err)
-		}
-	}
-	pages := len(regexp.MustCompile(`/Type\s*/Page[^s]`).FindAll(pdf, -1))
-	sizes := textSizes(t, pdf)
-	body, smallest := mostCommon(sizes), math.Inf(1)
-	for s := range sizes {
-		if s > 0 { // text drawn at no size is not seen
-			smallest = math.Min(smallest, s)
-		}
-	}
-	t.Logf("%d pages; body text %.2f points high, the smallest %.2f", pages, body, smallest)
-	if pages < 1 || pages > 4 {
-		t.Errorf("the results sheet prints on %d pages, want 1 to 4", pages)
-	}
-	if body < 8 {
-		t.Errorf("body text %.2f points high, want at least 8", body)
-	}
+	return pdf
 }
 
 // textSizes counts the pieces of text of a PDF by the height at which

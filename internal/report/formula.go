@@ -156,4 +156,4 @@ func (b *sheetBuilder) covariance() {
 }
 
 // formulaCaption is the one line under a table whose numbers are formulas.
-const formulaCaption = "Estimates and standard errors are formulas: an effect adds up coefficients of “All terms of the model” (for a group, the treatment's plus the group's interaction term); its standard error is the square root of the matching sum in “Covariance of the estimates”. Select a cell to see it."
+const formulaCaption = "In the workbook, estimates and standard errors are formulas: an effect adds up coefficients of “All terms of the model” (for a group, the treatment's plus the group's interaction term); its standard error is the square root of the matching sum in “Covariance of the estimates”. Select a cell to see it."

@@ -315,7 +315,9 @@ func layOut(s *report.Sheet) *layout {
 				case cell.Kind == report.Text && len(cells) == 2 && c == 1:
 					merged(r, c, cell, styleWrapped, false)
 					continue
-				case cell.Kind == report.Text && table && c < len(cells)-1:
+				case cell.Kind == report.Text && table && (c < len(cells)-1 || c == last):
+					// Text wraps in its column, but the last of a row spills
+					// into the empty cells to its right, if there are any.
 					if float64(utf8.RuneCountInString(cell.Text))+1 > l.widths[c]*1.1 {
 						p.style = styleWrapped
 						grow(r, wrappedLines(cell.Text, l.widths[c], false))
