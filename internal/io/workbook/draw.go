@@ -397,13 +397,14 @@ func (l *layout) rowHeight(r int) float64 {
 	return lineHight
 }
 
-// pageBreaks places every page break of the printed sheet, so that the
-// spreadsheet program need place none of its own: before a table or a
-// picture that would otherwise be split across two pages but fits on one,
-// and within text or a table longer than a page where the page is full.
-// Pages are measured at the scale at which the sheet's columns fit one
-// page wide, with a reserve, so that a program whose page holds a little
-// more still breaks where these breaks say.
+// pageBreaks places the page breaks of the printed sheet: before a table
+// or a picture that would otherwise be split across two pages but fits on
+// one, and within text where the page is full, so that the spreadsheet
+// program need place none of its own. Pages are measured at the scale at
+// which the sheet's columns fit one page wide, with a reserve, so that a
+// program whose page holds a little more still breaks where these breaks
+// say. A block longer than a page (a long list of rows left out) is left
+// to the program to break, and the block after it starts a new page.
 func (l *layout) pageBreaks() []int {
 	total := 0.0
 	for _, w := range l.widths {
@@ -422,11 +423,19 @@ func (l *layout) pageBreaks() []int {
 		for r := next; r < u.from; r++ { // the blank row before the block
 			used += l.rowHeight(r)
 		}
+		next = u.to
 		h := 0.0
 		for r := u.from; r < u.to; r++ {
 			h += l.rowHeight(r)
 		}
-		if used > 0 && used+h > page && ((u.keep && h <= page) || page-used < page/4) {
+		switch {
+		case h > page:
+			if used > 0 && page-used < page/4 {
+				breaks = append(breaks, u.from)
+			}
+			used = page // where the program breaks it is its own: start afresh
+			continue
+		case used > 0 && used+h > page && (u.keep || page-used < page/4):
 			breaks = append(breaks, u.from)
 			used = 0
 		}
@@ -438,7 +447,6 @@ func (l *layout) pageBreaks() []int {
 				used += rh
 			}
 		}
-		next = u.to
 	}
 	return breaks
 }
@@ -447,9 +455,19 @@ func (l *layout) pageBreaks() []int {
 // sheet's cell names; a formula whose cells are not in the sheet is
 // dropped, and the cell keeps its value.
 func (l *layout) resolveFormulas() {
+	// The cells formulas refer to, and which of them hold numbers.
 	at := map[[2]int]bool{}
 	for _, p := range l.cells {
-		at[[2]int{p.row, p.col}] = isNumeric(p.cell.Kind)
+		for _, ref := range p.cell.Refs {
+			if rows := l.refs[ref.Block]; ref.Row >= 0 && ref.Row < len(rows) {
+				at[[2]int{rows[ref.Row], ref.Col}] = false
+			}
+		}
+	}
+	for _, p := range l.cells {
+		if _, ok := at[[2]int{p.row, p.col}]; ok {
+			at[[2]int{p.row, p.col}] = isNumeric(p.cell.Kind)
+		}
 	}
 	for i, p := range l.cells {
 		c := p.cell
