@@ -206,12 +206,12 @@ func longestWord(s string) int {
 
 // wrappedLines is how many lines text takes in a cell of width characters,
 // wrapped at spaces: a character of text takes about 0.85 of a digit's
-// width, a bold one about 1.1 (Carlito, Calibri's metrics, measured
+// width, a bold one about one (Carlito, Calibri's metrics, measured
 // in LibreOffice's pages).
 func wrappedLines(text string, width float64, bold bool) int {
 	room := width * 1.2
 	if bold {
-		room = width * 0.85
+		room = width * 0.95
 	}
 	room = math.Max(room-1, 1)
 	lines := 0
@@ -303,6 +303,8 @@ func layOut(s *report.Sheet) *layout {
 						l.merges = append(l.merges, [4]int{r, c, r, to})
 					}
 					grow(r, wrappedLines(cell.Text, spanWidth(c, to), false))
+				case cell.Kind == report.Heading && table && spillsBelow(b.Rows, i, c):
+					// Over text that spills to the right, the heading does too.
 				case cell.Kind == report.Heading && table:
 					p.style = styleColumnHeading
 					if numericBelow(b.Rows, i, c) {
@@ -373,6 +375,20 @@ func layOut(s *report.Sheet) *layout {
 	l.resolveFormulas()
 	l.breaks = l.pageBreaks()
 	return l
+}
+
+// spillsBelow reports a heading over the last text of the rows below it,
+// which spills into the empty cells to its right.
+func spillsBelow(rows [][]report.Cell, i, c int) bool {
+	if c != len(rows[i])-1 {
+		return false
+	}
+	for _, below := range rows[i+1:] {
+		if len(below) > 0 {
+			return c == len(below)-1 && below[c].Kind == report.Text
+		}
+	}
+	return false
 }
 
 // numericBelow reports a heading whose column holds numbers in the row
