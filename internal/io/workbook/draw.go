@@ -277,6 +277,12 @@ func layOut(s *report.Sheet) *layout {
 		if b.Title != "" {
 			l.cells = append(l.cells, placed{row: r, col: 0, cell: report.Cell{Kind: report.Heading, Text: b.Title}, style: styleTitle})
 			l.heights[r] = titleHeight
+			if lines := wrappedLines(b.Title, spanWidth(0, last)*11/13, true); lines > 1 {
+				// A title longer than the page is wide wraps across it.
+				l.merges = append(l.merges, [4]int{r, 0, r, last})
+				l.cells[len(l.cells)-1].style = styleTitleWrapped
+				l.heights[r] = float64(lines) * titleHeight
+			}
 			r++
 		}
 		keep := b.Image != nil
@@ -522,6 +528,7 @@ const (
 	styleNumberHeading
 	styleLabel
 	styleWrapped
+	styleTitleWrapped
 	numStyles
 )
 
@@ -540,12 +547,14 @@ type styles struct {
 func newStyles(f *excelize.File) (*styles, error) {
 	s := &styles{f: f, numbers: map[string]int{}, percent: map[int]int{}}
 	defs := map[int]*excelize.Style{
-		styleTitle:     {Font: &excelize.Font{Bold: true, Size: 13}},
-		styleHeading:   {Font: &excelize.Font{Bold: true}},
-		styleText:      {Alignment: &excelize.Alignment{Vertical: "top"}},
-		styleParagraph: {Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
-		stylePValue:    {CustomNumFmt: ptr(pValueFormat), Alignment: top},
-		styleSpec:      {Font: &excelize.Font{Size: 8, Color: "808080"}},
+		styleTitle: {Font: &excelize.Font{Bold: true, Size: 13}},
+		// A block's title too long for one line.
+		styleTitleWrapped: {Font: &excelize.Font{Bold: true, Size: 13}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
+		styleHeading:      {Font: &excelize.Font{Bold: true}},
+		styleText:         {Alignment: &excelize.Alignment{Vertical: "top"}},
+		styleParagraph:    {Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
+		stylePValue:       {CustomNumFmt: ptr(pValueFormat), Alignment: top},
+		styleSpec:         {Font: &excelize.Font{Size: 8, Color: "808080"}},
 		// The sheet's title, wrapped across the columns.
 		styleSheetTitle: {Font: &excelize.Font{Bold: true, Size: 14}, Alignment: &excelize.Alignment{WrapText: true, Vertical: "top"}},
 		// A table's column headings wrap in their column; over numbers

@@ -2,6 +2,7 @@ package workbook
 
 import (
 	"fmt"
+	"strings"
 	"testing"
 
 	"slopewise/internal/report"
@@ -78,5 +79,29 @@ func TestLayOutPageBreaks(t *testing.T) {
 	}
 	if fmt.Sprint(at) != "[two after]" {
 		t.Errorf("page breaks before %v, want before two (which does not fit after one) and after (after the long list)", at)
+	}
+}
+
+// TestLayOutLongTitle checks that a block's title longer than the sheet is
+// wide wraps across the sheet's columns in a taller row, and a short one
+// stays on one line.
+func TestLayOutLongTitle(t *testing.T) {
+	row := []report.Cell{report.HeadingCell("a"), report.HeadingCell("b"), report.HeadingCell("c")}
+	long := strings.Repeat("a rather long title ", 12)
+	l := layOut(&report.Sheet{Blocks: []report.Block{{Title: "Short", Rows: [][]report.Cell{row}}, {Title: long, Rows: [][]report.Cell{row}}}})
+	// Short's title in row 1, its headings in row 2, a blank row, the long
+	// title in row 4.
+	if h := l.rowHeight(0); h != titleHeight {
+		t.Errorf("short title: row %g points high", h)
+	}
+	if h := l.rowHeight(3); h < 2*titleHeight {
+		t.Errorf("long title: row %g points high, want two lines or more", h)
+	}
+	merged := false
+	for _, m := range l.merges {
+		merged = merged || m == [4]int{3, 0, 3, len(l.widths) - 1}
+	}
+	if !merged {
+		t.Errorf("long title not merged across the sheet: %v", l.merges)
 	}
 }
