@@ -3,9 +3,11 @@
 
 GO ?= go
 # R and sandwich: the engine's independent check; LibreOffice: workbook
-# interop; gcc, GL and X11 headers: building the window (cgo).
+# interop and the printed results sheet, with Carlito (Calibri's metrics,
+# so that LibreOffice lays out the sheet's columns as Excel does);
+# gcc, GL and X11 headers: building the window (cgo).
 GUI_PACKAGES := gcc libgl1-mesa-dev xorg-dev
-APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui $(GUI_PACKAGES)
+APT_PACKAGES := r-base-core r-cran-sandwich libreoffice-calc-nogui fonts-crosextra-carlito $(GUI_PACKAGES)
 
 .PHONY: test deps build-deps build demo screenshots go-test crosscheck-r bench vet size-study interop-corpus attack wine-tests save-trials
 

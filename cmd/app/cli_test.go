@@ -765,7 +765,7 @@ func TestScreenEndToEnd(t *testing.T) {
 			titles = append(titles, r[0])
 		}
 	}
-	want := []string{"What was asked", "Moderators compared", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
+	want := []string{"Moderators compared", "What was asked", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
 	if strings.Join(titles, "|") != strings.Join(want, "|") {
 		t.Errorf("sheet titles %q, want %q", titles, want)
 	}
@@ -904,7 +904,8 @@ func TestGroupingWarning(t *testing.T) {
 		t.Error("a refused run changed the workbook")
 	}
 
-	// Without a cluster, into a copy: the sheet's "Keep in mind" has it.
+	// Without a cluster, into a copy: the sheet's "What to keep in mind"
+	// has it.
 	copyPath := filepath.Join(t.TempDir(), "copy.xlsx")
 	if code, _, errs := runCLI(t, with("--out", copyPath)...); code != exitOK {
 		t.Fatalf("--out: exit %d\n%s", code, errs)
@@ -917,14 +918,14 @@ func TestGroupingWarning(t *testing.T) {
 	rows, _ := g.GetRows("Results")
 	found := false
 	for i, r := range rows {
-		if len(r) > 0 && r[0] == "Keep in mind" {
+		if len(r) > 0 && r[0] == "What to keep in mind" {
 			for _, next := range rows[i+1:] {
 				found = found || len(next) > 0 && strings.HasPrefix(next[0], finding)
 			}
 		}
 	}
 	if !found {
-		t.Error("the sheet's Keep in mind does not hold the finding")
+		t.Error(`the sheet's "What to keep in mind" does not hold the finding`)
 	}
 
 	code, out, errs = runCLI(t, with("--cluster", "site", "--grouping", "refuse", "--draws", "999")...)

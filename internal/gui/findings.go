@@ -143,12 +143,13 @@ func (s *findingsScreen) rebuild() {
 		// Several moderators: the summary first; each moderator's detail
 		// follows in the whole sheet.
 		s.view = container.NewAppTabs(
-			container.NewTabItem("In short", sheetView(sh, "note", "screen", "cautions")),
+			container.NewTabItem("In short", sheetView(sh, "headline", "screen", "note")),
+			container.NewTabItem("Chart", sheetView(sh, "chart")),
 			container.NewTabItem("The whole sheet", sheetView(sh)),
 		)
 	} else {
 		s.view = container.NewAppTabs(
-			container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "equivalence", "linearity", "cautions")),
+			container.NewTabItem("In short", sheetView(sh, "headline", "effects", "note", "differences", "equivalence", "linearity")),
 			container.NewTabItem("Chart", sheetView(sh, "chart")),
 			container.NewTabItem("The whole sheet", sheetView(sh)),
 		)

@@ -34,15 +34,11 @@ func Cautions(run Run, res *estimate.Result) []string {
 		add("%s The standard errors here do not allow for it: run again with %s as the cluster column.", words, quoted(col))
 	}
 	if !run.Randomized {
-		add("The treatment was not marked as randomly assigned, so these are associations, not effects: treated and untreated rows may differ in ways the controls do not capture.")
+		add("%s", cautionNotRandomized)
 	}
-	add("%s is not randomly assigned, even when the treatment is: a difference between its groups shows for whom the treatment did more, not that %s causes it.", capitalise(quoted(m)), quoted(m))
-	if !run.Planned || run.tried() > 1 {
-		if run.tried() > 1 {
-			add("%d moderators were examined; the more are tried, the likelier one looks real by chance. Rely on adjusted p-values and confirm in new data.", run.tried())
-		} else {
-			add("The moderator was chosen after looking at the data; a difference found this way is a lead to confirm, not a finding.")
-		}
+	add("%s", cautionModerator(m))
+	if c := cautionChosen(run); c != "" {
+		add("%s", c)
 	}
 	if r := res.Rows; r.Read > 0 && float64(r.Dropped) > droppedShare*float64(r.Read) {
 		add("%s of %s rows (%s) were left out for missing or unusable values; if those rows differ from the rest, the results may not hold for everyone.", count(r.Dropped), count(r.Read), pct(float64(r.Dropped)/float64(r.Read)))
@@ -101,6 +97,27 @@ func Cautions(run Run, res *estimate.Result) []string {
 		}
 	}
 	return out
+}
+
+// cautionNotRandomized is the caution of a treatment not marked as
+// randomly assigned (METHODS §9).
+const cautionNotRandomized = "The treatment was not marked as randomly assigned, so these are associations, not effects: treated and untreated rows may differ in ways the controls do not capture."
+
+// cautionModerator keeps the moderator from being read as a cause.
+func cautionModerator(m string) string {
+	return fmt.Sprintf("%s is not randomly assigned, even when the treatment is: a difference between its groups shows for whom the treatment did more, not that %s causes it.", capitalise(quoted(m)), quoted(m))
+}
+
+// cautionChosen is the caution of a moderator chosen after looking at the
+// data, or among several tried; "" for one planned moderator.
+func cautionChosen(run Run) string {
+	switch {
+	case run.tried() > 1:
+		return fmt.Sprintf("%d moderators were examined; the more are tried, the likelier one looks real by chance. Rely on adjusted p-values and confirm in new data.", run.tried())
+	case !run.Planned:
+		return "The moderator was chosen after looking at the data; a difference found this way is a lead to confirm, not a finding."
+	}
+	return ""
 }
 
 // smallest returns the group with the smallest size (ties: the first).

@@ -218,13 +218,18 @@ func BuildScreen(sr ScreenRun, sc *estimate.Screen) (*Sheet, error) {
 	if err != nil {
 		return nil, fmt.Errorf("storing the screen's settings: %w", err)
 	}
-	s := &Sheet{Name: "Moderators", Spec: spec}
+	s := &Sheet{Name: "Moderators", Spec: spec, Footer: runDate(sr.Base),
+		Title: fmt.Sprintf("%s, by each of %d moderators", capitalise(subjectWords(sr.RunFor(sc, 0), sc.Results[0])), len(sc.Results))}
 	first := sheetBuilder{run: sr.RunFor(sc, 0), res: sc.Results[0], sheet: s}
+	first.add("headline", "In short", paragraphs(ScreenHeadline(sr, sc)))
+	if err := first.screenChart(sr, sc); err != nil {
+		return nil, err
+	}
+	first.screenSummary(sr, sc)
+	note := [][]Cell{{ParagraphCell(ScreenNote(sr, sc), tableWidth)}, {HeadingCell(partHeadings[partKeep])}}
+	first.add("note", "In plain words", append(note, paragraphs(ScreenCautions(sr, sc))...))
 	first.screenAsked(sr)
 	first.screenData()
-	first.screenSummary(sr, sc)
-	first.add("note", "In plain words", [][]Cell{{ParagraphCell(ScreenNote(sr, sc), tableWidth)}})
-	first.add("cautions", "Keep in mind", paragraphs(ScreenCautions(sr, sc)))
 	for i, res := range sc.Results {
 		run := sr.RunFor(sc, i)
 		b := sheetBuilder{run: run, res: res, sheet: s, keySuffix: ":" + res.Moderator.Column}
@@ -235,9 +240,11 @@ func BuildScreen(sr ScreenRun, sc *estimate.Screen) (*Sheet, error) {
 			{HeadingCell("Rows used"), NumberCell(float64(r.Used), "#,##0")},
 			{HeadingCell("Rows left out"), NumberCell(float64(r.Dropped), "#,##0")},
 		})
-		if err := b.findings(); err != nil {
+		if err := b.answer(); err != nil {
 			return nil, err
 		}
+		b.details()
+		b.terms()
 	}
 	s.Settings = screenSettings(sr, sc)
 	return s, nil

@@ -14,26 +14,36 @@ import (
 // merged across it.
 const tableWidth = 9
 
-// Build lays out the results sheet of one run: what was asked, the data,
-// the effect in each group, the differences, the note, the cautions, the
-// coefficients, the chart and the rows left out, with the settings and the
-// machine-readable run. The GUI shows the same sheet.
+// Build lays out the results sheet of one run, the answer first: the
+// headline, the chart, the effect in each group and the note under plain
+// headings; then the technical blocks: the differences and their tests,
+// what was asked, the data, every term of the model with the covariance
+// of the estimates the effects are built from, and the rows left out,
+// with the settings and the machine-readable run. The GUI shows the same
+// sheet.
 func Build(run Run, res *estimate.Result) (*Sheet, error) {
 	spec, err := json.Marshal(run)
 	if err != nil {
 		return nil, fmt.Errorf("storing the run's settings: %w", err)
 	}
-	s := &Sheet{Name: "Results", Spec: spec}
+	s := &Sheet{Name: "Results", Spec: spec, Footer: runDate(run),
+		Title: fmt.Sprintf("%s, by %s", capitalise(subjectWords(run, res)), res.Moderator.Column)}
 	b := sheetBuilder{run: run, res: res, sheet: s}
-	b.asked()
-	b.data()
-	if err := b.findings(); err != nil {
+	b.add("headline", "In short", paragraphs(Headline(run, res)))
+	if err := b.answer(); err != nil {
 		return nil, err
 	}
+	b.details()
+	b.asked()
+	b.data()
+	b.terms()
 	b.dropped()
 	s.Settings = settings(run, res)
 	return s, nil
 }
+
+// runDate is the date of the run as the printed pages show it.
+func runDate(run Run) string { return "run " + run.Time.UTC().Format("2006-01-02 15:04 UTC") }
 
 type sheetBuilder struct {
 	run   Run
@@ -48,26 +58,56 @@ func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
 	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: key + b.keySuffix, Title: title, Rows: rows})
 }
 
-// findings adds what one fit found: the effects, the differences, the
-// note, the cautions, every term of the model and the chart.
-func (b *sheetBuilder) findings() error {
+// answer adds what a reader wants first from one fit: the chart, the
+// effect in each group and the note.
+func (b *sheetBuilder) answer() error {
 	run, res := b.run, b.res
-	b.effects()
-	b.differences()
-	b.equivalence()
-	b.linearity()
-	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
-	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
-	b.coefficients()
-	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
+	h := sheetChartHeight(res)
+	png, err := Chart(res, ChartOptions{Randomized: run.Randomized, Width: chartWidth, Height: h})
 	if err != nil {
 		return fmt.Errorf("drawing the chart: %w", err)
 	}
-	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Title: "Chart", Image: &Image{
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Image: &Image{
 		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
-		PNG:   png, Width: chartWidth, Height: chartHeight,
+		PNG:   png, Width: chartWidth, Height: h,
 	}})
+	b.effects()
+	var rows [][]Cell
+	parts := NoteParts(run, res)
+	for _, p := range parts {
+		rows = append(rows, []Cell{HeadingCell(p.Heading)}, []Cell{ParagraphCell(p.Text, tableWidth)})
+	}
+	if len(parts) == 0 || parts[len(parts)-1].Heading != partHeadings[partKeep] {
+		rows = append(rows, []Cell{HeadingCell(partHeadings[partKeep])})
+	}
+	rows = append(rows, paragraphs(Cautions(run, res))...)
+	b.add("note", "In plain words", rows)
 	return nil
+}
+
+// sheetChartHeight is the height of the sheet's chart: for groups, room
+// for each group's row (a printed page holds more of the sheet), at most
+// the chart's usual height; for a number moderator, the usual height.
+func sheetChartHeight(res *estimate.Result) int {
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		return chartHeight
+	}
+	return min(chartHeight, max(chartMinSide+100, 180+55*len(res.Effects)))
+}
+
+// details adds the differences between groups and the checks of the
+// model's form.
+func (b *sheetBuilder) details() {
+	b.differences()
+	b.equivalence()
+	b.linearity()
+}
+
+// terms adds every term of the model and the covariance of the terms the
+// effects are built from.
+func (b *sheetBuilder) terms() {
+	b.coefficients()
+	b.covariance()
 }
 
 // paragraphs lays out texts one paragraph a row.
@@ -197,15 +237,13 @@ func (b *sheetBuilder) effects() {
 	}
 	head = append(head, HeadingCell(effect), HeadingCell("Std. error"), HeadingCell(ci+" low"), HeadingCell(ci+" high"), HeadingCell("p-value"))
 	boot := res.Bootstrap != nil
-	if boot {
-		head = append(head, bootHeadings(res)...)
-	}
 	var vals []float64
 	for _, e := range res.Effects {
 		vals = append(vals, e.Estimate, e.SE, e.CILow, e.CIHigh)
 	}
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
+	var bootRows [][]Cell
 	for _, e := range res.Effects {
 		label := e.Group
 		if continuous {
@@ -217,14 +255,16 @@ func (b *sheetBuilder) effects() {
 		if binaryT {
 			row = append(row, NumberCell(float64(e.Treated), "#,##0"), NumberCell(float64(e.Untreated), "#,##0"))
 		}
-		row = append(row, NumberCell(e.Estimate, f), NumberCell(e.SE, f), NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
-		if boot {
-			row = append(row, bootCells(e.Boot, f)...)
-		}
+		est, se := b.contrastCells(e.Contrast, e.Estimate, e.SE, f)
+		row = append(row, est, se, NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
 		rows = append(rows, row)
+		bootRows = append(bootRows, append([]Cell{TextCell(label)}, bootCells(e.Boot, f)...))
+	}
+	if usedTerms(res) != nil {
+		rows = append(rows, []Cell{ParagraphCell(formulaCaption, tableWidth)})
 	}
 	if boot {
-		rows = append(rows, bootFootnote(res)...)
+		rows = append(rows, bootTable(res, head[0], bootRows)...)
 	}
 	if continuous {
 		rows = append(rows, []Cell{TextCell(fmt.Sprintf("Rows nearby: rows whose %s lies within 10%% of the observed range of the value.", res.Moderator.Column))})
@@ -257,22 +297,22 @@ func (b *sheetBuilder) differences() {
 		HeadingCell(ci + " low"), HeadingCell(ci + " high"), HeadingCell("p-value"),
 		HeadingCell("Smallest difference detectable (" + power + "% power)")}
 	boot := res.Bootstrap != nil
-	if boot {
-		head = append(head, bootHeadings(res)...)
-	}
 	var vals []float64
 	for _, d := range res.Differences {
 		vals = append(vals, d.Estimate, d.SE, d.CILow, d.CIHigh, d.MDD)
 	}
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
+	var bootRows [][]Cell
 	for _, d := range res.Differences {
-		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+		est, se := b.contrastCells(d.Contrast, d.Estimate, d.SE, f)
+		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), est, se,
 			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)}
-		if boot {
-			row = append(row, bootCells(d.Boot, f)...)
-		}
 		rows = append(rows, row)
+		bootRows = append(bootRows, append([]Cell{TextCell(comparisonLabel(res, d, shortValue))}, bootCells(d.Boot, f)...))
+	}
+	if boot {
+		rows = append(rows, bootTable(res, head[0], bootRows)...)
 	}
 	if h := res.Heterogeneity; h != nil {
 		head := []Cell{HeadingCell("Same effect in every group?"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")}
@@ -416,9 +456,13 @@ func bootCells(b *estimate.BootInference, format string) []Cell {
 	return []Cell{PValueCell(b.P), NumberCell(b.CILow, format), NumberCell(b.CIHigh, format)}
 }
 
-// bootFootnote says under a table where the bootstrap columns come from.
-func bootFootnote(res *estimate.Result) [][]Cell {
-	return [][]Cell{{ParagraphCell("Bootstrap columns: "+bootstrapWords(res)+"; the interval holds the values its test does not reject.", tableWidth)}}
+// bootTable is the wild cluster bootstrap's p-values and intervals of a
+// table's rows, as a small table of their own below it (so that the main
+// table stays narrow enough to print legibly), with where they come from.
+func bootTable(res *estimate.Result, first Cell, rows [][]Cell) [][]Cell {
+	out := [][]Cell{{}, append([]Cell{first}, bootHeadings(res)...)}
+	out = append(out, rows...)
+	return append(out, []Cell{ParagraphCell("Bootstrap columns: "+bootstrapWords(res)+"; the interval holds the values its test does not reject.", tableWidth)})
 }
 
 // bootstrapWords describes how the wild cluster bootstrap was run.
@@ -455,8 +499,11 @@ func (b *sheetBuilder) coefficients() {
 	rows := [][]Cell{{HeadingCell("Term"), HeadingCell("Role"), HeadingCell("Estimate"), HeadingCell("Std. error"),
 		HeadingCell("t"), HeadingCell("p-value"), HeadingCell(ci + " low"), HeadingCell(ci + " high")}}
 	for _, c := range res.Coefficients {
-		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, "0.000000"), NumberCell(c.SE, "0.000000"),
-			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, "0.000000"), NumberCell(c.CIHigh, "0.000000")})
+		// Each term shown with about four significant digits of its own
+		// size; the cells keep every digit for the formulas above.
+		f := numberFormat([]float64{c.Estimate, c.SE})
+		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, f), NumberCell(c.SE, f),
+			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, f), NumberCell(c.CIHigh, f)})
 	}
 	b.add("coefficients", "All terms of the model", rows)
 }

@@ -305,6 +305,9 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, err
 	}
 	defer os.Remove(tmp) // a no-op once renamed
+	if err := numberFormulas(tmp, name, l); err != nil {
+		return nil, &Error{Path: target, Cause: ErrVerifyFailed, Detail: "the results sheet's formulas could not be finished", Underlying: err}
+	}
 	origWB, err := readLimited(pkg.file(pkg.wbPart), limitXML)
 	if err != nil {
 		return nil, &Error{Path: src, Cause: ErrDamaged, Detail: "the workbook part cannot be read", Underlying: err}
