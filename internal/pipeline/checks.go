@@ -80,6 +80,12 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		}
 		return out
 	}
+	// One column in two roles, and the other settings a fit refuses, in
+	// the fit's own words, before any data are looked at.
+	if err := s.Check(); err != nil {
+		add(Blocking, "%s", err.Error())
+		return out
+	}
 	d := EngineData(t)
 	col := func(name string) *estimate.Column {
 		for i := range d.Columns {
