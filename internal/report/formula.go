@@ -66,7 +66,7 @@ func usedTerms(res *estimate.Result) []int {
 // block or the values are not numbers.
 func (b *sheetBuilder) contrastCells(a []float64, est, se float64, format string) (Cell, Cell) {
 	e, s := NumberCell(est, format), NumberCell(se, format)
-	terms := usedTerms(b.res)
+	terms := b.usedTerms()
 	if terms == nil || len(a) != len(b.res.Coefficients) || !finite(est) || !finite(se) {
 		return e, s
 	}
@@ -128,7 +128,7 @@ func weighted(w float64, n int, first bool) string {
 // formulas read.
 func (b *sheetBuilder) covariance() {
 	res := b.res
-	terms := usedTerms(res)
+	terms := b.usedTerms()
 	if terms == nil {
 		return
 	}

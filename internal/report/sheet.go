@@ -52,6 +52,18 @@ type sheetBuilder struct {
 	// keySuffix is added to every block's key, so that the blocks of
 	// several moderators in one sheet keep apart (":region").
 	keySuffix string
+	// termsUsed caches usedTerms(res), which every formula cell needs: once
+	// a sheet, not once a cell (200 groups have 19,900 differences).
+	termsUsed []int
+	termsDone bool
+}
+
+// usedTerms is usedTerms(b.res), worked out once.
+func (b *sheetBuilder) usedTerms() []int {
+	if !b.termsDone {
+		b.termsUsed, b.termsDone = usedTerms(b.res), true
+	}
+	return b.termsUsed
 }
 
 func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
@@ -260,7 +272,7 @@ func (b *sheetBuilder) effects() {
 		rows = append(rows, row)
 		bootRows = append(bootRows, append([]Cell{TextCell(label)}, bootCells(e.Boot, f)...))
 	}
-	if usedTerms(res) != nil {
+	if b.usedTerms() != nil {
 		rows = append(rows, []Cell{ParagraphCell(formulaCaption, tableWidth)})
 	}
 	if boot {
