@@ -65,6 +65,16 @@ Roles:
   --center V               subtract V from a number moderator before fitting
   --controls A,B,..        other columns to adjust for
   --cluster COL            rows of the same value are alike (sites, classes)
+  --grouping warn|refuse   what to do when the data show that the rows come
+                           in groups that --cluster does not allow for: a
+                           column holds the moderator or the treatment
+                           constant within each of its values (every row of
+                           a site has the same region), or repeats units (an
+                           identifier with several rows each). warn (the
+                           default) prints the finding and keeps it in the
+                           results' cautions; refuse stops with exit status 1
+                           before fitting, for scripts that must not run
+                           without the right cluster
   --weights COL            a weight for each row (sampling or precision weights)
 
 Options:
@@ -214,6 +224,7 @@ type modelFlags struct {
 	draws                       int
 	seed                        uint64
 	margin                      float64
+	grouping                    string // warn or refuse
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -249,6 +260,7 @@ func (f *modelFlags) register(fs *flag.FlagSet) {
 	fs.IntVar(&f.draws, "draws", 0, "")
 	fs.Uint64Var(&f.seed, "seed", 0, "")
 	fs.Float64Var(&f.margin, "equivalence-margin", 0, "")
+	fs.StringVar(&f.grouping, "grouping", "warn", "")
 }
 
 // parse reads the command line into fs, the file coming before or after
@@ -374,6 +386,9 @@ func (f *modelFlags) check() error {
 	}
 	if _, ok := copyDataChoices[f.copyData]; !ok {
 		return usagef("--copy-data must be auto, yes or no, not %q", f.copyData)
+	}
+	if f.grouping != "warn" && f.grouping != "refuse" {
+		return usagef("--grouping must be warn or refuse, not %q", f.grouping)
 	}
 	if f.set["equivalence-margin"] && !(f.margin > 0 && !math.IsInf(f.margin, 0)) {
 		return usagef("--equivalence-margin must be a positive number in the outcome's units, not %g", f.margin)
@@ -596,12 +611,22 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 	if run.Spec, err = f.spec(src.Outline()); err != nil {
 		return err
 	}
+	if f.grouping == "refuse" {
+		gs, err := src.Groupings(ctx, run.Spec)
+		if err != nil {
+			return err
+		}
+		if err := f.refuseGrouped("", run.Spec, gs); err != nil {
+			return err
+		}
+	}
 	a, err := src.Analyze(ctx, run)
 	if err != nil {
 		return err
 	}
 	human := f.human(stdout, stderr)
 	f.printNotices(human)
+	printGrouping(human, "", a.Run.Spec, a.Run.Groupings)
 	printSummary(human, a)
 	// The guard is for reading and fitting: ended in the middle of a save
 	// it would leave its temporary files and say nothing was changed.
@@ -613,6 +638,24 @@ func analyze(ctx context.Context, args []string, stdout, stderr io.Writer) error
 		return printJSON(stdout, report.Summarize(a.Run, a.Result))
 	}
 	return nil
+}
+
+// refuseGrouped is the refusal of --grouping refuse when the grouping
+// check warns; which names the moderator, for screen.
+func (f *modelFlags) refuseGrouped(which string, spec estimate.Spec, gs []report.Grouping) error {
+	col, words := report.GroupingWarning(spec, gs)
+	if words == "" {
+		return nil
+	}
+	return fmt.Errorf("%s: the rows come in groups that the standard errors would not allow for, and --grouping refuse stops here.%s %s Give --cluster %s, or --grouping warn to run with this warning.", f.file, which, words, col)
+}
+
+// printGrouping prints the grouping check's warning, if any; which names
+// the moderator, for screen.
+func printGrouping(w io.Writer, which string, spec estimate.Spec, gs []report.Grouping) {
+	if col, words := report.GroupingWarning(spec, gs); words != "" {
+		fmt.Fprintf(w, "Warning:%s %s Give --cluster %s to allow for it.\n\n", which, words, col)
+	}
 }
 
 // printSummary writes the effects and differences for a terminal.
@@ -634,6 +677,8 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
 		}
 		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g%s\n", h.F, h.DF1, h.DF2, h.P, boot)
+	} else if nj := out.HeterogeneityNotJudged; nj != nil {
+		fmt.Fprintf(w, "Same effect in every group? %s\n", nj.Reason)
 	}
 	if b := out.Bootstrap; b != nil {
 		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)

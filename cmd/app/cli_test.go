@@ -129,6 +129,7 @@ func TestUsageErrors(t *testing.T) {
 		{"negative margin", with("--equivalence-margin", "-2"), "--equivalence-margin must be a positive number"},
 		{"infinite margin", with("--equivalence-margin", "Inf"), "--equivalence-margin must be a positive number"},
 		{"margin not a number", with("--equivalence-margin", "small"), "invalid value"},
+		{"bad grouping", with("--grouping", "stop"), `--grouping must be warn or refuse, not "stop"`},
 		{"demo without folder", []string{"demo"}, "give one folder"},
 		{"demo with two folders", []string{"demo", "a", "b"}, "give one folder"},
 		{"demo unknown flag", []string{"demo", "--force", "x"}, "flag provided but not defined"},
@@ -764,7 +765,7 @@ func TestScreenEndToEnd(t *testing.T) {
 			titles = append(titles, r[0])
 		}
 	}
-	want := []string{"What was asked", "Moderators compared", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
+	want := []string{"Moderators compared", "What was asked", "Moderator 1 of 3: region", "Moderator 2 of 3: first_time", "Moderator 3 of 3: baseline_score"}
 	if strings.Join(titles, "|") != strings.Join(want, "|") {
 		t.Errorf("sheet titles %q, want %q", titles, want)
 	}
@@ -865,5 +866,132 @@ func TestReplaceEarlierResults(t *testing.T) {
 	code, out, errs := runCLI(t, append(args, "--replace")...)
 	if code != exitOK || !strings.Contains(out+errs, "is kept as") {
 		t.Errorf("with --replace: exit %d\n%s%s", code, out, errs)
+	}
+}
+
+// TestGroupingWarning: on the demo without --cluster, analyze warns that
+// every row of a site has the same region, says so in the JSON cautions
+// and in the sheet's "Keep in mind", and with --grouping refuse stops
+// before fitting, writing nothing; with --cluster site it runs quietly
+// and the note says the comparison rests on the 24 sites. The same on a
+// streamed text file of the same structure.
+func TestGroupingWarning(t *testing.T) {
+	path := writeDemo(t)
+	before := hashFile(t, path)
+	args := []string{"analyze", path, "--outcome", "earnings_6m", "--treatment", "coached", "--moderator", "region"}
+	with := func(extra ...string) []string { return append(append([]string{}, args...), extra...) }
+	finding := "Every row of a site has the same region: the comparison across region rests on 24 clusters of site, not on 1193 independent rows."
+
+	code, out, errs := runCLI(t, with("--dry-run")...)
+	if code != exitOK || !strings.Contains(out, "Warning: "+finding) || !strings.Contains(out, "Give --cluster site to allow for it.") {
+		t.Errorf("no warning: exit %d\n%s\n%s", code, out, errs)
+	}
+
+	code, out, errs = runCLI(t, with("--dry-run", "--json")...)
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil || code != exitOK {
+		t.Fatalf("--json: exit %d, %v\n%s", code, err, errs)
+	}
+	if len(o.Cautions) == 0 || !strings.HasPrefix(o.Cautions[0], finding) || !strings.Contains(errs, "Warning: "+finding) {
+		t.Errorf("JSON cautions %q; stderr:\n%s", o.Cautions, errs)
+	}
+
+	code, out, errs = runCLI(t, with("--grouping", "refuse")...)
+	if code != exitData || out != "" || !strings.Contains(errs, "--grouping refuse stops here. "+finding) || !strings.Contains(errs, "Give --cluster site, or --grouping warn") {
+		t.Errorf("--grouping refuse: exit %d\n%s\n%s", code, out, errs)
+	}
+	if hashFile(t, path) != before {
+		t.Error("a refused run changed the workbook")
+	}
+
+	// Without a cluster, into a copy: the sheet's "What to keep in mind"
+	// has it.
+	copyPath := filepath.Join(t.TempDir(), "copy.xlsx")
+	if code, _, errs := runCLI(t, with("--out", copyPath)...); code != exitOK {
+		t.Fatalf("--out: exit %d\n%s", code, errs)
+	}
+	g, err := excelize.OpenFile(copyPath)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer g.Close()
+	rows, _ := g.GetRows("Results")
+	found := false
+	for i, r := range rows {
+		if len(r) > 0 && r[0] == "What to keep in mind" {
+			for _, next := range rows[i+1:] {
+				found = found || len(next) > 0 && strings.HasPrefix(next[0], finding)
+			}
+		}
+	}
+	if !found {
+		t.Error(`the sheet's "What to keep in mind" does not hold the finding`)
+	}
+
+	code, out, errs = runCLI(t, with("--cluster", "site", "--grouping", "refuse", "--draws", "999")...)
+	if code != exitOK || strings.Contains(out, "Warning: ") || !strings.Contains(out, "Since every site has a single region, the comparison across region rests on the 24 clusters, not on the 1193 rows.") {
+		t.Errorf("--cluster site: exit %d\n%s\n%s", code, out, errs)
+	}
+	f, err := excelize.OpenFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	rows, _ = f.GetRows("Results")
+	var sheet strings.Builder
+	for _, r := range rows {
+		sheet.WriteString(strings.Join(r, " ") + "\n")
+	}
+	if !strings.Contains(sheet.String(), "Since every site has a single region") {
+		t.Errorf("the sheet's note does not say the comparison rests on the sites:\n%s", sheet.String())
+	}
+
+	// A text file of pupils in 40 schools, the tutoring given by school,
+	// is streamed: the check makes a pass of its own over it.
+	var b strings.Builder
+	b.WriteString("score,tutored,girl,school\n")
+	for i := range 4000 {
+		school := i / 100
+		fmt.Fprintf(&b, "%d,%d,%d,sch%d\n", 40+(i*37)%21+school%3, school%2, i%2, school)
+	}
+	csv := filepath.Join(t.TempDir(), "pupils.csv")
+	if err := os.WriteFile(csv, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	code, out, errs = runCLI(t, "analyze", csv, "--outcome", "score", "--treatment", "tutored", "--moderator", "girl", "--dry-run")
+	want := "Warning: Every row of a school has the same tutored: the treatment was given by school, so its effect rests on 40 clusters of school, not on 4000 independent rows."
+	if code != exitOK || !strings.Contains(out, want) {
+		t.Errorf("streamed text file: exit %d\n%s\n%s", code, out, errs)
+	}
+	code, _, errs = runCLI(t, "analyze", csv, "--outcome", "score", "--treatment", "tutored", "--moderator", "girl", "--grouping", "refuse")
+	if code != exitData || !strings.Contains(errs, "Give --cluster school") {
+		t.Errorf("streamed text file, --grouping refuse: exit %d\n%s", code, errs)
+	}
+}
+
+// TestScreenGroupingWarning: screen makes the grouping check for each
+// moderator: region, a property of the sites, is warned about and
+// refused with --grouping refuse; first_time, which varies within every
+// site, is not; the moderator's own cautions in the JSON carry it.
+func TestScreenGroupingWarning(t *testing.T) {
+	path := writeDemo(t)
+	args := []string{"screen", path, "--outcome", "earnings_6m", "--treatment", "coached", "--moderators", "first_time,region", "--dry-run"}
+	code, out, errs := runCLI(t, append(args, "--json")...)
+	if code != exitOK || !strings.Contains(errs, "Warning: (moderator region) Every row of a site has the same region") || strings.Contains(errs, "(moderator first_time)") {
+		t.Fatalf("screen: exit %d\n%s", code, errs)
+	}
+	var o report.ScreenOutput
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range o.Moderators {
+		has := len(m.Detail.Cautions) > 0 && strings.HasPrefix(m.Detail.Cautions[0], "Every row of a site has the same region")
+		if has != (m.Moderator == "region") {
+			t.Errorf("moderator %s: cautions %q", m.Moderator, m.Detail.Cautions)
+		}
+	}
+	code, _, errs = runCLI(t, append(args, "--grouping", "refuse")...)
+	if code != exitData || !strings.Contains(errs, "For the moderator region: Every row of a site has the same region") {
+		t.Errorf("screen --grouping refuse: exit %d\n%s", code, errs)
 	}
 }

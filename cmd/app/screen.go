@@ -29,10 +29,11 @@ Moderators:
 
 Every option of analyze but the moderator's own (--moderator,
 --moderator-type, --reference, --moderator-values, --center) works here
-too: --treated, --controls, --cluster, --weights, --se, --randomized,
---alpha, --no-bootstrap, --draws, --seed, --equivalence-margin, --sheet,
---header-row, --table, --out, --copy-data, --json, --dry-run, --replace. Run
-"slopewise help analyze" for what they do.
+too: --treated, --controls, --cluster, --grouping, --weights, --se,
+--randomized, --alpha, --no-bootstrap, --draws, --seed,
+--equivalence-margin, --sheet, --header-row, --table, --out, --copy-data,
+--json, --dry-run, --replace. Run "slopewise help analyze" for what they do;
+the grouping check looks at each moderator in turn.
 
 Exit status: 0 done, 1 a problem with the data or the model (the message
 names the moderator, column, sheet or cell), 2 a problem with the command
@@ -129,12 +130,23 @@ func screen(ctx context.Context, args []string, stdout, stderr io.Writer) error 
 	if err != nil {
 		return err
 	}
+	sr.Groupings = pipeline.ScreenGroupings(t, sr)
+	if f.grouping == "refuse" {
+		for i, c := range sr.Candidates {
+			if err := f.refuseGrouped(fmt.Sprintf(" For the moderator %s:", c.Moderator.Column), sr.SpecFor(i), sr.Groupings[i]); err != nil {
+				return err
+			}
+		}
+	}
 	a, err := pipeline.ScreenTable(ctx, sr, t, nil)
 	if err != nil {
 		return err
 	}
 	human := f.human(stdout, stderr)
 	f.printNotices(human)
+	for i, c := range sr.Candidates {
+		printGrouping(human, fmt.Sprintf(" (moderator %s)", c.Moderator.Column), sr.SpecFor(i), sr.Groupings[i])
+	}
 	out := report.SummarizeScreen(a.Run, a.Screen)
 	printScreenSummary(human, out)
 	stopGuard() // for reading and fitting only, as in analyze

@@ -65,7 +65,9 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	} else {
 		ds.groupEffects(s, in, res, facts)
 	}
-	if w, ok := in.wald(ds.iCols); ok {
+	if nj := judgeJoint(len(ds.iCols), len(ds.clusterLabels)); nj != nil {
+		res.HeterogeneityNotJudged = nj
+	} else if w, ok := in.wald(ds.iCols); ok {
 		res.Heterogeneity = &w
 	} else {
 		res.Notes = append(res.Notes, fmt.Sprintf("The test that all group effects are equal cannot be computed: the estimated covariance of the %d interaction terms is singular (with clusters, this happens when there are too few of them).", len(ds.iCols)))
@@ -245,7 +247,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 		if icol[j] >= 0 {
 			a[icol[j]] = 1
 		}
-		e := GroupEffect{Group: ds.levels[j], Reference: j == ds.ref, Rows: rows[j], Inference: in.combo(a)}
+		e := GroupEffect{Group: ds.levels[j], Reference: j == ds.ref, Rows: rows[j], Inference: in.combo(a), Contrast: a}
 		ds.effectA = append(ds.effectA, a)
 		if binaryT {
 			e.Treated, e.Untreated = treated[j], rows[j]-treated[j]
@@ -264,7 +266,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 			inf := in.combo(a)
 			ds.diffA = append(ds.diffA, a)
 			res.Differences = append(res.Differences, Difference{From: ds.levels[ja], To: ds.levels[jb],
-				VsReference: ja == ds.ref, Inference: inf, MDD: in.mdd(inf.SE), Equivalence: equivalenceOf(in, inf, s)})
+				VsReference: ja == ds.ref, Inference: inf, Contrast: a, MDD: in.mdd(inf.SE), Equivalence: equivalenceOf(in, inf, s)})
 		}
 	}
 }
@@ -309,7 +311,7 @@ func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
 		a := make([]float64, ds.k)
 		a[ds.tCol] = 1
 		a[b3] = p.value - ds.centre
-		e := GroupEffect{Group: p.label, Value: p.value, Inference: in.combo(a), Extrapolated: p.value < lo || p.value > hi}
+		e := GroupEffect{Group: p.label, Value: p.value, Inference: in.combo(a), Contrast: a, Extrapolated: p.value < lo || p.value > hi}
 		ds.effectA = append(ds.effectA, a)
 		for r, m := range ds.modValue {
 			if math.Abs(m-p.value) <= half {
@@ -335,14 +337,14 @@ func (ds *design) continuousEffects(s Spec, in *inferencer, res *Result) {
 	unit[b3] = 1
 	inf := in.combo(unit)
 	ds.diffA = append(ds.diffA, unit)
-	res.Differences = append(res.Differences, Difference{PerUnit: true, Inference: inf, MDD: in.mdd(inf.SE)})
+	res.Differences = append(res.Differences, Difference{PerUnit: true, Inference: inf, Contrast: unit, MDD: in.mdd(inf.SE)})
 	if len(kept) > 1 {
 		first, last := kept[0], kept[len(kept)-1]
 		a := make([]float64, ds.k)
 		a[b3] = last.value - first.value
 		inf := in.combo(a)
 		ds.diffA = append(ds.diffA, a)
-		res.Differences = append(res.Differences, Difference{From: first.label, To: last.label, Inference: inf, MDD: in.mdd(inf.SE),
+		res.Differences = append(res.Differences, Difference{From: first.label, To: last.label, Inference: inf, Contrast: a, MDD: in.mdd(inf.SE),
 			Equivalence: equivalenceOf(in, inf, s)})
 	}
 	res.JohnsonNeyman = johnsonNeyman(in, ds.tCol, b3, ds.centre, lo, hi)

@@ -529,13 +529,21 @@ func cholSolve(a, b []float64, q int) ([]float64, bool) {
 }
 
 // bootstrap adds the wild cluster bootstrap's p-values and intervals to
-// every effect and difference of res, and its p-value to the test that all
-// group effects are equal.
+// every effect and difference of res, and its p-value to the joint tests:
+// that all group effects are equal, and the linearity check's test of the
+// line against the thirds (which then decides Contradicts).
 func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, progress func(done, total int)) error {
 	g := len(ds.clusterLabels)
 	plan := planBootstrap(g, ds.fewestClusters(), s.Bootstrap)
 	w := newWild(ctx, f, ds.cluster, g, plan)
+	lin := res.Linearity
+	if lin != nil && (lin.Wald == nil || ds.binned == nil) {
+		lin = nil
+	}
 	total := len(res.Effects) + len(res.Differences) + 1
+	if lin != nil {
+		total++
+	}
 	done := 0
 	step := func() {
 		done++
@@ -601,6 +609,20 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 		}
 	}
 	step()
+	if lin != nil {
+		// The check of the line: the same restricted bootstrap of the
+		// Wald statistic, on the binned model, with the same draws.
+		wb := newWild(ctx, ds.binned, ds.cluster, g, plan)
+		p, ok := wb.wald(linearityCols(ds.k), ds.binned.coef, lin.Wald.F)
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		if ok {
+			lin.Wald.PBoot = &p
+			lin.Contradicts = p < s.Alpha
+		}
+		step()
+	}
 	res.Bootstrap = &plan.info
 	return nil
 }

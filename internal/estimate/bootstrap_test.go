@@ -35,11 +35,20 @@ func bootCases() []bootCase {
 			Treatment: Treatment{Column: "hot", Kind: TreatmentBinary},
 			Moderator: Moderator{Column: "Wind", Kind: ModeratorContinuous},
 			Controls:  []string{"Solar.R"}, Weights: "w", Cluster: "Month"}},
+		{"schools10", "schools10.csv", Spec{Outcome: "reading", Treatment: Treatment{Column: "tutored"},
+			Moderator: Moderator{Column: "prior", Kind: ModeratorContinuous},
+			Cluster:   "school", Bootstrap: Bootstrap{Weights: Rademacher}}},
+		{"co2_lin", "co2_cluster.csv", Spec{Outcome: "uptake",
+			Treatment: Treatment{Column: "Treatment", Kind: TreatmentLabels, Treated: "chilled"},
+			Moderator: Moderator{Column: "conc", Kind: ModeratorContinuous},
+			Controls:  []string{"Type"}, Cluster: "Plant", Bootstrap: Bootstrap{Weights: Rademacher}}},
 	}
 }
 
 // TestBootstrapAgainstR compares the bootstrap p-values, with every draw
-// listed, with a direct implementation that refits the model for each draw:
+// listed, with a direct implementation that refits the model for each draw
+// (effects, differences, the test that the groups' effects are equal and
+// the linearity check's test of the line):
 // R 4.2.2 base R, testdata/r/make_bootstrap.R, from the formulas of
 // Cameron, Gelbach & Miller (2008). Both count the same finite set of
 // draws, so the p-values must be equal exactly.
@@ -106,6 +115,15 @@ func compareBootstrapWithR(t *testing.T, path string) {
 			h := res.Heterogeneity
 			if !closeRel(h.F, want["het.F"], 1e-8, 0) || h.PBoot == nil || *h.PBoot != wp {
 				t.Errorf("%s: heterogeneity %+v (p_boot %v), R gives F %.17g p %.17g", c.name, h, h.PBoot, want["het.F"], wp)
+			}
+			checked++
+		}
+		if wp, ok := want["lin.pboot"]; ok {
+			l := res.Linearity
+			if l == nil || l.Wald == nil || !closeRel(l.Wald.F, want["lin.F"], 1e-8, 0) || l.Wald.PBoot == nil || *l.Wald.PBoot != wp {
+				t.Errorf("%s: linearity %+v, R gives F %.17g p %.17g", c.name, l, want["lin.F"], wp)
+			} else if l.Contradicts != (wp < 0.05) {
+				t.Errorf("%s: contradicts %v with bootstrap p %g", c.name, l.Contradicts, wp)
 			}
 			checked++
 		}

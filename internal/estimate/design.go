@@ -66,6 +66,9 @@ type design struct {
 	// effectA and diffA are the combinations a of the coefficients that
 	// give each effect and difference of the result, in its order.
 	effectA, diffA [][]float64
+	// binned is the linearity check's binned model (weighted), kept for
+	// the bootstrap of its Wald test; nil when there is no test.
+	binned *lsFit
 
 	// facts, when set, were gathered by a streamed fit, which keeps no rows.
 	facts *rowFacts

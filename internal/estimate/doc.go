@@ -16,10 +16,17 @@
 // The fit is a pivoted Householder QR (qr.go), refined iteratively when
 // its error bound asks for it (lsq.go), its work on rows split into fixed
 // blocks run on all cores with the same results on any number of them
-// (parallel.go); the streamed fit (stream.go) works on a few chunks at
+// (parallel.go); the streamed fit (stream.go, and a file per pass:
+// stream_survey.go, stream_factor.go, stream_residuals.go) works on a few chunks at
 // once and combines them in chunk order, to the same end (streampipe.go);
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
 // adjustments in adjust.go and screen.go, the wild cluster bootstrap in
 // bootstrap.go, the check of a continuous moderator's line in linearity.go.
+//
+// Three files pass 500 lines because each holds one concept whose parts
+// are read together: design.go (the model matrix's columns, names and
+// checks of one Spec), bootstrap.go (the restricted wild cluster
+// bootstrap: per-cluster blocks, draws and p-values share their state)
+// and qr.go (the two-stage Householder QR and its merges).
 package estimate

@@ -22,14 +22,20 @@ import (
 // as the linear model plus G_j, G_j·M, G_j·T and G_j·T·M for the upper two
 // thirds, it nests the linear model, which holds when those 8 terms are all
 // zero: the Wald test (same variance estimator as the fit) is of that. The
-// linear interaction is said to be contradicted when the test rejects at α.
+// linear interaction is said to be contradicted when the test rejects at α:
+// by the wild cluster bootstrap's p-value of the same statistic when the
+// bootstrap runs (few clusters, METHODS §8), since F(8, G − 1) from the
+// cluster-robust covariance rejects far too often there (joint.go).
 type Linearity struct {
 	Thirds []Third `json:"thirds"`
 	// Wald is the test that the binned model reduces to the linear one;
-	// nil when it cannot be computed (for example with fewer clusters than
-	// the 8 terms tested need).
+	// nil when it cannot be computed or judged.
 	Wald *WaldTest `json:"wald,omitempty"`
-	// Contradicts is true when the Wald test rejects at α.
+	// NotJudged is set, and Wald nil, when there are too few clusters to
+	// judge 8 terms (joint.go).
+	NotJudged *NotJudged `json:"not_judged,omitempty"`
+	// Contradicts is true when the Wald test rejects at α (its bootstrap
+	// p-value when there is one).
 	Contradicts bool `json:"contradicts"`
 }
 
@@ -124,13 +130,23 @@ func (ds *design) linearity(d *Data, s Spec, f *lsFit, v []float64, df int) (*Li
 		lin.Thirds = append(lin.Thirds, Third{From: ms[0], To: ms[len(ms)-1], Median: med, Rows: len(ms),
 			Effect: binned.combo(a), Line: line.combo(al)})
 	}
+	if lin.NotJudged = judgeJoint(linearityTerms, len(ds.clusterLabels)); lin.NotJudged != nil {
+		return lin, ""
+	}
+	if w, ok := binned.wald(linearityCols(k)); ok {
+		lin.Wald = &w
+		lin.Contradicts = w.P < s.Alpha
+		ds.binned = fe
+	}
+	return lin, ""
+}
+
+// linearityCols are the columns of the 8 added terms in the binned model
+// of a linear model with k columns.
+func linearityCols(k int) []int {
 	cols := make([]int, linearityTerms)
 	for i := range cols {
 		cols[i] = k + i
 	}
-	if w, ok := binned.wald(cols); ok {
-		lin.Wald = &w
-		lin.Contradicts = w.P < s.Alpha
-	}
-	return lin, ""
+	return cols
 }

@@ -15,11 +15,14 @@ type Result struct {
 	// order of Coefficients.
 	Covariance [][]float64 `json:"covariance"`
 
-	Moderator     ModeratorInfo  `json:"moderator"`
-	Effects       []GroupEffect  `json:"effects"`
-	Differences   []Difference   `json:"differences"`
-	Heterogeneity *WaldTest      `json:"heterogeneity,omitempty"`
-	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	Moderator     ModeratorInfo `json:"moderator"`
+	Effects       []GroupEffect `json:"effects"`
+	Differences   []Difference  `json:"differences"`
+	Heterogeneity *WaldTest     `json:"heterogeneity,omitempty"`
+	// HeterogeneityNotJudged is set instead of Heterogeneity when its
+	// interaction terms outnumber what the clusters can judge (joint.go).
+	HeterogeneityNotJudged *NotJudged     `json:"heterogeneity_not_judged,omitempty"`
+	JohnsonNeyman          *JohnsonNeyman `json:"johnson_neyman,omitempty"`
 	// Linearity checks a continuous moderator's straight line against the
 	// effect within each third of it; nil for groups, or when the check
 	// could not be made (Notes says why).
@@ -128,6 +131,11 @@ type GroupEffect struct {
 	// Extrapolated marks a probe outside the observed range.
 	Extrapolated bool `json:"extrapolated,omitempty"`
 	Inference
+	// Contrast is the weight of each coefficient, in the order of
+	// Coefficients, in this effect: Estimate = Σ Contrast[i]·b[i] and
+	// SE² = Σ Contrast[i]·Covariance[i][j]·Contrast[j], so that a reader
+	// (or a spreadsheet formula) can rebuild it from the coefficients.
+	Contrast []float64 `json:"contrast,omitempty"`
 	// Boot is the wild cluster bootstrap's p-value and interval.
 	Boot *BootInference `json:"boot,omitempty"`
 }
@@ -142,6 +150,9 @@ type Difference struct {
 	// VsReference marks a comparison with the reference group.
 	VsReference bool `json:"vs_reference,omitempty"`
 	Inference
+	// Contrast is the weight of each coefficient in this difference, as
+	// in GroupEffect.
+	Contrast []float64 `json:"contrast,omitempty"`
 	// MDD is the minimum detectable difference at the spec's α and power
 	// (Bloom 1995).
 	MDD float64 `json:"mdd"`

@@ -4,6 +4,7 @@ import (
 	"context"
 	"errors"
 	"math"
+	"reflect"
 	"strings"
 	"testing"
 )
@@ -38,7 +39,7 @@ func TestFitScreen(t *testing.T) {
 		if row.Moderator != m.Column || !row.Tested || row.P != alone.Heterogeneity.P || sc.Results[i].Coefficients[3].Estimate != alone.Coefficients[3].Estimate {
 			t.Errorf("%s: screen row %+v differs from the fit alone (p %g)", m.Column, row, alone.Heterogeneity.P)
 		}
-		if row.MDD != alone.KeyDifference().MDD || row.Largest != alone.LargestDifference() {
+		if row.MDD != alone.KeyDifference().MDD || !reflect.DeepEqual(row.Largest, alone.LargestDifference()) {
 			t.Errorf("%s: MDD %g, largest %+v", m.Column, row.MDD, row.Largest)
 		}
 		p = append(p, row.P)

@@ -191,6 +191,14 @@ func (s Spec) withDefaults() (Spec, error) {
 	return s, nil
 }
 
+// Check reports the first setting of s that a fit would refuse, before
+// any data are read: a role without a column, one column in two roles,
+// an unknown kind or type, a value out of range.
+func (s Spec) Check() error {
+	_, err := s.withDefaults()
+	return err
+}
+
 func knownVariance(v VarianceType) bool {
 	for _, k := range VarianceTypes {
 		if v == k {

@@ -28,5 +28,5 @@ func (u *UI) showAbout() {
 	lic := widget.NewLabel(licences)
 	lic.Wrapping = fyne.TextWrapWord
 	body := container.NewVBox(title, what, widget.NewSeparator(), lic)
-	dialog.NewCustom("About Slopewise", "Close", container.NewGridWrap(fyne.NewSize(560, 360), container.NewVScroll(body)), u.win).Show()
+	u.keysClose(dialog.NewCustom("About Slopewise", "Close", container.NewGridWrap(fyne.NewSize(560, 360), container.NewVScroll(body)), u.win)).Show()
 }

@@ -20,15 +20,14 @@ func (u *UI) showError(what string, err error) {
 	text := what + "\n\n" + plain(err)
 	l := widget.NewLabel(text)
 	l.Wrapping = fyne.TextWrapWord
-	d := dialog.NewCustom("Something needs your attention", "Close", container.NewGridWrap(fyne.NewSize(520, 200), container.NewVScroll(l)), u.win)
-	d.Show()
+	u.keysClose(dialog.NewCustom("Something needs your attention", "Close", container.NewGridWrap(fyne.NewSize(520, 200), container.NewVScroll(l)), u.win)).Show()
 }
 
 // showMessage is a short information dialog.
 func (u *UI) showMessage(title, text string) {
 	l := widget.NewLabel(text)
 	l.Wrapping = fyne.TextWrapWord
-	dialog.NewCustom(title, "Close", container.NewGridWrap(fyne.NewSize(480, 120), l), u.win).Show()
+	u.keysClose(dialog.NewCustom(title, "Close", container.NewGridWrap(fyne.NewSize(480, 120), l), u.win)).Show()
 }
 
 // plain turns an error into a sentence a person can act on. Errors of the

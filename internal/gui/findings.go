@@ -26,9 +26,9 @@ import (
 type findingsScreen struct {
 	lastSave  workbook.WriteOptions // the options of the last save tried
 	u         *UI
-	saveBtn   *widget.Button
-	copyBtn   *widget.Button
-	undoBtn   *widget.Button
+	saveBtn   *button
+	copyBtn   *button
+	undoBtn   *button
 	savedNote *widget.Label
 	where     *widget.Label // what becomes of the sheet shown
 	view      fyne.CanvasObject
@@ -36,10 +36,10 @@ type findingsScreen struct {
 
 func newFindingsScreen(u *UI) *findingsScreen {
 	s := &findingsScreen{u: u}
-	s.saveBtn = widget.NewButtonWithIcon("Add the results to the workbook", theme.DocumentSaveIcon(), s.save)
+	s.saveBtn = newButton("Add the results to the workbook", theme.DocumentSaveIcon(), s.save)
 	s.saveBtn.Importance = widget.HighImportance
-	s.copyBtn = widget.NewButtonWithIcon("Save a copy…", theme.ContentCopyIcon(), s.saveCopy)
-	s.undoBtn = widget.NewButtonWithIcon("Put the original back", theme.ContentUndoIcon(), s.restore)
+	s.copyBtn = newButton("Save a copy…", theme.ContentCopyIcon(), s.saveCopy)
+	s.undoBtn = newButton("Put the original back", theme.ContentUndoIcon(), s.restore)
 	s.savedNote = widget.NewLabel("")
 	s.savedNote.Wrapping = fyne.TextWrapWord
 	return s
@@ -87,11 +87,9 @@ func (u *UI) startRun() {
 
 	ctx, cancel := context.WithCancel(context.Background())
 	u.cancel = cancel
-	o.progress.Start()
-	o.running.Objects = []fyne.CanvasObject{widget.NewLabel("Fitting the model…"), container.NewBorder(nil, nil, nil, o.cancelBtn, o.progress)}
-	o.running.Refresh()
-	u.updateBar()
 	u.setStatus("Fitting the model…")
+	u.showProgress("Fitting the model…")
+	u.updateBar()
 	table := u.table
 	var a *pipeline.Analysis
 	var sa *pipeline.ScreenAnalysis
@@ -109,9 +107,7 @@ func (u *UI) startRun() {
 	}, func(err error) {
 		cancel()
 		u.cancel = nil
-		o.progress.Stop()
-		o.running.Objects = nil
-		o.running.Refresh()
+		u.hideProgress()
 		switch {
 		case errors.Is(err, context.Canceled):
 			u.setStatus("Cancelled; nothing was changed.")
@@ -143,12 +139,13 @@ func (s *findingsScreen) rebuild() {
 		// Several moderators: the summary first; each moderator's detail
 		// follows in the whole sheet.
 		s.view = container.NewAppTabs(
-			container.NewTabItem("In short", sheetView(sh, "note", "screen", "cautions")),
+			container.NewTabItem("In short", sheetView(sh, "headline", "screen", "note")),
+			container.NewTabItem("Chart", sheetView(sh, "chart")),
 			container.NewTabItem("The whole sheet", sheetView(sh)),
 		)
 	} else {
 		s.view = container.NewAppTabs(
-			container.NewTabItem("In short", sheetView(sh, "note", "effects", "differences", "equivalence", "linearity", "cautions")),
+			container.NewTabItem("In short", sheetView(sh, "headline", "effects", "note", "differences", "equivalence", "linearity")),
 			container.NewTabItem("Chart", sheetView(sh, "chart")),
 			container.NewTabItem("The whole sheet", sheetView(sh)),
 		)
@@ -256,7 +253,7 @@ func (s *findingsScreen) writeWith(opts workbook.WriteOptions) {
 		}
 		s.savedNote.SetText(msg)
 		u.setStatus("Saved.")
-		dialog.ShowInformation("Saved", msg, u.win)
+		u.keysClose(dialog.NewInformation("Saved", msg, u.win)).Show()
 	})
 }
 
@@ -272,13 +269,13 @@ func (s *findingsScreen) saveFailed(err error) {
 		}
 		msg := widget.NewLabel(fmt.Sprintf("Results of an earlier run are already there, in %s. Nothing has been written.\n\nReplace them with these? The earlier workbook is kept as a backup beside it.", filepath.Base(target)))
 		msg.Wrapping = fyne.TextWrapWord
-		dialog.NewCustomConfirm("Not saved", "Replace the earlier results", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(replace bool) {
+		u.keysClose(dialog.NewCustomConfirm("Not saved", "Replace the earlier results", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(replace bool) {
 			if replace {
 				opts := s.lastSave
 				opts.Replace = true
 				s.writeWith(opts)
 			}
-		}, u.win).Show()
+		}, u.win)).Show()
 		return
 	}
 	inPlace := errors.Is(err, workbook.ErrOpenElsewhere) || errors.Is(err, workbook.ErrCannotReplace) ||
@@ -290,12 +287,11 @@ func (s *findingsScreen) saveFailed(err error) {
 	}
 	msg := widget.NewLabel("The results could not be added to the workbook. Your workbook is unchanged.\n\n" + plain(err))
 	msg.Wrapping = fyne.TextWrapWord
-	d := dialog.NewCustomConfirm("Not saved", "Save a copy instead", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(copy bool) {
+	u.keysClose(dialog.NewCustomConfirm("Not saved", "Save a copy instead", "Close", container.NewGridWrap(fyne.NewSize(520, 160), msg), func(copy bool) {
 		if copy {
 			s.saveCopy()
 		}
-	}, u.win)
-	d.Show()
+	}, u.win)).Show()
 }
 
 // unsaved says where the sheet shown will go.
@@ -319,7 +315,7 @@ func (s *findingsScreen) restore() {
 	if w == nil || w.Backup == "" {
 		return
 	}
-	dialog.ShowConfirm("Put the original back?",
+	u.keysClose(dialog.NewConfirm("Put the original back?",
 		fmt.Sprintf("This replaces %s with the copy kept before Slopewise wrote to it (%s). The results sheet will be gone from the workbook.", filepath.Base(w.Path), filepath.Base(w.Backup)),
 		func(ok bool) {
 			if !ok {
@@ -332,10 +328,11 @@ func (s *findingsScreen) restore() {
 			s.undoBtn.Hide()
 			s.savedNote.SetText(fmt.Sprintf("%s is back as it was before the results were added.", filepath.Base(w.Path)))
 			u.written = nil
+			s.saveBtn.Enable() // nothing is written now: the results can be added again
 			if s.where != nil {
 				s.where.SetText(s.unsaved())
 			}
-		}, u.win)
+		}, u.win)).Show()
 }
 
 // chooseRestore picks any backup Slopewise made and puts it back.
@@ -346,7 +343,7 @@ func (u *UI) chooseRestore() {
 			u.showMessage("Not a backup", "Choose a file whose name contains “(before Slopewise …)”: that is how Slopewise names the copies it keeps.")
 			return
 		}
-		dialog.ShowConfirm("Put this backup back?", fmt.Sprintf("This replaces %s with %s.", filepath.Base(target), filepath.Base(backup)), func(ok bool) {
+		u.keysClose(dialog.NewConfirm("Put this backup back?", fmt.Sprintf("This replaces %s with %s.", filepath.Base(target), filepath.Base(backup)), func(ok bool) {
 			if !ok {
 				return
 			}
@@ -355,7 +352,7 @@ func (u *UI) chooseRestore() {
 				return
 			}
 			u.showMessage("Put back", filepath.Base(target)+" is as it was when the backup was made.")
-		}, u.win)
+		}, u.win)).Show()
 	})
 }
 

@@ -294,6 +294,42 @@ func TestChecksBeforeRunning(t *testing.T) {
 	}
 }
 
+// TestGroupingWarning: the demo with its default roles and no cluster
+// column warns that every row of a site has the same region, and the
+// button beside the warning, not the window by itself, chooses "site";
+// a cluster column that does not hold the regions constant is named too.
+func TestGroupingWarning(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.demoRoles()
+	r := u.rolesScreen
+	if r.moderator.Selected != "region" || r.cluster.Selected != none {
+		t.Fatalf("defaults: moderator %q, cluster %q", r.moderator.Selected, r.cluster.Selected)
+	}
+	want := "Every row of a site has the same region: the comparison across region rests on 24 clusters of site, not on 1193 independent rows."
+	if !strings.Contains(checksText(r), want) {
+		t.Errorf("the checks do not say %q:\n%s", want, checksText(r))
+	}
+	if r.useCluster == nil || r.useCluster.Text != `Use "site" as the cluster` {
+		t.Fatalf("no button to choose site: %+v", r.useCluster)
+	}
+	if u.next.Disabled() {
+		t.Error("the warning blocks the run; it should only warn")
+	}
+	h.shotIfAsked()
+	test.Tap(r.useCluster)
+	if r.cluster.Selected != "site" {
+		t.Errorf("after the button the cluster is %q, want site", r.cluster.Selected)
+	}
+	if strings.Contains(checksText(r), "has the same region") || r.useCluster != nil {
+		t.Errorf("the warning stays with site as the cluster:\n%s", checksText(r))
+	}
+	r.cluster.SetSelected("first_time")
+	if !strings.Contains(checksText(r), "The cluster column first_time does not hold region constant, but site does.") || r.useCluster == nil {
+		t.Errorf("a cluster column that does not hold region constant is not named:\n%s", checksText(r))
+	}
+}
+
 // TestUnreadableFile shows the error dialog for a file that is not a
 // workbook, in plain words, and stays on the first step.
 func TestUnreadableFile(t *testing.T) {

@@ -21,17 +21,17 @@ import (
 // openScreen is step 1: choose the workbook.
 type openScreen struct {
 	u        *UI
-	openBtn  *widget.Button
-	demoBtn  *widget.Button
+	openBtn  *button
+	demoBtn  *button
 	recent   *fyne.Container
 	fileInfo *widget.Label
 }
 
 func newOpenScreen(u *UI) *openScreen {
 	s := &openScreen{u: u}
-	s.openBtn = widget.NewButtonWithIcon("Open a workbook…", theme.FolderOpenIcon(), u.chooseOpen)
+	s.openBtn = newButton("Open a workbook…", theme.FolderOpenIcon(), u.chooseOpen)
 	s.openBtn.Importance = widget.HighImportance
-	s.demoBtn = widget.NewButtonWithIcon("Try the demo", theme.MediaPlayIcon(), u.openDemo)
+	s.demoBtn = newButton("Try the demo", theme.MediaPlayIcon(), u.openDemo)
 	s.recent = container.NewVBox()
 	s.fileInfo = widget.NewLabel("")
 	s.fileInfo.Wrapping = fyne.TextWrapWord
@@ -42,7 +42,7 @@ func (s *openScreen) content() fyne.CanvasObject {
 	s.recent.Objects = nil
 	for _, p := range s.u.recentFiles() {
 		p := p
-		b := widget.NewButtonWithIcon(filepath.Base(p)+"  —  "+filepath.Dir(p), theme.DocumentIcon(), func() { s.u.open(p) })
+		b := newButton(filepath.Base(p)+"  —  "+filepath.Dir(p), theme.DocumentIcon(), func() { s.u.open(p) })
 		b.Alignment = widget.ButtonAlignLeading
 		s.recent.Add(b)
 	}

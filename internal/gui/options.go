@@ -52,8 +52,7 @@ type optionsScreen struct {
 	progress   *widget.ProgressBarInfinite
 
 	bootstrapShown bool // the bootstrap's default has been set for the roles
-	cancelBtn      *widget.Button
-	running        *fyne.Container
+	cancelBtn      *button
 }
 
 func newOptionsScreen(u *UI) *optionsScreen {
@@ -83,12 +82,11 @@ func newOptionsScreen(u *UI) *optionsScreen {
 	}
 	s.progress = widget.NewProgressBarInfinite()
 	s.progress.Stop()
-	s.cancelBtn = widget.NewButton("Cancel", func() {
+	s.cancelBtn = newButton("Cancel", nil, func() {
 		if u.cancel != nil {
 			u.cancel()
 		}
 	})
-	s.running = container.NewVBox()
 	return s
 }
 
@@ -198,6 +196,5 @@ func (s *optionsScreen) content() fyne.CanvasObject {
 	marginWhy.Wrapping = fyne.TextWrapWord
 	marginWhy.Importance = widget.LowImportance
 	box.Add(marginWhy)
-	box.Add(s.running)
 	return container.NewVScroll(box)
 }

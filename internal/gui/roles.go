@@ -2,6 +2,7 @@ package gui
 
 import (
 	"fmt"
+	"sort"
 	"strconv"
 	"strings"
 
@@ -41,9 +42,15 @@ type rolesScreen struct {
 	weights   *widget.Select
 	checks    *fyne.Container
 	form      *fyne.Container // holds the current form; rebuilt as choices change
+	// useCluster chooses the column a check suggests as the cluster; nil
+	// when no check suggests one. It acts only when tapped.
+	useCluster *button
 
 	filling    bool
 	lastChecks []pipeline.Check
+	// The defaults chosen for the open table, and why (defaults.go).
+	defTreatment, whyTreatment string
+	defOutcome, whyOutcome     string
 }
 
 func newRolesScreen(u *UI) *rolesScreen {
@@ -135,20 +142,15 @@ func (s *rolesScreen) reset() {
 	s.extra.Selected = nil
 	s.probes.SetText("")
 	s.centre.SetText("")
-	// Defaults: a 0/1 column as the treatment, the last numeric column
-	// with many values as the outcome, a column of groups as the moderator.
-	for _, c := range t.Columns {
-		if c.Kind == workbook.YesNo && len(c.Levels) == 2 && c.Levels[0] == "0" && c.Levels[1] == "1" {
-			s.treatment.SetSelected(c.Name)
-			break
-		}
+	// Defaults by name and content (defaults.go), said in "Before
+	// running"; a column of groups as the moderator.
+	s.defTreatment, s.whyTreatment = defaultTreatment(t)
+	s.defOutcome, s.whyOutcome = defaultOutcome(t, s.defTreatment)
+	if s.defTreatment != "" {
+		s.treatment.SetSelected(s.defTreatment)
 	}
-	for i := len(t.Columns) - 1; i >= 0; i-- {
-		c := t.Columns[i]
-		if c.Kind == workbook.Number && c.Name != s.treatment.Selected {
-			s.outcome.SetSelected(c.Name)
-			break
-		}
+	if s.defOutcome != "" {
+		s.outcome.SetSelected(s.defOutcome)
 	}
 	for _, c := range t.Columns {
 		if (c.Kind == workbook.Category || c.Kind == workbook.YesNo) && c.Name != s.treatment.Selected && len(c.Levels) <= 12 {
@@ -309,14 +311,99 @@ func (s *rolesScreen) changed() {
 	} else {
 		s.lastChecks = pipeline.Precheck(s.u.table, spec)
 	}
+	s.lastChecks = append(s.roleNotes(), s.lastChecks...)
+	// What stops the run first, then what to weigh, then notes.
+	sort.SliceStable(s.lastChecks, func(i, j int) bool { return s.lastChecks[i].Severity > s.lastChecks[j].Severity })
+	s.useCluster = nil
 	for _, c := range s.lastChecks {
 		s.checks.Add(checkRow(c))
+		if c.Cluster != "" && s.useCluster == nil {
+			column := c.Cluster
+			s.useCluster = newButton(fmt.Sprintf("Use %q as the cluster", column), theme.ConfirmIcon(), func() { s.cluster.SetSelected(column) })
+			s.checks.Add(container.NewHBox(s.useCluster))
+		}
 	}
 	if len(s.lastChecks) == 0 {
 		s.checks.Add(checkRow(pipeline.Check{Severity: pipeline.Note, Message: "Nothing to warn about: every group has treated and untreated rows."}))
 	}
 	s.checks.Refresh()
 	s.u.updateBar()
+}
+
+// roleNotes are the window's own words on the roles chosen: what was
+// chosen for the person, how a treatment of amounts or of several values
+// will be read, and why a column of text is not offered as the outcome.
+func (s *rolesScreen) roleNotes() []pipeline.Check {
+	var out []pipeline.Check
+	if words := s.chosenFor(); words != "" {
+		out = append(out, pipeline.Check{Severity: pipeline.Note, Message: words})
+	}
+	if tc := s.column(s.treatment.Selected); tc != nil {
+		switch kind := pipeline.TreatmentKind(tc, s.treated.Selected); {
+		case kind == estimate.TreatmentContinuous:
+			out = append(out, pipeline.Check{Severity: pipeline.Warning, Message: fmt.Sprintf(
+				"%q holds amounts, not two groups, so the effect will be read per unit of %q (a dose). If %q is a score or a measure rather than how much of the programme each row received, choose the column that says who received it.",
+				tc.Name, tc.Name, tc.Name)})
+		case kind == estimate.TreatmentLabels && len(tc.Levels) > 2 && s.treated.Selected != "":
+			var rest []string
+			for _, l := range tc.Levels {
+				if l != s.treated.Selected {
+					rest = append(rest, fmt.Sprintf("%q", l))
+				}
+			}
+			out = append(out, pipeline.Check{Severity: pipeline.Warning, Message: fmt.Sprintf(
+				"%q has %d values: the rows of %q are compared with all the others together, so %s count as untreated. If these are several versions of the programme, add a column to the workbook that marks only the two groups you mean to compare, and choose it here.",
+				tc.Name, len(tc.Levels), s.treated.Selected, strings.Join(rest, " and "))})
+		}
+	}
+	if mc := s.column(s.moderator.Selected); mc != nil && s.modKind.Selected == kindGroups {
+		if g := groupCount(mc); g > manyGroups {
+			out = append(out, pipeline.Check{Severity: pipeline.Note, Message: fmt.Sprintf(
+				"%q has %s groups, so the findings will list %s differences between pairs of groups. Past %d groups the window shows each long table in a region that scrolls on its own; the workbook's sheet holds every pair. Read the test of the same effect in every group first.",
+				mc.Name, thousands(g), thousands(g*(g-1)/2), manyGroups)})
+		}
+	}
+	if text := numbersAsText(s.u.table); len(text) > 0 {
+		out = append(out, pipeline.Check{Severity: pipeline.Note, Message: fmt.Sprintf(
+			"Not offered as the outcome: %s, which hold text with numbers in it (such as units or words). An outcome must hold numbers alone: write them in a column of their own in the workbook, then open it again.",
+			strings.Join(quoteAll(text), ", "))})
+	}
+	return out
+}
+
+// manyGroups is the number of groups past which the Roles step says what
+// the findings will show (20 groups: 190 pairs).
+const manyGroups = 20
+
+// groupCount is the number of distinct present values of c.
+func groupCount(c *workbook.Column) int {
+	if c.Kind == workbook.Category || c.Kind == workbook.YesNo {
+		return len(c.Levels)
+	}
+	seen := map[float64]bool{}
+	for i, v := range c.Numbers {
+		if c.Missing[i] == workbook.Present {
+			seen[v] = true
+		}
+	}
+	if c.Numbers == nil {
+		seenText := map[string]bool{}
+		for i, v := range c.Texts {
+			if c.Missing[i] == workbook.Present {
+				seenText[v] = true
+			}
+		}
+		return len(seenText)
+	}
+	return len(seen)
+}
+
+func quoteAll(names []string) []string {
+	out := make([]string, len(names))
+	for i, n := range names {
+		out[i] = fmt.Sprintf("%q", n)
+	}
+	return out
 }
 
 // checkRow shows one check with an icon for its severity.

@@ -24,7 +24,7 @@ type rowsScreen struct {
 	u         *UI
 	sheet     *widget.Select
 	header    *widget.Entry
-	apply     *widget.Button
+	apply     *button
 	region    *widget.Select
 	regions   map[string]string // option shown → table name ("" for the whole sheet)
 	detected  *widget.Label
@@ -55,7 +55,7 @@ func newRowsScreen(u *UI) *rowsScreen {
 		}
 		return nil
 	}
-	s.apply = widget.NewButton("Use this row", func() {
+	s.apply = newButton("Use this row", nil, func() {
 		n, err := strconv.Atoi(strings.TrimSpace(s.header.Text))
 		if err != nil || n < 1 {
 			u.showMessage("Header row", "Type the number of the row that holds the column names, as the spreadsheet shows it (1 or more).")

@@ -2,6 +2,7 @@ package gui
 
 import (
 	"bytes"
+	"fmt"
 	"math"
 	"strconv"
 	"strings"
@@ -74,6 +75,9 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 	if width <= 2 {
 		return pairs(rows)
 	}
+	if len(rows) > lazyRows {
+		return lazyGrid(rows, width)
+	}
 	out := container.NewVBox()
 	cols := &columns{n: width, first: 2}
 	for _, r := range rows {
@@ -99,6 +103,72 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 // minColumn is the narrowest a table column gets, in pixels: room for a
 // word such as "Untreated" in bold.
 const minColumn = 92
+
+// lazyRows is the most rows a table is laid out with a widget a cell; a
+// longer one (the differences of a moderator with many groups: 11,175
+// pairs for 150 groups) is a table widget that makes only the cells in
+// sight, so the window's work does not grow with the data.
+const lazyRows = 60
+
+// lazyGrid shows a long table in a region of its own, about twenty rows
+// high: its first row (the headings) and first column (the labels) stay
+// in place as it scrolls, and only the cells in sight are made.
+func lazyGrid(rows [][]report.Cell, width int) fyne.CanvasObject {
+	// Paragraph rows (notes between tables) have no cells: shown as the
+	// text in the first column.
+	cell := func(r, c int) report.Cell {
+		if c < len(rows[r]) {
+			return rows[r][c]
+		}
+		return report.Cell{}
+	}
+	t := widget.NewTable(
+		func() (int, int) { return len(rows), width },
+		func() fyne.CanvasObject {
+			l := widget.NewLabel("")
+			l.Truncation = fyne.TextTruncateEllipsis
+			return l
+		},
+		func(id widget.TableCellID, o fyne.CanvasObject) {
+			l := o.(*widget.Label)
+			c := cell(id.Row, id.Col)
+			l.Text = cellString(c)
+			l.TextStyle.Bold = c.Kind == report.Heading || id.Row == 0
+			l.Alignment = fyne.TextAlignLeading
+			switch c.Kind {
+			case report.Number, report.Percent, report.PValue:
+				l.Alignment = fyne.TextAlignTrailing
+			}
+			l.Refresh()
+		})
+	t.StickyRowCount, t.StickyColumnCount = 1, 1
+	t.SetColumnWidth(0, 2*minColumn+60)
+	for c := 1; c < width; c++ {
+		t.SetColumnWidth(c, minColumn+28)
+	}
+	note := widget.NewLabel(fmt.Sprintf("%s rows: the table scrolls on its own, its headings and first column staying in place.", thousands(len(rows)-1)))
+	note.Importance = widget.LowImportance
+	return container.NewBorder(note, nil, nil, nil, container.New(fixedHeight(20*38), t))
+}
+
+// fixedHeight lays out one object at the width it is given and a height
+// of its own; it asks for little width, so a wide table scrolls sideways
+// within the page instead of widening it.
+type fixedHeight float32
+
+func (h fixedHeight) MinSize([]fyne.CanvasObject) fyne.Size {
+	return fyne.NewSize(3*minColumn, float32(h))
+}
+
+func (h fixedHeight) Layout(objects []fyne.CanvasObject, size fyne.Size) {
+	for _, o := range objects {
+		o.Move(fyne.NewPos(0, 0))
+		o.Resize(size)
+	}
+}
+
+// thousands writes n with commas between groups of three digits.
+func thousands(n int) string { return formatNumber(float64(n), "#,##0") }
 
 // columns lays out one table row: the first column `first` times as wide
 // as the others, every row of a table sharing the same proportions so the

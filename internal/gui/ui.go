@@ -83,11 +83,14 @@ type UI struct {
 
 	current  step
 	reached  step
-	stepBtns [stepCount]*widget.Button
+	stepBtns [stepCount]*button
 	body     *fyne.Container
-	back     *widget.Button
-	next     *widget.Button
+	back     *button
+	next     *button
 	status   *widget.Label
+	// barMiddle holds the status line, or during a run the progress bar
+	// and Cancel: in the bottom bar, in sight whatever the page's scroll.
+	barMiddle *fyne.Container
 
 	openScreen     *openScreen
 	rowsScreen     *rowsScreen
@@ -114,11 +117,11 @@ func New(a fyne.App, w fyne.Window, opts Options) *UI {
 
 	for i := range u.stepBtns {
 		s := step(i)
-		u.stepBtns[i] = widget.NewButton(stepLabel(s), func() { u.show(s) })
+		u.stepBtns[i] = newButton(stepLabel(s), nil, func() { u.show(s) })
 		u.stepBtns[i].Alignment = widget.ButtonAlignLeading
 	}
-	u.back = widget.NewButtonWithIcon("Back", theme.NavigateBackIcon(), func() { u.show(u.current - 1) })
-	u.next = widget.NewButtonWithIcon("Next", theme.NavigateNextIcon(), u.forward)
+	u.back = newButton("Back", theme.NavigateBackIcon(), func() { u.show(u.current - 1) })
+	u.next = newButton("Next", theme.NavigateNextIcon(), u.forward)
 	u.next.IconPlacement = widget.ButtonIconTrailingText
 	u.next.Importance = widget.HighImportance
 	u.status = widget.NewLabel("")
@@ -130,8 +133,9 @@ func New(a fyne.App, w fyne.Window, opts Options) *UI {
 		rail.Add(b)
 	}
 	rail.Add(layout.NewSpacer())
-	rail.Add(widget.NewButtonWithIcon("About", theme.InfoIcon(), u.showAbout))
-	bar := container.NewBorder(nil, nil, u.back, u.next, u.status)
+	rail.Add(newButton("About", theme.InfoIcon(), u.showAbout))
+	u.barMiddle = container.NewStack(u.status)
+	bar := container.NewBorder(nil, nil, u.back, u.next, u.barMiddle)
 	w.SetContent(container.NewBorder(nil, container.NewPadded(bar), container.NewPadded(rail), nil, container.NewPadded(u.body)))
 	w.SetMainMenu(u.menu())
 	u.shortcuts()
@@ -284,7 +288,22 @@ func (u *UI) forget(after step) {
 
 func (u *UI) setStatus(s string) { u.status.SetText(s) }
 
-// menu builds the main menu: File and Help.
+// showProgress puts what is being done, a progress bar and Cancel in the
+// bottom bar; hideProgress puts the status line back.
+func (u *UI) showProgress(what string) {
+	o := u.optionsScreen
+	o.progress.Start()
+	u.barMiddle.Objects = []fyne.CanvasObject{container.NewBorder(nil, nil, widget.NewLabel(what), o.cancelBtn, o.progress)}
+	u.barMiddle.Refresh()
+}
+
+func (u *UI) hideProgress() {
+	u.optionsScreen.progress.Stop()
+	u.barMiddle.Objects = []fyne.CanvasObject{u.status}
+	u.barMiddle.Refresh()
+}
+
+// menu builds the main menu: File, Analysis and Help, with the keys.
 func (u *UI) menu() *fyne.MainMenu {
 	recent := fyne.NewMenuItem("Open recent", nil)
 	recent.ChildMenu = fyne.NewMenu("")
@@ -292,40 +311,23 @@ func (u *UI) menu() *fyne.MainMenu {
 		p := p
 		recent.ChildMenu.Items = append(recent.ChildMenu.Items, fyne.NewMenuItem(p, func() { u.open(p) }))
 	}
+	open := fyne.NewMenuItem("Open a workbook…", u.chooseOpen)
+	open.Shortcut = keyOf(fyne.KeyO)
+	run := fyne.NewMenuItem("Run the analysis", u.runByKey)
+	run.Shortcut = keyOf(fyne.KeyReturn)
+	add := fyne.NewMenuItem("Add the results to the workbook", u.saveByKey)
+	add.Shortcut = keyOf(fyne.KeyS)
 	file := fyne.NewMenu("File",
-		fyne.NewMenuItem("Open a workbook…", u.chooseOpen),
+		open,
 		recent,
 		fyne.NewMenuItem("Try the demo", u.openDemo),
 		fyne.NewMenuItemSeparator(),
 		fyne.NewMenuItem("Put a backup back…", u.chooseRestore),
 	)
+	analysis := fyne.NewMenu("Analysis", run, add)
 	help := fyne.NewMenu("Help", fyne.NewMenuItem("About Slopewise", u.showAbout))
-	return fyne.NewMainMenu(file, help)
+	return fyne.NewMainMenu(file, analysis, help)
 }
-
-// shortcuts: Ctrl+O opens, Ctrl+Enter runs, Ctrl+S saves.
-func (u *UI) shortcuts() {
-	c := u.win.Canvas()
-	c.AddShortcut(&desktopShortcut{key: fyne.KeyO}, func(fyne.Shortcut) { u.chooseOpen() })
-	c.AddShortcut(&desktopShortcut{key: fyne.KeyReturn}, func(fyne.Shortcut) {
-		if u.current == stepOptions && !u.next.Disabled() {
-			u.startRun()
-		}
-	})
-	c.AddShortcut(&desktopShortcut{key: fyne.KeyS}, func(fyne.Shortcut) {
-		if u.finished() {
-			u.findingsScreen.save()
-		}
-	})
-}
-
-// desktopShortcut is Ctrl (Cmd on macOS) with a key.
-type desktopShortcut struct{ key fyne.KeyName }
-
-func (s *desktopShortcut) ShortcutName() string    { return "Ctrl+" + string(s.key) }
-func (s *desktopShortcut) Key() fyne.KeyName       { return s.key }
-func (s *desktopShortcut) Mod() fyne.KeyModifier   { return fyne.KeyModifierShortcutDefault }
-func (s *desktopShortcut) Shortcut() fyne.Shortcut { return s }
 
 // chooseOpen asks for a workbook and opens it.
 func (u *UI) chooseOpen() {

@@ -7,6 +7,7 @@ import (
 
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
+	"slopewise/internal/report"
 )
 
 // Severity says how much a check matters.
@@ -26,6 +27,10 @@ const (
 type Check struct {
 	Severity Severity
 	Message  string
+	// Cluster is a column the finding suggests as the cluster column,
+	// for the window to offer with a button; empty for most checks. It
+	// is never chosen without the person asking.
+	Cluster string
 }
 
 // Thresholds of the checks (rules of thumb; common practice unless named).
@@ -39,11 +44,13 @@ const (
 // Precheck looks at the table and the spec before a run and says, in plain
 // words, what would stop it or could mislead: a moderator that looks like
 // the other kind, too few clusters, small groups, groups without both arms,
-// columns that do not vary. It never fits a model.
+// columns that do not vary, and a column whose values the moderator or the
+// treatment belongs to (or that repeats units) while no cluster column,
+// or another one, is chosen (Groupings). It never fits a model.
 func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 	var out []Check
 	add := func(sev Severity, format string, args ...any) {
-		out = append(out, Check{sev, fmt.Sprintf(format, args...)})
+		out = append(out, Check{Severity: sev, Message: fmt.Sprintf(format, args...)})
 	}
 	cols := map[string]*workbook.Column{}
 	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
@@ -73,6 +80,12 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		}
 		return out
 	}
+	// One column in two roles, and the other settings a fit refuses, in
+	// the fit's own words, before any data are looked at.
+	if err := s.Check(); err != nil {
+		add(Blocking, "%s", err.Error())
+		return out
+	}
 	d := EngineData(t)
 	col := func(name string) *estimate.Column {
 		for i := range d.Columns {
@@ -82,7 +95,11 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		}
 		return nil
 	}
-	usable := usableRows(d, cols)
+	chosen := map[string]bool{}
+	for name := range cols {
+		chosen[name] = true
+	}
+	usable := usableRows(d, chosen)
 	n := 0
 	for _, u := range usable {
 		if u {
@@ -144,11 +161,15 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 			add(Warning, "The cluster column %q has only %d clusters. With fewer than about 40, cluster-robust errors are too optimistic: keep the wild cluster bootstrap on (it is on by default), and treat borderline results with care.", s.Cluster, g)
 		}
 	}
+	if column, words := report.GroupingWarning(s, groupingsOf(t, d, s)); words != "" {
+		out = append(out, Check{Severity: Warning, Cluster: column,
+			Message: fmt.Sprintf("%s Choose %q as the cluster column to allow for it.", words, column)})
+	}
 	return out
 }
 
 // usableRows marks the rows with a usable value in every chosen column.
-func usableRows(d *estimate.Data, cols map[string]*workbook.Column) []bool {
+func usableRows(d *estimate.Data, chosen map[string]bool) []bool {
 	n := 0
 	if len(d.Columns) > 0 {
 		n = d.Columns[0].Len()
@@ -159,16 +180,24 @@ func usableRows(d *estimate.Data, cols map[string]*workbook.Column) []bool {
 	}
 	for i := range d.Columns {
 		c := &d.Columns[i]
-		if _, chosen := cols[c.Name]; !chosen {
+		if !chosen[c.Name] {
 			continue
 		}
 		for r := range ok {
-			if c.Num != nil && (math.IsNaN(c.Num[r]) || math.IsInf(c.Num[r], 0)) || c.Num == nil && c.Text[r] == "" {
+			if !hasValue(c, r) {
 				ok[r] = false
 			}
 		}
 	}
 	return ok
+}
+
+// hasValue is true when row r of c holds a usable value.
+func hasValue(c *estimate.Column, r int) bool {
+	if c.Num != nil {
+		return !math.IsNaN(c.Num[r]) && !math.IsInf(c.Num[r], 0)
+	}
+	return c.Text[r] != ""
 }
 
 func distinctNum(x []float64, usable []bool) int {

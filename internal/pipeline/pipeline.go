@@ -39,7 +39,8 @@ func Analyze(ctx context.Context, run report.Run, progress func(rows int)) (*Ana
 	return AnalyzeTable(ctx, run, t)
 }
 
-// AnalyzeTable fits and builds from a table already read.
+// AnalyzeTable fits and builds from a table already read. The run's
+// Groupings are found from the table unless the caller has them.
 func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Analysis, error) {
 	run.Sheet, run.HeaderRow, run.Table = t.Sheet, t.HeaderRow, t.Region
 	if err := ctx.Err(); err != nil {
@@ -51,6 +52,9 @@ func AnalyzeTable(ctx context.Context, run report.Run, t *workbook.Table) (*Anal
 	res, err := estimate.FitContext(ctx, EngineData(t), run.Spec, nil)
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
+	}
+	if run.Groupings == nil {
+		run.Groupings = Groupings(t, run.Spec)
 	}
 	sheet, err := report.Build(run, res)
 	if err != nil {
@@ -101,11 +105,24 @@ func ScreenTable(ctx context.Context, sr report.ScreenRun, t *workbook.Table, pr
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(t), err)
 	}
+	if sr.Groupings == nil {
+		sr.Groupings = ScreenGroupings(t, sr)
+	}
 	sheet, err := report.BuildScreen(sr, sc)
 	if err != nil {
 		return nil, err
 	}
 	return &ScreenAnalysis{Run: sr, Table: t, Screen: sc, Sheet: sheet}, nil
+}
+
+// ScreenGroupings are the Groupings of each moderator of a screen, in
+// order.
+func ScreenGroupings(t *workbook.Table, sr report.ScreenRun) [][]report.Grouping {
+	out := make([][]report.Grouping, len(sr.Candidates))
+	for i := range sr.Candidates {
+		out[i] = Groupings(t, sr.SpecFor(i))
+	}
+	return out
 }
 
 // Save writes the screen's results sheet into the workbook (or beside a

@@ -25,6 +25,11 @@ type Source struct {
 	Table *workbook.Table
 	// Stream is the surveyed text file; nil when read whole.
 	Stream *workbook.Stream
+
+	// groupings is the last answer of Groupings, for the spec whose
+	// groupingKey is groupingsKey.
+	groupings    []report.Grouping
+	groupingsKey string
 }
 
 // Open readies the run's file for Analyze: a text file is surveyed for a
@@ -68,11 +73,23 @@ func (s *Source) Outline() *workbook.Table {
 // fit has no Table.
 func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error) {
 	if s.Stream == nil {
+		run.Groupings = s.knownGroupings(run.Spec)
 		return AnalyzeTable(ctx, run, s.Table)
 	}
 	o := s.Stream.Outline
 	run.Sheet, run.HeaderRow = o.Sheet, o.HeaderRow
-	res, err := estimate.FitStream(ctx, streamChunks{s.Stream, usedColumns(o, run.Spec)}, run.Spec)
+	// The grouping check rides on the fit's first pass, unless it has
+	// been made already; either way the passes ask for the same columns,
+	// so that the copy the first one keeps serves the others.
+	chunks, sc := s.chunks(run.Spec)
+	if run.Groupings = s.knownGroupings(run.Spec); run.Groupings == nil {
+		chunks.tap = sc
+	}
+	res, err := estimate.FitStream(ctx, chunks, run.Spec)
+	if sc != nil && sc.complete {
+		s.keepGroupings(run.Spec, sc.result())
+		run.Groupings = s.groupings
+	}
 	if errors.Is(err, estimate.ErrNeedsMemory) {
 		t, err := Read(ctx, run, nil)
 		if err != nil {
@@ -82,6 +99,9 @@ func (s *Source) Analyze(ctx context.Context, run report.Run) (*Analysis, error)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", where(o), err)
+	}
+	if run.Groupings == nil {
+		run.Groupings = []report.Grouping{}
 	}
 	sheet, err := report.Build(run, res)
 	if err != nil {
@@ -112,6 +132,9 @@ func usedColumns(o *workbook.Table, s estimate.Spec) []string {
 type streamChunks struct {
 	s     *workbook.Stream
 	names []string
+	// tap, when set, sees every chunk of the first pass before the fit
+	// does, and is marked complete when that pass ends without error.
+	tap *groupingScan
 }
 
 // chunksAhead is how many chunks the reader may be ahead of the fit, and
@@ -122,7 +145,21 @@ const (
 	chunksKept  = chunksAhead + 6
 )
 
-func (c streamChunks) Pass(ctx context.Context, each func(*estimate.Data, func()) error) error {
+func (c *streamChunks) Pass(ctx context.Context, each func(*estimate.Data, func()) error) error {
+	tap := c.tap
+	c.tap = nil
+	if tap == nil {
+		return c.pass(ctx, each)
+	}
+	err := c.pass(ctx, func(d *estimate.Data, release func()) error {
+		tap.add(d)
+		return each(d, release)
+	})
+	tap.complete = err == nil
+	return err
+}
+
+func (c *streamChunks) pass(ctx context.Context, each func(*estimate.Data, func()) error) error {
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
 	ready := make(chan *estimate.Data, chunksAhead)

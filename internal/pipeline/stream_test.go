@@ -107,7 +107,7 @@ func TestStreamChunksStopEarly(t *testing.T) {
 	}
 	stop := errors.New("stop")
 	n := 0
-	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
+	err = (&streamChunks{s: s, names: []string{"outcome", "region"}}).Pass(context.Background(), func(d *estimate.Data, release func()) error {
 		n++
 		release()
 		return stop
@@ -116,7 +116,7 @@ func TestStreamChunksStopEarly(t *testing.T) {
 		t.Errorf("got %v after %d chunks, want the fit's own error after 1", err, n)
 	}
 	rows := 0
-	err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
+	err = (&streamChunks{s: s, names: []string{"outcome", "region"}}).Pass(context.Background(), func(d *estimate.Data, release func()) error {
 		rows += len(d.RowLabels)
 		release()
 		return nil
@@ -152,7 +152,7 @@ func TestStreamChunksKeptUntilReleased(t *testing.T) {
 		var held []kept
 		seen := map[*estimate.Data]bool{}
 		reused, next := 0, 2 // the header is row 1
-		err = streamChunks{s, []string{"outcome", "region"}}.Pass(context.Background(), func(d *estimate.Data, release func()) error {
+		err = (&streamChunks{s: s, names: []string{"outcome", "region"}}).Pass(context.Background(), func(d *estimate.Data, release func()) error {
 			if d.RowLabels[0] != next {
 				t.Fatalf("a chunk from row %d, want %d", d.RowLabels[0], next)
 			}

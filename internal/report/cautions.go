@@ -30,16 +30,15 @@ func Cautions(run Run, res *estimate.Result) []string {
 	var out []string
 	add := func(format string, args ...any) { out = append(out, fmt.Sprintf(format, args...)) }
 	m := res.Moderator.Column
-	if !run.Randomized {
-		add("The treatment was not marked as randomly assigned, so these are associations, not effects: treated and untreated rows may differ in ways the controls do not capture.")
+	if col, words := GroupingWarning(res.Spec, run.Groupings); words != "" {
+		add("%s The standard errors here do not allow for it: run again with %s as the cluster column.", words, quoted(col))
 	}
-	add("%s is not randomly assigned, even when the treatment is: a difference between its groups shows for whom the treatment did more, not that %s causes it.", capitalise(quoted(m)), quoted(m))
-	if !run.Planned || run.tried() > 1 {
-		if run.tried() > 1 {
-			add("%d moderators were examined; the more are tried, the likelier one looks real by chance. Rely on adjusted p-values and confirm in new data.", run.tried())
-		} else {
-			add("The moderator was chosen after looking at the data; a difference found this way is a lead to confirm, not a finding.")
-		}
+	if !run.Randomized {
+		add("%s", cautionNotRandomized)
+	}
+	add("%s", cautionModerator(m))
+	if c := cautionChosen(run); c != "" {
+		add("%s", c)
 	}
 	if r := res.Rows; r.Read > 0 && float64(r.Dropped) > droppedShare*float64(r.Read) {
 		add("%s of %s rows (%s) were left out for missing or unusable values; if those rows differ from the rest, the results may not hold for everyone.", count(r.Dropped), count(r.Read), pct(float64(r.Dropped)/float64(r.Read)))
@@ -65,7 +64,10 @@ func Cautions(run Run, res *estimate.Result) []string {
 			}
 			add("In the group %s only %s rows are %s, so its effect is imprecise.", quoted(thin.Group), count(arm), which)
 		}
-		if len(res.Effects) > 2 {
+		switch {
+		case len(res.Effects) > 2 && res.HeterogeneityNotJudged != nil:
+			add("With %d groups there are %d pairwise comparisons; some will look clear by chance, and with %d clusters there is no overall test to look at first.", len(res.Effects), len(res.Differences), res.Model.Clusters)
+		case len(res.Effects) > 2:
 			add("With %d groups there are %d pairwise comparisons; some will look clear by chance. Look at the overall test first.", len(res.Effects), len(res.Differences))
 		}
 	} else {
@@ -79,10 +81,12 @@ func Cautions(run Run, res *estimate.Result) []string {
 			add("The effect at %s %s is outside the observed range (%s to %s) and rests on the straight-line form of the model alone.", m, joinAnd(outside), readable(res.Moderator.Min), readable(res.Moderator.Max))
 		}
 		switch l := res.Linearity; {
+		case l != nil && l.NotJudged != nil:
+			add("The model assumes the effect changes in a straight line with %s. With %d clusters that cannot be checked (the check weighs %d terms; %d clusters can carry at most %d), so if the true pattern is curved, effects between and beyond the probe values can be off. More clusters, or %s split into two groups, would allow a check.", m, l.NotJudged.Clusters, l.NotJudged.Terms, l.NotJudged.Clusters, l.NotJudged.MaxTerms, m)
 		case l != nil && l.Contradicts:
 			add("The effects within the thirds of %s depart from the straight line the model assumes, so effects read off the line, between and beyond the probe values, can be off; a moderator split into groups may describe the pattern better.", m)
 		case l != nil && l.Wald != nil:
-			add("The model assumes the effect changes in a straight line with %s. The effects estimated within each third of %s are consistent with that line (%s), though with few rows a check like this can miss a curve.", m, m, pText(l.Wald.P))
+			add("The model assumes the effect changes in a straight line with %s. The effects estimated within each third of %s are consistent with that line (%s), though with few rows a check like this can miss a curve.", m, m, waldPWords(l.Wald))
 		default:
 			add("The model assumes the effect changes in a straight line with %s; if the true pattern is curved, effects between and beyond the probe values can be off.", m)
 		}
@@ -93,6 +97,27 @@ func Cautions(run Run, res *estimate.Result) []string {
 		}
 	}
 	return out
+}
+
+// cautionNotRandomized is the caution of a treatment not marked as
+// randomly assigned (METHODS §9).
+const cautionNotRandomized = "The treatment was not marked as randomly assigned, so these are associations, not effects: treated and untreated rows may differ in ways the controls do not capture."
+
+// cautionModerator keeps the moderator from being read as a cause.
+func cautionModerator(m string) string {
+	return fmt.Sprintf("%s is not randomly assigned, even when the treatment is: a difference between its groups shows for whom the treatment did more, not that %s causes it.", capitalise(quoted(m)), quoted(m))
+}
+
+// cautionChosen is the caution of a moderator chosen after looking at the
+// data, or among several tried; "" for one planned moderator.
+func cautionChosen(run Run) string {
+	switch {
+	case run.tried() > 1:
+		return fmt.Sprintf("%d moderators were examined; the more are tried, the likelier one looks real by chance. Rely on adjusted p-values and confirm in new data.", run.tried())
+	case !run.Planned:
+		return "The moderator was chosen after looking at the data; a difference found this way is a lead to confirm, not a finding."
+	}
+	return ""
 }
 
 // smallest returns the group with the smallest size (ties: the first).

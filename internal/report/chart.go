@@ -82,26 +82,29 @@ func Chart(res *estimate.Result, opt ChartOptions) ([]byte, error) {
 	if err != nil {
 		return nil, err
 	}
-	// Everything is laid out in points for a 900 × 520 picture at 96 dots
-	// an inch; another size changes the dots an inch, so the drawing scales.
-	s := math.Max(0.5, math.Min(4, math.Min(float64(w)/chartWidth, float64(h)/chartHeight)))
+	return renderPNG(w, h, chartWidth, chartHeight, func(dc draw.Canvas, lk look) error {
+		switch res.Moderator.Kind {
+		case estimate.ModeratorBinary, estimate.ModeratorCategorical:
+			return drawGroups(dc, res, opt, lk)
+		case estimate.ModeratorContinuous:
+			return drawCurve(dc, res, opt, lk)
+		}
+		return fmt.Errorf("drawing the chart: %w: unknown moderator kind %q", ErrNothingToDraw, res.Moderator.Kind)
+	})
+}
+
+// renderPNG draws a picture of w × h pixels laid out in points for a
+// picture of baseW × baseH pixels at 96 dots an inch; another size changes
+// the dots an inch, so the drawing scales.
+func renderPNG(w, h, baseW, baseH int, paint func(draw.Canvas, look) error) ([]byte, error) {
+	s := math.Max(0.5, math.Min(4, math.Min(float64(w)/float64(baseW), float64(h)/float64(baseH))))
 	dpi := int(math.Round(96 * s))
 	cv := vgimg.NewWith(
 		vgimg.UseWH(vg.Length(w)*vg.Inch/vg.Length(dpi), vg.Length(h)*vg.Inch/vg.Length(dpi)),
 		vgimg.UseDPI(dpi),
 		vgimg.UseBackgroundColor(color.White),
 	)
-	dc := draw.New(cv)
-	lk := newLook()
-	switch res.Moderator.Kind {
-	case estimate.ModeratorBinary, estimate.ModeratorCategorical:
-		err = drawGroups(dc, res, opt, lk)
-	case estimate.ModeratorContinuous:
-		err = drawCurve(dc, res, opt, lk)
-	default:
-		err = fmt.Errorf("drawing the chart: %w: unknown moderator kind %q", ErrNothingToDraw, res.Moderator.Kind)
-	}
-	if err != nil {
+	if err := paint(draw.New(cv), newLook()); err != nil {
 		return nil, err
 	}
 	var buf bytes.Buffer
@@ -310,8 +313,16 @@ func drawGroups(dc draw.Canvas, res *estimate.Result, opt ChartOptions, lk look)
 	if anyRef {
 		items = append(items, legendItem{"reference group (differences are measured from it)", swatchWhisker(true)})
 	}
-	area := lk.header(dc, opt.Title, items)
-	area = lk.headline(area, lk.heading, res.Moderator.Column)
+	drawGroupRows(dc, rows, span, words, opt.Title, res.Moderator.Column, items, lk)
+	return nil
+}
+
+// drawGroupRows draws rows of groups, one a row top to bottom, each
+// effect as a dot on its interval bar against a marked line at zero, on
+// one axis spanning span.
+func drawGroupRows(dc draw.Canvas, rows []groupRow, span []float64, words chartWords, title, headline string, items []legendItem, lk look) {
+	area := lk.header(dc, title, items)
+	area = lk.headline(area, lk.heading, headline)
 
 	p := lk.newPlot()
 	n := len(rows)
@@ -342,7 +353,6 @@ func drawGroups(dc draw.Canvas, res *estimate.Result, opt ChartOptions, lk look)
 		fillRect(&area, rowColor, area.Min.X, ty(v-0.5), da.Max.X, ty(v+0.5))
 	}
 	p.Draw(area)
-	return nil
 }
 
 // groupLabel names a group with its row count: "rural (n=412)". A number

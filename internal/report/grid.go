@@ -12,6 +12,12 @@ type Sheet struct {
 	// Name is the sheet name wanted. A writer keeps it unique in the target
 	// (for example by adding " (2)"), so it is a wish, not a promise.
 	Name string
+	// Title is the sheet's first row, repeated at the top of every printed
+	// page: what the sheet answers, in a line.
+	Title string
+	// Footer is printed at the foot of every page beside the workbook's
+	// name and the page number: the date of the run.
+	Footer string
 	// Blocks are drawn in order, one blank row between two blocks.
 	Blocks []Block
 	// Settings is the run's spec in words, drawn as a two-column block
@@ -81,6 +87,20 @@ type Cell struct {
 	Decimals int
 	// Span is how many columns a Paragraph covers (at least 1).
 	Span int
+	// Formula, when set on a Number cell, is how a spreadsheet computes
+	// Value from other cells of the sheet, so that a reader can follow it:
+	// spreadsheet notation without the leading "=", in which {0}, {1}, …
+	// stand for the cells Refs[0], Refs[1], …. Value stays the number to
+	// show (and to store as the formula's result).
+	Formula string
+	Refs    []Ref
+}
+
+// Ref names a cell of the grid: row Row (0-based, in Rows) and column Col
+// of the block whose Key is Block.
+type Ref struct {
+	Block    string
+	Row, Col int
 }
 
 // Image is a picture drawn into the sheet, such as the effects chart.

@@ -17,28 +17,89 @@ import (
 // for the moderator; always rows used and dropped, the standard-error type
 // and the minimum detectable difference.
 func Note(run Run, res *estimate.Result) string {
-	w := noteWriter{run: run, res: res, u: unitsFor(res.Model.OutcomeBinary)}
+	return strings.Join(writeNote(run, res).texts(-1), " ")
+}
+
+// The parts of the note, each under a plain heading in the sheet.
+const (
+	partFound = iota // what we found
+	partSure         // how sure we are
+	partKeep         // what to keep in mind
+	numParts
+)
+
+// partHeadings are the headings of the note's parts, in reading order.
+var partHeadings = [numParts]string{"What we found", "How sure we are", "What to keep in mind"}
+
+// NotePart is one part of the note under its heading.
+type NotePart struct {
+	Heading string
+	Text    string
+}
+
+// NoteParts is the note split into short paragraphs under plain headings
+// (what we found · how sure we are · what to keep in mind): the same
+// sentences as Note, each in the part it belongs to, in Note's order
+// within a part. A part with nothing to say is left out.
+func NoteParts(run Run, res *estimate.Result) []NotePart {
+	w := writeNote(run, res)
+	var out []NotePart
+	for p := range numParts {
+		if t := w.texts(p); len(t) > 0 {
+			out = append(out, NotePart{Heading: partHeadings[p], Text: strings.Join(t, " ")})
+		}
+	}
+	return out
+}
+
+// writeNote writes every sentence of the note, each marked with its part.
+func writeNote(run Run, res *estimate.Result) *noteWriter {
+	w := &noteWriter{run: run, res: res, u: unitsFor(res.Model.OutcomeBinary)}
+	w.part = partSure
 	w.rows()
+	w.part = partFound
 	if res.Moderator.Kind == estimate.ModeratorContinuous {
 		w.continuous()
 	} else {
 		w.groups()
 	}
 	w.equivalence()
+	w.part = partSure
 	w.precision()
+	w.clusterBasis()
 	w.bootstrapSentences()
+	w.part = partKeep
 	w.moderatorWords()
-	return strings.Join(w.sentences, " ")
+	return w
 }
 
 type noteWriter struct {
 	run       Run
 	res       *estimate.Result
 	u         units
-	sentences []string
+	sentences []noteSentence
+	// part is the part of the note the next sentence belongs to.
+	part int
 	// open is set when the note shows a cluster-robust interval because
 	// the bootstrap could not bound its own.
 	open bool
+}
+
+// noteSentence is one sentence of the note and the part it belongs to.
+type noteSentence struct {
+	part int
+	text string
+}
+
+// texts returns the sentences of one part, or of all with part < 0.
+func (w *noteWriter) texts(part int) []string {
+	var out []string
+	for _, s := range w.sentences {
+		if part < 0 || s.part == part {
+			out = append(out, s.text)
+		}
+	}
+	return out
 }
 
 // evidence is what the note reports of an estimate: its p-value and
@@ -64,7 +125,7 @@ func (w *noteWriter) evidence(inf estimate.Inference, b *estimate.BootInference)
 }
 
 func (w *noteWriter) say(format string, args ...any) {
-	w.sentences = append(w.sentences, fmt.Sprintf(format, args...))
+	w.sentences = append(w.sentences, noteSentence{part: w.part, text: fmt.Sprintf(format, args...)})
 }
 
 // rows says how many rows were used and why others were left out.
@@ -136,6 +197,8 @@ func (w *noteWriter) groups() {
 			verdict = "the data show that it differs between at least some of them"
 		}
 		w.say("Testing whether the %s is the same in all %d groups gives F = %s (%s): %s.", w.what(), len(res.Effects), readable(h.F), w.pWords(p, boot), verdict)
+	} else if nj := res.HeterogeneityNotJudged; nj != nil {
+		w.say("Whether the %s is the same in all %d groups %s.", w.what(), len(res.Effects), notJudgedWords(nj, res.Spec.Cluster))
 	}
 	d := res.LargestDifference()
 	ev := w.evidence(d.Inference, d.Boot)
@@ -222,40 +285,70 @@ func (w *noteWriter) continuous() {
 			unit = d
 		}
 	}
-	alpha := res.Model.Alpha
-	change := "rises"
-	if unit.Estimate < 0 {
-		change = "falls"
-	}
-	ev := w.evidence(unit.Inference, unit.Boot)
-	if ev.p < alpha {
-		w.say("The %s %s by %s for each unit of %s (%s, %s): the data show that it changes with %s.",
-			w.what(), change, w.u.amount(math.Abs(unit.Estimate)), m, w.u.interval(alpha, ev.lo, ev.hi), w.pWords(ev.p, ev.boot), m)
-	} else {
-		w.say("The data cannot tell whether the %s changes with %s: the estimated change per unit is %s, but anything from %s to %s is consistent with the data (%s).",
-			w.what(), m, w.u.amount(unit.Estimate), readable(w.u.scale*ev.lo), readable(w.u.scale*ev.hi), w.pWords(ev.p, ev.boot))
-	}
+	w.say("%s", w.perUnitSentence(unit))
 	if jn := res.JohnsonNeyman; jn != nil {
 		w.say("%s", capitalise(significantWhere(jn, m))+".")
 	}
 	w.linearity()
 }
 
+// perUnitSentence says how the effect changes per unit of a continuous
+// moderator: clearly, or unclear with what the data allow.
+func (w *noteWriter) perUnitSentence(unit estimate.Difference) string {
+	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
+	change := "rises"
+	if unit.Estimate < 0 {
+		change = "falls"
+	}
+	ev := w.evidence(unit.Inference, unit.Boot)
+	if ev.p < alpha {
+		return fmt.Sprintf("The %s %s by %s for each unit of %s (%s, %s): the data show that it changes with %s.",
+			w.what(), change, w.u.amount(math.Abs(unit.Estimate)), m, w.u.interval(alpha, ev.lo, ev.hi), w.pWords(ev.p, ev.boot), m)
+	}
+	return fmt.Sprintf("The data cannot tell whether the %s changes with %s: the estimated change per unit is %s, but anything from %s to %s is consistent with the data (%s).",
+		w.what(), m, w.u.amount(unit.Estimate), readable(w.u.scale*ev.lo), readable(w.u.scale*ev.hi), w.pWords(ev.p, ev.boot))
+}
+
 // linearity flags a straight line that the effects within the thirds of
-// the moderator contradict (METHODS §5).
+// the moderator contradict (METHODS §5), by the bootstrap's p-value when it
+// ran, and says when there are too few clusters to judge it.
 func (w *noteWriter) linearity() {
 	l := w.res.Linearity
+	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
+	defer func(p int) { w.part = p }(w.part)
+	w.part = partKeep
+	if l != nil && l.NotJudged != nil {
+		w.say("Whether the %s follows the straight line the model assumes %s; the effects within each third of %s are shown beside the line, untested.",
+			w.what(), notJudgedWords(l.NotJudged, w.res.Spec.Cluster), m)
+		return
+	}
 	if l == nil || !l.Contradicts {
 		return
 	}
-	m, alpha := w.res.Moderator.Column, w.res.Model.Alpha
 	var parts []string
 	for _, th := range l.Thirds {
 		parts = append(parts, fmt.Sprintf("around %s it is %s (%s) where the line gives %s", readable(th.Median),
 			w.u.amount(th.Effect.Estimate), w.u.interval(alpha, th.Effect.CILow, th.Effect.CIHigh), w.u.amount(th.Line.Estimate)))
 	}
 	w.say("Estimated within each third of %s, the %s does not follow the straight line the model assumes (test of the line against the thirds, %s): %s. The values above rest on that line, so read them with care and look at the thirds in the chart.",
-		m, w.what(), pText(l.Wald.P), strings.Join(parts, "; "))
+		m, w.what(), waldPWords(l.Wald), strings.Join(parts, "; "))
+}
+
+// waldPWords is a joint test's p-value in words: the bootstrap's when it
+// ran (METHODS §8), else the one from F.
+func waldPWords(t *estimate.WaldTest) string {
+	if p, boot := heterogeneityP(t); boot {
+		return "bootstrap " + pText(p)
+	}
+	return pText(t.P)
+}
+
+// notJudgedWords says why a joint test is not made, completing a sentence
+// whose subject is the question it would answer: "… cannot be judged with
+// only 6 clusters of "school": …".
+func notJudgedWords(nj *estimate.NotJudged, cluster string) string {
+	return fmt.Sprintf("cannot be judged with only %d clusters of %s: the test weighs %d terms at once, and standard errors that allow for clusters can weigh at most %d (one fewer than the clusters), so a p-value would mean nothing (Cameron & Miller 2015)",
+		nj.Clusters, quoted(cluster), nj.Terms, nj.MaxTerms)
 }
 
 // equivalence says whether the two one-sided tests conclude that the

@@ -163,6 +163,8 @@ var noteScenarios = map[string]scenario{
 	"few-clusters-equivalence":        {n: 600, seed: 13, groups: []string{"rural", "urban"}, effects: []float64{2, 2.1}, noise: 3, clusters: 8, randomized: true, planned: true, margin: 1.5},
 	"continuous-curved":               {n: 2000, seed: 16, effects: []float64{0.5, 0.2}, noise: 3, modMean: 5, modSD: 2, bend: 2.5, randomized: true, planned: true},
 	"continuous-few-clusters":         {n: 700, seed: 15, effects: []float64{0.5, 0.3}, noise: 4, modMean: 5, modSD: 2, clusters: 13, randomized: true, planned: true},
+	"continuous-six-clusters":         {n: 300, seed: 18, effects: []float64{0.5, 0.3}, noise: 4, modMean: 5, modSD: 2, clusters: 6, randomized: true, planned: true},
+	"categorical-five-clusters":       {n: 600, seed: 19, groups: []string{"coast", "delta", "hills", "lakes", "plains", "valley"}, effects: []float64{1, 2, 1.5, 2, 3, 1}, noise: 3, clusters: 5, randomized: true, planned: true},
 }
 
 // TestNoteGolden compares each note and its cautions with the reviewed text

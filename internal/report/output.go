@@ -10,19 +10,22 @@ import (
 // with --json. Its shape is a documented contract (README, "JSON output"):
 // fields are added, never renamed or removed.
 type Output struct {
-	NUsed         int            `json:"n_used"`
-	NDropped      int            `json:"n_dropped"`
-	SEType        string         `json:"se_type"`
-	DF            float64        `json:"df"`
-	Groups        []OutGroup     `json:"groups"`
-	Differences   []OutDiff      `json:"differences"`
-	Heterogeneity *OutWald       `json:"heterogeneity"`
-	JN            *OutJN         `json:"jn,omitempty"`
-	Linearity     *OutLinearity  `json:"linearity,omitempty"`
-	Coefficients  []OutCoef      `json:"coefficients"`
-	Note          string         `json:"note"`
-	Cautions      []string       `json:"cautions"`
-	Dropped       []OutDropCount `json:"dropped_reasons,omitempty"`
+	NUsed         int        `json:"n_used"`
+	NDropped      int        `json:"n_dropped"`
+	SEType        string     `json:"se_type"`
+	DF            float64    `json:"df"`
+	Groups        []OutGroup `json:"groups"`
+	Differences   []OutDiff  `json:"differences"`
+	Heterogeneity *OutWald   `json:"heterogeneity"`
+	// HeterogeneityNotJudged is set, and Heterogeneity null, when there
+	// are too few clusters to judge the test.
+	HeterogeneityNotJudged *OutNotJudged  `json:"heterogeneity_not_judged,omitempty"`
+	JN                     *OutJN         `json:"jn,omitempty"`
+	Linearity              *OutLinearity  `json:"linearity,omitempty"`
+	Coefficients           []OutCoef      `json:"coefficients"`
+	Note                   string         `json:"note"`
+	Cautions               []string       `json:"cautions"`
+	Dropped                []OutDropCount `json:"dropped_reasons,omitempty"`
 	// Bootstrap says how the wild cluster bootstrap ran; null when it did
 	// not (no cluster column, 42 clusters or more, or turned off).
 	Bootstrap *OutBootstrap `json:"bootstrap"`
@@ -127,9 +130,29 @@ type OutJN struct {
 // the effect within each third beside the line's, and the Wald test of the
 // line against the thirds (Hainmueller, Mummolo & Xu 2019).
 type OutLinearity struct {
-	Thirds      []OutThird `json:"thirds"`
-	Wald        *OutWald   `json:"wald"`
-	Contradicts bool       `json:"contradicts"`
+	Thirds []OutThird `json:"thirds"`
+	Wald   *OutWald   `json:"wald"`
+	// NotJudged is set, and Wald null, when there are too few clusters
+	// to judge the test.
+	NotJudged   *OutNotJudged `json:"not_judged,omitempty"`
+	Contradicts bool          `json:"contradicts"`
+}
+
+// OutNotJudged is a joint test that is not made because there are too few
+// clusters for the terms it weighs: no F, no p, the reason in words.
+type OutNotJudged struct {
+	Terms    int    `json:"terms"`
+	Clusters int    `json:"clusters"`
+	MaxTerms int    `json:"max_terms"`
+	Reason   string `json:"reason"`
+}
+
+func outNotJudged(nj *estimate.NotJudged, cluster string) *OutNotJudged {
+	if nj == nil {
+		return nil
+	}
+	return &OutNotJudged{Terms: nj.Terms, Clusters: nj.Clusters, MaxTerms: nj.MaxTerms,
+		Reason: capitalise("the test " + notJudgedWords(nj, cluster) + ".")}
 }
 
 // OutThird is one third of the moderator's rows.
@@ -148,11 +171,11 @@ type OutThird struct {
 	LineCIHigh   float64 `json:"line_ci_high"`
 }
 
-func outLinearity(l *estimate.Linearity) *OutLinearity {
+func outLinearity(l *estimate.Linearity, cluster string) *OutLinearity {
 	if l == nil {
 		return nil
 	}
-	o := &OutLinearity{Thirds: []OutThird{}, Contradicts: l.Contradicts}
+	o := &OutLinearity{Thirds: []OutThird{}, Contradicts: l.Contradicts, NotJudged: outNotJudged(l.NotJudged, cluster)}
 	for _, th := range l.Thirds {
 		e, ln := th.Effect, th.Line
 		o.Thirds = append(o.Thirds, OutThird{From: th.From, To: th.To, Median: th.Median, N: th.Rows,
@@ -160,7 +183,7 @@ func outLinearity(l *estimate.Linearity) *OutLinearity {
 			LineEstimate: ln.Estimate, LineCILow: ln.CILow, LineCIHigh: ln.CIHigh})
 	}
 	if w := l.Wald; w != nil {
-		o.Wald = &OutWald{F: w.F, DF1: w.DF1, DF2: float64(w.DF2), P: w.P}
+		o.Wald = &OutWald{F: w.F, DF1: w.DF1, DF2: float64(w.DF2), P: w.P, PBoot: w.PBoot}
 	}
 	return o
 }
@@ -226,7 +249,8 @@ func Summarize(run Run, res *estimate.Result) Output {
 		}
 		o.JN = &OutJN{Bounds: bounds, SignificantWhere: significantWhere(jn, res.Moderator.Column)}
 	}
-	o.Linearity = outLinearity(res.Linearity)
+	o.HeterogeneityNotJudged = outNotJudged(res.HeterogeneityNotJudged, res.Spec.Cluster)
+	o.Linearity = outLinearity(res.Linearity, res.Spec.Cluster)
 	for _, c := range res.Coefficients {
 		o.Coefficients = append(o.Coefficients, OutCoef{Term: c.Term, Estimate: c.Estimate, SE: c.SE, CILow: c.CILow, CIHigh: c.CIHigh, P: c.P})
 	}

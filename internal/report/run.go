@@ -32,6 +32,11 @@ type Run struct {
 	// moderators tried (Holm), when more than one was tried.
 	AdjustedP float64 `json:"adjusted_p,omitempty"`
 
+	// Groupings are what the data show about the columns that group the
+	// rows (pipeline.Groupings), for the cautions and the note. They are
+	// found again from the data on every run, so they are not stored.
+	Groupings []Grouping `json:"-"`
+
 	// Version of the program and the time of the run, for the settings block.
 	Version string    `json:"version"`
 	Time    time.Time `json:"time"`

@@ -19,6 +19,9 @@ type ScreenRun struct {
 	Base Run `json:"run"`
 	// Candidates are the moderators tried, in the order asked.
 	Candidates []Candidate `json:"candidates"`
+	// Groupings are, for each candidate in order, what the data show
+	// about the columns that group the rows (Run.Groupings); not stored.
+	Groupings [][]Grouping `json:"-"`
 }
 
 // Candidate is one moderator of a screen.
@@ -38,16 +41,27 @@ func (sr ScreenRun) Moderators() []estimate.Moderator {
 	return out
 }
 
+// SpecFor is the model of the i-th moderator: the base spec with it as
+// the moderator.
+func (sr ScreenRun) SpecFor(i int) estimate.Spec {
+	s := sr.Base.Spec
+	s.Moderator = sr.Candidates[i].Moderator
+	return s
+}
+
 // RunFor is the run of the i-th moderator read as an analysis of its own:
 // planned or not, one of how many tried, with its Holm-adjusted p-value,
 // so that its note reports an exploratory moderator only with the
 // adjusted p (METHODS §6, §9).
 func (sr ScreenRun) RunFor(sc *estimate.Screen, i int) Run {
 	r := sr.Base
-	r.Spec.Moderator = sr.Candidates[i].Moderator
+	r.Spec = sr.SpecFor(i)
 	r.Planned = sr.Candidates[i].Planned
 	r.ModeratorsTried = len(sr.Candidates)
 	r.AdjustedP = sc.Rows[i].PHolm
+	if i < len(sr.Groupings) {
+		r.Groupings = sr.Groupings[i]
+	}
 	return r
 }
 
@@ -204,13 +218,18 @@ func BuildScreen(sr ScreenRun, sc *estimate.Screen) (*Sheet, error) {
 	if err != nil {
 		return nil, fmt.Errorf("storing the screen's settings: %w", err)
 	}
-	s := &Sheet{Name: "Moderators", Spec: spec}
+	s := &Sheet{Name: "Moderators", Spec: spec, Footer: runDate(sr.Base),
+		Title: fmt.Sprintf("%s, by each of %d moderators", capitalise(subjectWords(sr.RunFor(sc, 0), sc.Results[0])), len(sc.Results))}
 	first := sheetBuilder{run: sr.RunFor(sc, 0), res: sc.Results[0], sheet: s}
+	first.add("headline", "In short", paragraphs(ScreenHeadline(sr, sc)))
+	if err := first.screenChart(sr, sc); err != nil {
+		return nil, err
+	}
+	first.screenSummary(sr, sc)
+	note := [][]Cell{{ParagraphCell(ScreenNote(sr, sc), tableWidth)}, {HeadingCell(partHeadings[partKeep])}}
+	first.add("note", "In plain words", append(note, paragraphs(ScreenCautions(sr, sc))...))
 	first.screenAsked(sr)
 	first.screenData()
-	first.screenSummary(sr, sc)
-	first.add("note", "In plain words", [][]Cell{{ParagraphCell(ScreenNote(sr, sc), tableWidth)}})
-	first.add("cautions", "Keep in mind", paragraphs(ScreenCautions(sr, sc)))
 	for i, res := range sc.Results {
 		run := sr.RunFor(sc, i)
 		b := sheetBuilder{run: run, res: res, sheet: s, keySuffix: ":" + res.Moderator.Column}
@@ -221,9 +240,11 @@ func BuildScreen(sr ScreenRun, sc *estimate.Screen) (*Sheet, error) {
 			{HeadingCell("Rows used"), NumberCell(float64(r.Used), "#,##0")},
 			{HeadingCell("Rows left out"), NumberCell(float64(r.Dropped), "#,##0")},
 		})
-		if err := b.findings(); err != nil {
+		if err := b.answer(); err != nil {
 			return nil, err
 		}
+		b.details()
+		b.terms()
 	}
 	s.Settings = screenSettings(sr, sc)
 	return s, nil
@@ -307,7 +328,11 @@ func (b *sheetBuilder) screenSummary(sr ScreenRun, sc *estimate.Screen) {
 				cells = append(cells, optionalP(h.PBoot))
 			}
 		} else {
-			cells = append(cells, TextCell("not computable"), Cell{}, Cell{})
+			why := "not computable"
+			if r.HeterogeneityNotJudged != nil {
+				why = "too few clusters to judge"
+			}
+			cells = append(cells, TextCell(why), Cell{}, Cell{})
 			if boot {
 				cells = append(cells, Cell{})
 			}

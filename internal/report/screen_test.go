@@ -1,8 +1,10 @@
 package report
 
 import (
+	"bytes"
 	"context"
 	"fmt"
+	"image/png"
 	"math/rand/v2"
 	"strings"
 	"testing"
@@ -148,13 +150,13 @@ func TestScreenSheet(t *testing.T) {
 			images++
 		}
 	}
-	if strings.Join(keys[:5], ",") != "asked,data,screen,note,cautions" || keys[5] != "moderator:region" || !seen["effects:age"] || !seen["chart:baseline"] {
+	if strings.Join(keys[:6], ",") != "headline,chart,screen,note,asked,data" || keys[6] != "moderator:region" || !seen["effects:age"] || !seen["chart:baseline"] {
 		t.Errorf("block keys %v", keys)
 	}
-	if images != 4 {
-		t.Errorf("%d charts, want one a moderator", images)
+	if images != 5 {
+		t.Errorf("%d charts, want the combined one and one a moderator", images)
 	}
-	summary := s.Blocks[2].Rows
+	summary := blockByKey(s, "screen").Rows
 	if len(summary) != 1+4+1 || summary[0][6].Text != "Bootstrap p-value" || summary[0][7].Text != "Holm-adjusted p" {
 		t.Errorf("summary: %d rows, heading %v", len(summary), summary[0])
 	}
@@ -166,5 +168,49 @@ func TestScreenSheet(t *testing.T) {
 	}
 	if !strings.Contains(string(s.Spec), `"candidates"`) || s.Name != "Moderators" {
 		t.Errorf("sheet %q, spec %s", s.Name, s.Spec)
+	}
+}
+
+// TestScreenChartHoldsEveryGroup checks that the combined chart at the top
+// of a screen's sheet has a row for every group of every moderator tried,
+// each with its effect and interval, under a title row a moderator that
+// gives its adjusted test and says in words whether it was named
+// beforehand; and that the picture has the size the sheet reserves.
+func TestScreenChartHoldsEveryGroup(t *testing.T) {
+	for name, s := range screenScenarios {
+		sr, sc := s.fit(t)
+		words := wordsFor(sc.Results[0], ChartOptions{Randomized: sr.Base.Randomized})
+		rows, _ := screenRows(sr, sc, words)
+		r := 0
+		for i, res := range sc.Results {
+			title := rows[r]
+			kind := "exploratory"
+			if sr.Candidates[i].Planned {
+				kind = "named beforehand"
+			}
+			if title.ok || !strings.HasPrefix(title.label, sc.Rows[i].Moderator+" ("+kind+")") || !strings.Contains(title.label, "adjusted "+pText(sc.Rows[i].PHolm)) {
+				t.Errorf("%s: title row %q for %s", name, title.label, sc.Rows[i].Moderator)
+			}
+			r++
+			for _, e := range res.Effects {
+				g := rows[r]
+				if g.est != words.scale*e.Estimate || g.lo != words.scale*e.CILow || g.hi != words.scale*e.CIHigh || g.reference != e.Reference {
+					t.Errorf("%s: %s %s drawn as %+v", name, sc.Rows[i].Moderator, e.Group, g)
+				}
+				r++
+			}
+		}
+		if r != len(rows) {
+			t.Errorf("%s: %d rows drawn, %d expected", name, len(rows), r)
+		}
+		sheet, err := BuildScreen(sr, sc)
+		if err != nil {
+			t.Fatal(err)
+		}
+		im := blockByKey(sheet, "chart").Image
+		cfg, err := png.DecodeConfig(bytes.NewReader(im.PNG))
+		if err != nil || cfg.Width != im.Width || cfg.Height != im.Height || cfg.Height < 30*len(rows) {
+			t.Errorf("%s: picture %dx%d (%v), the sheet reserves %dx%d for %d rows", name, cfg.Width, cfg.Height, err, im.Width, im.Height, len(rows))
+		}
 	}
 }

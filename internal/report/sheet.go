@@ -14,26 +14,36 @@ import (
 // merged across it.
 const tableWidth = 9
 
-// Build lays out the results sheet of one run: what was asked, the data,
-// the effect in each group, the differences, the note, the cautions, the
-// coefficients, the chart and the rows left out, with the settings and the
-// machine-readable run. The GUI shows the same sheet.
+// Build lays out the results sheet of one run, the answer first: the
+// headline, the chart, the effect in each group and the note under plain
+// headings; then the technical blocks: the differences and their tests,
+// what was asked, the data, every term of the model with the covariance
+// of the estimates the effects are built from, and the rows left out,
+// with the settings and the machine-readable run. The GUI shows the same
+// sheet.
 func Build(run Run, res *estimate.Result) (*Sheet, error) {
 	spec, err := json.Marshal(run)
 	if err != nil {
 		return nil, fmt.Errorf("storing the run's settings: %w", err)
 	}
-	s := &Sheet{Name: "Results", Spec: spec}
+	s := &Sheet{Name: "Results", Spec: spec, Footer: runDate(run),
+		Title: fmt.Sprintf("%s, by %s", capitalise(subjectWords(run, res)), res.Moderator.Column)}
 	b := sheetBuilder{run: run, res: res, sheet: s}
-	b.asked()
-	b.data()
-	if err := b.findings(); err != nil {
+	b.add("headline", "In short", paragraphs(Headline(run, res)))
+	if err := b.answer(); err != nil {
 		return nil, err
 	}
+	b.details()
+	b.asked()
+	b.data()
+	b.terms()
 	b.dropped()
 	s.Settings = settings(run, res)
 	return s, nil
 }
+
+// runDate is the date of the run as the printed pages show it.
+func runDate(run Run) string { return "run " + run.Time.UTC().Format("2006-01-02 15:04 UTC") }
 
 type sheetBuilder struct {
 	run   Run
@@ -42,32 +52,74 @@ type sheetBuilder struct {
 	// keySuffix is added to every block's key, so that the blocks of
 	// several moderators in one sheet keep apart (":region").
 	keySuffix string
+	// termsUsed caches usedTerms(res), which every formula cell needs: once
+	// a sheet, not once a cell (200 groups have 19,900 differences).
+	termsUsed []int
+	termsDone bool
+}
+
+// usedTerms is usedTerms(b.res), worked out once.
+func (b *sheetBuilder) usedTerms() []int {
+	if !b.termsDone {
+		b.termsUsed, b.termsDone = usedTerms(b.res), true
+	}
+	return b.termsUsed
 }
 
 func (b *sheetBuilder) add(key, title string, rows [][]Cell) {
 	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: key + b.keySuffix, Title: title, Rows: rows})
 }
 
-// findings adds what one fit found: the effects, the differences, the
-// note, the cautions, every term of the model and the chart.
-func (b *sheetBuilder) findings() error {
+// answer adds what a reader wants first from one fit: the chart, the
+// effect in each group and the note.
+func (b *sheetBuilder) answer() error {
 	run, res := b.run, b.res
-	b.effects()
-	b.differences()
-	b.equivalence()
-	b.linearity()
-	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
-	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
-	b.coefficients()
-	png, err := Chart(res, ChartOptions{Randomized: run.Randomized})
+	h := sheetChartHeight(res)
+	png, err := Chart(res, ChartOptions{Randomized: run.Randomized, Width: chartWidth, Height: h})
 	if err != nil {
 		return fmt.Errorf("drawing the chart: %w", err)
 	}
-	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Title: "Chart", Image: &Image{
+	b.sheet.Blocks = append(b.sheet.Blocks, Block{Key: "chart" + b.keySuffix, Image: &Image{
 		Title: fmt.Sprintf("%s by %s, with %s confidence intervals", capitalise(subjectWords(run, res)), res.Moderator.Column, level(res.Model.Alpha)),
-		PNG:   png, Width: chartWidth, Height: chartHeight,
+		PNG:   png, Width: chartWidth, Height: h,
 	}})
+	b.effects()
+	var rows [][]Cell
+	parts := NoteParts(run, res)
+	for _, p := range parts {
+		rows = append(rows, []Cell{HeadingCell(p.Heading)}, []Cell{ParagraphCell(p.Text, tableWidth)})
+	}
+	if len(parts) == 0 || parts[len(parts)-1].Heading != partHeadings[partKeep] {
+		rows = append(rows, []Cell{HeadingCell(partHeadings[partKeep])})
+	}
+	rows = append(rows, paragraphs(Cautions(run, res))...)
+	b.add("note", "In plain words", rows)
 	return nil
+}
+
+// sheetChartHeight is the height of the sheet's chart: for groups, room
+// for each group's row (a printed page holds more of the sheet), at most
+// the chart's usual height; for a number moderator, the usual height.
+func sheetChartHeight(res *estimate.Result) int {
+	if res.Moderator.Kind == estimate.ModeratorContinuous {
+		return chartHeight
+	}
+	return min(chartHeight, max(chartMinSide+100, 180+55*len(res.Effects)))
+}
+
+// details adds the differences between groups and the checks of the
+// model's form.
+func (b *sheetBuilder) details() {
+	b.differences()
+	b.equivalence()
+	b.linearity()
+}
+
+// terms adds every term of the model and the covariance of the terms the
+// effects are built from.
+func (b *sheetBuilder) terms() {
+	b.coefficients()
+	b.covariance()
 }
 
 // paragraphs lays out texts one paragraph a row.
@@ -197,15 +249,13 @@ func (b *sheetBuilder) effects() {
 	}
 	head = append(head, HeadingCell(effect), HeadingCell("Std. error"), HeadingCell(ci+" low"), HeadingCell(ci+" high"), HeadingCell("p-value"))
 	boot := res.Bootstrap != nil
-	if boot {
-		head = append(head, bootHeadings(res)...)
-	}
 	var vals []float64
 	for _, e := range res.Effects {
 		vals = append(vals, e.Estimate, e.SE, e.CILow, e.CIHigh)
 	}
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
+	var bootRows [][]Cell
 	for _, e := range res.Effects {
 		label := e.Group
 		if continuous {
@@ -217,14 +267,16 @@ func (b *sheetBuilder) effects() {
 		if binaryT {
 			row = append(row, NumberCell(float64(e.Treated), "#,##0"), NumberCell(float64(e.Untreated), "#,##0"))
 		}
-		row = append(row, NumberCell(e.Estimate, f), NumberCell(e.SE, f), NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
-		if boot {
-			row = append(row, bootCells(e.Boot, f)...)
-		}
+		est, se := b.contrastCells(e.Contrast, e.Estimate, e.SE, f)
+		row = append(row, est, se, NumberCell(e.CILow, f), NumberCell(e.CIHigh, f), PValueCell(e.P))
 		rows = append(rows, row)
+		bootRows = append(bootRows, append([]Cell{TextCell(label)}, bootCells(e.Boot, f)...))
+	}
+	if b.usedTerms() != nil {
+		rows = append(rows, []Cell{ParagraphCell(formulaCaption, tableWidth)})
 	}
 	if boot {
-		rows = append(rows, bootFootnote(res)...)
+		rows = append(rows, bootTable(res, head[0], bootRows)...)
 	}
 	if continuous {
 		rows = append(rows, []Cell{TextCell(fmt.Sprintf("Rows nearby: rows whose %s lies within 10%% of the observed range of the value.", res.Moderator.Column))})
@@ -257,22 +309,22 @@ func (b *sheetBuilder) differences() {
 		HeadingCell(ci + " low"), HeadingCell(ci + " high"), HeadingCell("p-value"),
 		HeadingCell("Smallest difference detectable (" + power + "% power)")}
 	boot := res.Bootstrap != nil
-	if boot {
-		head = append(head, bootHeadings(res)...)
-	}
 	var vals []float64
 	for _, d := range res.Differences {
 		vals = append(vals, d.Estimate, d.SE, d.CILow, d.CIHigh, d.MDD)
 	}
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
+	var bootRows [][]Cell
 	for _, d := range res.Differences {
-		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+		est, se := b.contrastCells(d.Contrast, d.Estimate, d.SE, f)
+		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), est, se,
 			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)}
-		if boot {
-			row = append(row, bootCells(d.Boot, f)...)
-		}
 		rows = append(rows, row)
+		bootRows = append(bootRows, append([]Cell{TextCell(comparisonLabel(res, d, shortValue))}, bootCells(d.Boot, f)...))
+	}
+	if boot {
+		rows = append(rows, bootTable(res, head[0], bootRows)...)
 	}
 	if h := res.Heterogeneity; h != nil {
 		head := []Cell{HeadingCell("Same effect in every group?"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")}
@@ -282,6 +334,9 @@ func (b *sheetBuilder) differences() {
 			row = append(row, PValueCell(*h.PBoot))
 		}
 		rows = append(rows, []Cell{}, head, row)
+	} else if nj := res.HeterogeneityNotJudged; nj != nil {
+		rows = append(rows, []Cell{}, []Cell{HeadingCell("Same effect in every group?")},
+			[]Cell{ParagraphCell(capitalise("whether it is the same in all "+count(len(res.Effects))+" groups "+notJudgedWords(nj, res.Spec.Cluster))+".", tableWidth)})
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		rows = append(rows, []Cell{}, []Cell{HeadingCell("Where the effect is distinguishable from zero")},
@@ -367,13 +422,24 @@ func (b *sheetBuilder) linearity() {
 			NumberCell(th.Median, ""), NumberCell(float64(th.Rows), "#,##0"), NumberCell(th.Effect.Estimate, f), NumberCell(th.Effect.SE, f),
 			NumberCell(th.Effect.CILow, f), NumberCell(th.Effect.CIHigh, f), NumberCell(th.Line.Estimate, f)})
 	}
-	verdict := "The test of the line against the thirds cannot be computed (with clusters, it needs more of them than the 8 terms it tests)."
+	verdict := "The test of the line against the thirds cannot be computed."
+	if nj := l.NotJudged; nj != nil {
+		verdict = capitalise("whether the thirds depart from the line "+notJudgedWords(nj, res.Spec.Cluster)) + "."
+	}
 	if w := l.Wald; w != nil {
-		rows = append(rows, []Cell{}, []Cell{HeadingCell("Test of the line against the thirds"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")},
-			[]Cell{TextCell("all 8 terms the thirds add"), NumberCell(w.F, "0.000"), NumberCell(float64(w.DF1), "0"), NumberCell(float64(w.DF2), "0"), PValueCell(w.P)})
+		head := []Cell{HeadingCell("Test of the line against the thirds"), HeadingCell("F"), HeadingCell("df (tested)"), HeadingCell("df (error)"), HeadingCell("p-value")}
+		row := []Cell{TextCell("all 8 terms the thirds add"), NumberCell(w.F, "0.000"), NumberCell(float64(w.DF1), "0"), NumberCell(float64(w.DF2), "0"), PValueCell(w.P)}
+		if w.PBoot != nil {
+			head = append(head, HeadingCell("Bootstrap p-value"))
+			row = append(row, PValueCell(*w.PBoot))
+		}
+		rows = append(rows, []Cell{}, head, row)
 		verdict = "The thirds are consistent with the straight line."
 		if l.Contradicts {
 			verdict = "The thirds contradict the straight line: the effect does not change evenly with " + m + "."
+		}
+		if w.PBoot != nil {
+			verdict += " With few clusters the verdict rests on the bootstrap p-value; the one from F rejects far too often when the test weighs many terms."
 		}
 	}
 	rows = append(rows, []Cell{ParagraphCell("Each third's effect is estimated from its own rows, at the third's median (binned model of Hainmueller, Mummolo & Xu 2019); the test asks whether the thirds depart from the line by more than chance allows. "+verdict, tableWidth)})
@@ -402,9 +468,13 @@ func bootCells(b *estimate.BootInference, format string) []Cell {
 	return []Cell{PValueCell(b.P), NumberCell(b.CILow, format), NumberCell(b.CIHigh, format)}
 }
 
-// bootFootnote says under a table where the bootstrap columns come from.
-func bootFootnote(res *estimate.Result) [][]Cell {
-	return [][]Cell{{ParagraphCell("Bootstrap columns: "+bootstrapWords(res)+"; the interval holds the values its test does not reject.", tableWidth)}}
+// bootTable is the wild cluster bootstrap's p-values and intervals of a
+// table's rows, as a small table of their own below it (so that the main
+// table stays narrow enough to print legibly), with where they come from.
+func bootTable(res *estimate.Result, first Cell, rows [][]Cell) [][]Cell {
+	out := [][]Cell{{}, append([]Cell{first}, bootHeadings(res)...)}
+	out = append(out, rows...)
+	return append(out, []Cell{ParagraphCell("Bootstrap columns: "+bootstrapWords(res)+"; the interval holds the values its test does not reject.", tableWidth)})
 }
 
 // bootstrapWords describes how the wild cluster bootstrap was run.
@@ -441,8 +511,11 @@ func (b *sheetBuilder) coefficients() {
 	rows := [][]Cell{{HeadingCell("Term"), HeadingCell("Role"), HeadingCell("Estimate"), HeadingCell("Std. error"),
 		HeadingCell("t"), HeadingCell("p-value"), HeadingCell(ci + " low"), HeadingCell(ci + " high")}}
 	for _, c := range res.Coefficients {
-		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, "0.000000"), NumberCell(c.SE, "0.000000"),
-			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, "0.000000"), NumberCell(c.CIHigh, "0.000000")})
+		// Each term shown with about four significant digits of its own
+		// size; the cells keep every digit for the formulas above.
+		f := numberFormat([]float64{c.Estimate, c.SE})
+		rows = append(rows, []Cell{TextCell(c.Term), TextCell(c.Role), NumberCell(c.Estimate, f), NumberCell(c.SE, f),
+			NumberCell(c.T, "0.000"), PValueCell(c.P), NumberCell(c.CILow, f), NumberCell(c.CIHigh, f)})
 	}
 	b.add("coefficients", "All terms of the model", rows)
 }

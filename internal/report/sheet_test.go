@@ -44,9 +44,27 @@ func TestSheetBootstrapColumns(t *testing.T) {
 			t.Errorf("bootstrap on: the sheet lacks %q", want)
 		}
 	}
-	effects := s.Blocks[2].Rows
-	if len(effects[0]) != len(effects[1]) || effects[1][len(effects[1])-3].Kind != PValue {
-		t.Errorf("effects table: heading %d cells, first row %d, bootstrap p kind %v", len(effects[0]), len(effects[1]), effects[1][len(effects[1])-3].Kind)
+	// The bootstrap's columns stand in a table of their own below the
+	// effects, a row a group, so that the effects table prints legibly.
+	effects := blockByKey(s, "effects").Rows
+	groups := len(res.Effects)
+	if len(effects[0]) != len(effects[1]) {
+		t.Errorf("effects table: heading %d cells, first row %d", len(effects[0]), len(effects[1]))
+	}
+	sub := -1
+	for i, row := range effects {
+		if len(row) > 1 && row[1].Text == "Bootstrap p-value" {
+			sub = i
+		}
+	}
+	if sub < 0 || len(effects) < sub+1+groups {
+		t.Fatalf("effects block has no bootstrap table: %v", effects)
+	}
+	for g, e := range res.Effects {
+		row := effects[sub+1+g]
+		if len(row) != 4 || row[1].Kind != PValue || row[1].Value != e.Boot.P || !strings.HasPrefix(row[0].Text, e.Group) {
+			t.Errorf("bootstrap row %d: %v", g, row)
+		}
 	}
 	if got := settingValue(s, "Wild cluster bootstrap"); !strings.HasPrefix(got, "restricted wild cluster bootstrap-t") {
 		t.Errorf("settings say %q", got)
@@ -76,4 +94,14 @@ func settingValue(s *Sheet, label string) string {
 		}
 	}
 	return ""
+}
+
+// blockByKey returns the sheet's block of that key, or an empty block.
+func blockByKey(s *Sheet, key string) Block {
+	for _, b := range s.Blocks {
+		if b.Key == key {
+			return b
+		}
+	}
+	return Block{}
 }

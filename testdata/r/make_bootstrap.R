@@ -6,7 +6,8 @@
 #         (outdir defaults to the directory holding this script.)
 #
 # Reads co2_cluster.csv and airq_weighted78.csv (written by make_reference.R)
-# and writes bootstrap.txt: "<case> <key> <value>".
+# and schools10.csv (drawn by the Go tests' schoolsCSV), and writes
+# bootstrap.txt: "<case> <key> <value>".
 #
 # Base R only. Written from the formulas of Cameron, Gelbach & Miller
 # (2008), Review of Economics and Statistics 90(3), 414-427, section III
@@ -53,8 +54,9 @@ cr1_factor <- function(N, K, G) G / (G - 1) * (N - 1) / (N - K)
 
 # One case: X and y already multiplied by sqrt(weights); cl = cluster index
 # 1..G per row; hyps = named list of coefficient vectors a (single
-# restrictions); joint = column indices of the joint test (or NULL).
-boot_case <- function(X, y, cl, values, hyps, joint) {
+# restrictions); joint = column indices of the joint test (or NULL), whose
+# keys start with joint_name.
+boot_case <- function(X, y, cl, values, hyps, joint, joint_name = "het") {
   N <- nrow(X); K <- ncol(X); G <- max(cl)
   cfac <- cr1_factor(N, K, G)
   qx <- qr(X)
@@ -105,8 +107,8 @@ boot_case <- function(X, y, cl, values, hyps, joint) {
       Fd <- drop(t(rb) %*% solve(Vd, rb)) / q
       if (Fd >= F0 * (1 - tie)) count <- count + 1
     }
-    out[["het.F"]] <- F0
-    out[["het.pboot"]] <- count / D
+    out[[paste0(joint_name, ".F")]] <- F0
+    out[[paste0(joint_name, ".pboot")]] <- count / D
   }
   out
 }
@@ -114,7 +116,7 @@ boot_case <- function(X, y, cl, values, hyps, joint) {
 lines <- c(
   sprintf("# %s, base R only; produced by make_bootstrap.R", R.version.string),
   "# grammar: <case> <key> <value>; restricted wild cluster bootstrap-t, all draws enumerated",
-  "# keys: draws; <quantity>.t (CR1 t of the data); <quantity>.pboot; het.F, het.pboot")
+  "# keys: draws; <quantity>.t (CR1 t of the data); <quantity>.pboot; het.F, het.pboot; lin.F, lin.pboot (linearity check)")
 emit <- function(case, out) {
   for (k in names(out)) lines <<- c(lines, paste(case, k, fmt(out[[k]])))
 }
@@ -178,6 +180,46 @@ hyps[["diff[unit]"]] <- unit(K, 4)
 hyps[["diff[p10|p90]"]] <- (probes[5] - probes[1]) * unit(K, 4)
 cl_aq <- match(aq$Month, unique(aq$Month))
 emit("airq_cont", boot_case(X * sw, aq$Ozone * sw, cl_aq, webb, hyps, joint = NULL))
+
+## ---------------------------------------------------------------------------
+## The linearity check of a continuous moderator (Hainmueller, Mummolo & Xu
+## 2019; METHODS.md section 5): the binned model is the linear one plus G_j,
+## G_j M, G_j T, G_j T M for thirds j = 2, 3 (cuts at the type-7 1/3 and 2/3
+## quantiles; third 2 is q1 < M <= q2), and the line is tested by the Wald
+## F of those 8 terms; here its restricted wild cluster bootstrap, with the
+## effects at the probes and the differences of the linear model.
+## ---------------------------------------------------------------------------
+cont_case <- function(case, y, Tr, M, C, cl, values) {
+  Xlin <- cbind(1, Tr, M, Tr * M, C)
+  K <- ncol(Xlin)
+  probes <- quantile(M, c(0.10, 0.25, 0.50, 0.75, 0.90), type = 7, names = FALSE)
+  hyps <- list()
+  for (i in seq_along(probes)) {
+    hyps[[sprintf("effect[p%d]", c(10, 25, 50, 75, 90)[i])]] <- unit(K, 2) + probes[i] * unit(K, 4)
+  }
+  hyps[["diff[unit]"]] <- unit(K, 4)
+  hyps[["diff[p10|p90]"]] <- (probes[5] - probes[1]) * unit(K, 4)
+  emit(case, boot_case(Xlin, y, cl, values, hyps, joint = NULL))
+  q <- quantile(M, c(1, 2) / 3, type = 7, names = FALSE)
+  G2 <- as.double(M > q[1] & M <= q[2]); G3 <- as.double(M > q[2])
+  Xext <- cbind(Xlin, G2, G3, G2 * M, G3 * M, G2 * Tr, G3 * Tr, G2 * Tr * M, G3 * Tr * M)
+  out <- boot_case(Xext, y, cl, values, list(), joint = K + 1:8, joint_name = "lin")
+  out$draws <- NULL
+  emit(case, out)
+}
+
+# schools10: the invented study of issue 19 (300 pupils, 10 schools, a
+# straight-line effect; drawn by schoolsCSV in internal/estimate), reading
+# on tutored x prior, CR1 by school. Rademacher weights (forced; the
+# engine's default for 10 clusters is Webb), 2^10 = 1024 draws.
+sc <- read.csv(file.path(script_dir, "schools10.csv"), stringsAsFactors = FALSE)
+cont_case("schools10", sc$reading, as.double(sc$tutored), sc$prior, NULL,
+          match(sc$school, unique(sc$school)), rademacher)
+
+# co2_lin: case D data, uptake on chilled x conc (continuous) + Type,
+# CR1 by Plant; Rademacher (forced), 2^12 = 4096 draws.
+cont_case("co2_lin", co2$uptake, tr, co2$conc, cbind(as.double(co2$Type == "Quebec")),
+          cl_co2, rademacher)
 
 con <- file(file.path(outdir, "bootstrap.txt"), open = "wb")
 writeLines(lines, con, sep = "\n")

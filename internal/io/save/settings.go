@@ -244,9 +244,16 @@ func keepSettings(tmp, wbPart string, orig []byte) error {
 	if !changed {
 		return nil
 	}
-	return replaceZipFile(tmp, zr, func(zw *zip.Writer) error {
+	return rewritePart(tmp, zr, &zr.Reader, wb, fixed)
+}
+
+// rewritePart rewrites the zip file at tmp, read as zr through src, with
+// the part's content replaced by body; every other part is copied
+// unchanged. src is closed before the rename (replaceZipFile).
+func rewritePart(tmp string, src io.Closer, zr *zip.Reader, part *zip.File, body []byte) error {
+	return replaceZipFile(tmp, src, func(zw *zip.Writer) error {
 		for _, f := range zr.File {
-			if f != wb {
+			if f != part {
 				if err := xlsx.CopyRaw(zw, f); err != nil {
 					return err
 				}
@@ -257,7 +264,7 @@ func keepSettings(tmp, wbPart string, orig []byte) error {
 			hdr.Method = zip.Deflate
 			w, err := zw.CreateHeader(&hdr)
 			if err == nil {
-				_, err = w.Write(fixed)
+				_, err = w.Write(body)
 			}
 			if err != nil {
 				return err
