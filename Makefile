@@ -97,18 +97,20 @@ attack:
 	$(GO) test ./internal/io/workbook -run '^TestAttack$$' -attack -v -timeout 30m
 
 # Fuzz the workbook and text readers briefly; a failing input is saved
-# under internal/io/workbook/testdata/fuzz. Each target runs a fixed number
+# under the target's package, in testdata/fuzz (internal/io/workbook for
+# the whole reading, internal/io/xlsx for the fast sheet reader,
+# internal/io/delimited for the text scanner). Each target runs a fixed number
 # of inputs (about 10-20 s on a quiet two-core machine), not a fixed time: a
 # duration budget makes Go 1.26's fuzz coordinator fail now and then with a
 # bare "context deadline exceeded" at the end of the window when the machine
 # is loaded (golang/go#75804, fixed in Go 1.27), with nothing found.
 # Shrinking a new input is bounded by count too (it was 5 s of wall clock
 # per input, which stalled the run on the 38 KB workbook seeds).
-WORKBOOK_FUZZ := FuzzReadText:600 FuzzReadWorkbook:5000 FuzzSniff:6000 FuzzFastSheet:3000 FuzzScanner:10000
+WORKBOOK_FUZZ := workbook:FuzzReadText:600 workbook:FuzzReadWorkbook:5000 workbook:FuzzSniff:6000 xlsx:FuzzFastSheet:3000 delimited:FuzzScanner:10000
 fuzz:
-	@for tn in $(WORKBOOK_FUZZ); do \
-	  t=$${tn%%:*}; n=$${tn##*:}; \
-	  $(GO) test ./internal/io/workbook -run '^$$' -fuzz "^$$t$$" -fuzztime "$${n}x" -fuzzminimizetime 200x || exit 1; \
+	@for ptn in $(WORKBOOK_FUZZ); do \
+	  p=$${ptn%%:*}; tn=$${ptn#*:}; t=$${tn%%:*}; n=$${tn##*:}; \
+	  $(GO) test ./internal/io/$$p -run '^$$' -fuzz "^$$t$$" -fuzztime "$${n}x" -fuzzminimizetime 200x || exit 1; \
 	done
 
 # The packages for evaluators, into dist/: the Windows programs (cross-

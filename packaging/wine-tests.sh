@@ -15,7 +15,10 @@ trap 'wineserver -k 2> /dev/null || true; rm -rf "$work"' EXIT
 export SLOPEWISE_UNDER_WINE=1
 # package|build tags|tests that must have passed on Windows (not skipped)
 suites=(
-  "internal/io/workbook||TestExchangeSwaps TestEditAtTheExchange TestWorkbookChangedMeanwhile TestBigSheetsKept TestInPlaceKeepsWorkbookSettings TestWriteBesideCSV TestWriteResultsRoundTrip TestRefusals"
+  "internal/io/save||TestExchangeSwaps TestEditAtTheExchange TestWorkbookChangedMeanwhile TestBigSheetsKept TestInPlaceKeepsWorkbookSettings TestWriteBesideCSV TestWriteResultsRoundTrip"
+  "internal/io/workbook||TestRefusals"
+  "internal/io/xlsx||"
+  "internal/io/delimited||"
   "internal/pipeline||TestInteropCorpus"
   "cmd/app|nowindow|"
 )

@@ -2,15 +2,6 @@
 
 package workbook
 
-// The attack suite: hostile and odd input files given to the built
-// command-line program, each in a child process watched for time and
-// memory. It runs only with -attack (make attack); a run takes several
-// minutes and writes inputs that inflate to gigabytes, streamed, never held
-// in memory. At the end it prints a Markdown table of what happened, also
-// written to the file named by SLOPEWISE_ATTACK_REPORT if that is set.
-//
-// Linux only: the watchdog reads /proc and kills a process group.
-
 import (
 	"archive/zip"
 	"bufio"
@@ -34,6 +25,15 @@ import (
 
 	"github.com/xuri/excelize/v2"
 )
+
+// The attack suite: hostile and odd input files given to the built
+// command-line program, each in a child process watched for time and
+// memory. It runs only with -attack (make attack); a run takes several
+// minutes and writes inputs that inflate to gigabytes, streamed, never held
+// in memory. At the end it prints a Markdown table of what happened, also
+// written to the file named by SLOPEWISE_ATTACK_REPORT if that is set.
+//
+// Linux only: the watchdog reads /proc and kills a process group.
 
 var attack = flag.Bool("attack", false, "run the attack suite: hostile input files against the built program (make attack; several minutes)")
 

@@ -1,135 +1,19 @@
 package workbook
 
 import (
-	"bufio"
 	"context"
-	"fmt"
-	"math/rand"
-	"os"
-	"path/filepath"
-	"strconv"
 	"testing"
 	"time"
 
-	"github.com/xuri/excelize/v2"
+	"slopewise/internal/io/iotest"
 )
-
-// The read benchmark's sheet: 1,000,000 rows of 12 columns, the size of a
-// large monitoring export. The files are made once and kept in the
-// temporary folder, so that a run under /usr/bin/time -v measures the
-// read alone:
-//
-//	go test -c -o /tmp/wb.test ./internal/io/workbook
-//	/tmp/wb.test -test.run '^$' -test.bench 'BenchmarkRead1M/csv' -test.benchtime 1x   # makes the files
-//	/usr/bin/time -v /tmp/wb.test -test.run '^$' -test.bench 'BenchmarkRead1M/xlsx' -test.benchtime 1x
-const (
-	benchRows = 1_000_000
-	benchCols = 12
-)
-
-var benchHeader = []string{"Person", "Arm", "Site", "Score", "Age", "Income", "Visit date", "Sessions", "Note", "X1", "X2", "X3"}
-
-// benchRow returns row i's values: numbers, a 0/1 arm, a category, a
-// date serial and a short text.
-func benchRow(rng *rand.Rand, i int) []any {
-	return []any{
-		i + 1, i % 2, []string{"North", "South", "East", "West", "Centre"}[rng.Intn(5)],
-		rng.NormFloat64()*10 + 50, 18 + rng.Intn(60), float64(rng.Intn(9_000_000)) / 100,
-		float64(44000 + rng.Intn(2000)), rng.Intn(12), "n" + strconv.Itoa(rng.Intn(1000)),
-		rng.Float64(), rng.NormFloat64(), rng.ExpFloat64(),
-	}
-}
-
-func benchFile(b *testing.B, ext string) string {
-	b.Helper()
-	path := filepath.Join(os.TempDir(), fmt.Sprintf("slopewise-bench-%dx%d.%s", benchRows, benchCols, ext))
-	if _, err := os.Stat(path); err == nil {
-		return path
-	}
-	rng := rand.New(rand.NewSource(1))
-	tmp := path + ".part." + ext
-	switch ext {
-	case "csv":
-		f, err := os.Create(tmp)
-		if err != nil {
-			b.Fatal(err)
-		}
-		w := bufio.NewWriterSize(f, 1<<20)
-		for j, h := range benchHeader {
-			if j > 0 {
-				w.WriteByte(',')
-			}
-			w.WriteString(h)
-		}
-		w.WriteByte('\n')
-		for i := 0; i < benchRows; i++ {
-			for j, v := range benchRow(rng, i) {
-				if j > 0 {
-					w.WriteByte(',')
-				}
-				switch v := v.(type) {
-				case float64:
-					if j == 6 {
-						w.WriteString(serialToTime(v).Format("2006-01-02"))
-					} else {
-						w.WriteString(strconv.FormatFloat(v, 'g', -1, 64))
-					}
-				default:
-					fmt.Fprint(w, v)
-				}
-			}
-			w.WriteByte('\n')
-		}
-		if err := w.Flush(); err != nil {
-			b.Fatal(err)
-		}
-		if err := f.Close(); err != nil {
-			b.Fatal(err)
-		}
-	case "xlsx":
-		f := excelize.NewFile()
-		sw, err := f.NewStreamWriter("Sheet1")
-		if err != nil {
-			b.Fatal(err)
-		}
-		date, err := f.NewStyle(&excelize.Style{NumFmt: 14})
-		if err != nil {
-			b.Fatal(err)
-		}
-		header := make([]any, len(benchHeader))
-		for j, h := range benchHeader {
-			header[j] = h
-		}
-		if err := sw.SetRow("A1", header); err != nil {
-			b.Fatal(err)
-		}
-		for i := 0; i < benchRows; i++ {
-			values := benchRow(rng, i)
-			values[6] = excelize.Cell{StyleID: date, Value: values[6]}
-			if err := sw.SetRow("A"+strconv.Itoa(i+2), values); err != nil {
-				b.Fatal(err)
-			}
-		}
-		if err := sw.Flush(); err != nil {
-			b.Fatal(err)
-		}
-		if err := f.SaveAs(tmp); err != nil {
-			b.Fatal(err)
-		}
-		f.Close()
-	}
-	if err := os.Rename(tmp, path); err != nil {
-		b.Fatal(err)
-	}
-	return path
-}
 
 // BenchmarkRead1M reads the 1,000,000 × 12 sheet as CSV and as a
 // workbook; rows/s is the figure to watch.
 func BenchmarkRead1M(b *testing.B) {
 	for _, ext := range []string{"csv", "xlsx"} {
 		b.Run(ext, func(b *testing.B) {
-			path := benchFile(b, ext)
+			path := iotest.BenchFile(b, ext)
 			b.ReportAllocs()
 			b.ResetTimer()
 			start := time.Now()
@@ -138,11 +22,11 @@ func BenchmarkRead1M(b *testing.B) {
 				if err != nil {
 					b.Fatal(err)
 				}
-				if tab.Len() != benchRows || len(tab.Columns) != benchCols {
+				if tab.Len() != iotest.BenchRows || len(tab.Columns) != iotest.BenchCols {
 					b.Fatalf("read %d rows, %d columns", tab.Len(), len(tab.Columns))
 				}
 			}
-			b.ReportMetric(float64(benchRows*b.N)/time.Since(start).Seconds(), "rows/s")
+			b.ReportMetric(float64(iotest.BenchRows*b.N)/time.Since(start).Seconds(), "rows/s")
 		})
 	}
 }

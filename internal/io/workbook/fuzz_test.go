@@ -8,6 +8,11 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"slopewise/internal/io/delimited"
+	"slopewise/internal/io/table"
+
+	"slopewise/internal/io/iotest"
 )
 
 // checkTable checks what must hold for any table the reader returns.
@@ -97,7 +102,7 @@ func FuzzReadText(f *testing.F) {
 		if tab == nil {
 			return
 		}
-		w, err := WriteResults(path, resultsGrid(t), WriteOptions{})
+		w, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 		if err != nil {
 			t.Fatalf("writing a table that reads: %v", err)
 		}
@@ -124,7 +129,7 @@ func pointOnlyColumns(path string, tab *Table) map[int]bool {
 	if tab.Text == nil || !tab.Text.DecimalComma {
 		return nil
 	}
-	src, err := openScanner(path, tab.Text)
+	src, err := delimited.OpenScanner(path, tab.Text)
 	if err != nil {
 		return nil
 	}
@@ -139,11 +144,11 @@ func pointOnlyColumns(path string, tab *Table) map[int]bool {
 			continue
 		}
 		for _, c := range cells {
-			s := trimSpace(c.Text)
-			if _, ok := parseNumber(s, true); ok {
+			s := table.TrimSpace(c.Text)
+			if _, ok := table.ParseNumber(s, true); ok {
 				continue
 			}
-			if _, ok := parseNumber(s, false); ok {
+			if _, ok := table.ParseNumber(s, false); ok {
 				cols[c.Col] = true
 			}
 		}
@@ -219,8 +224,8 @@ func compareTables(t *testing.T, a, b *Table, byNameOnly map[int]bool) {
 // ("1,5" in a decimal-comma file is 1.5 in the workbook).
 func sameNumber(a *Table, x, y string) bool {
 	dc := a.Text != nil && a.Text.DecimalComma
-	vx, okx := parseNumber(x, dc)
-	vy, oky := parseNumber(y, false)
+	vx, okx := table.ParseNumber(x, dc)
+	vy, oky := table.ParseNumber(y, false)
 	return okx && oky && vx == vy
 }
 
@@ -228,15 +233,15 @@ func sameNumber(a *Table, x, y string) bool {
 // otherwise valid workbook, with a shared string table and a date style.
 func FuzzReadWorkbook(f *testing.F) {
 	for _, s := range []string{
-		row(1, inl("A1", "id"), inl("B1", "when")) + row(2, num("A2", "1"), numS("B2", 1, "45000")),
-		row(1, sst("A1", 0), sst("B1", 1)) + row(2, errc("A2", "#N/A"), formulaNoValue("B2", "A2+1")),
-		row(3, boolc("C3", true), `<c r="D3" t="str"><f>X</f><v>text</v></c>`) + row(4, `<c t="d"><v>2024-02-29T12:00:00</v></c>`),
+		iotest.Row(1, iotest.Inl("A1", "id"), iotest.Inl("B1", "when")) + iotest.Row(2, iotest.Num("A2", "1"), iotest.NumS("B2", 1, "45000")),
+		iotest.Row(1, iotest.Sst("A1", 0), iotest.Sst("B1", 1)) + iotest.Row(2, iotest.Errc("A2", "#N/A"), iotest.FormulaNoValue("B2", "A2+1")),
+		iotest.Row(3, iotest.Boolc("C3", true), `<c r="D3" t="str"><f>X</f><v>text</v></c>`) + iotest.Row(4, `<c t="d"><v>2024-02-29T12:00:00</v></c>`),
 		`<row><c><v>1e308</v></c><c t="s"><v>99</v></c></row>`,
 		`<row r="2"><c r="XFD2" s="1"><v>-0</v></c></row><row r="1"><c r="A1"><is><r><t>a</t></r><r><t>b</t></r></is></c></row>`,
 		// The shapes of the hostile and foreign files (issues 11 and 12):
 		// empty values, formulas without results, shared and array
 		// formulas, rows and cells without r, a cell past its length.
-		row(1, inl("A1", "a"), inl("B1", "b")) + `<row><c><v></v></c><c><f>A2*2</f><v/></c></row><row><c t="str"><f>"x"</f><v></v></c><c><f t="shared" ref="B3:B4" si="0">A3+1</f></c></row><row><c><v>4</v></c><c><f t="shared" si="0"/></c></row>`,
+		iotest.Row(1, iotest.Inl("A1", "a"), iotest.Inl("B1", "b")) + `<row><c><v></v></c><c><f>A2*2</f><v/></c></row><row><c t="str"><f>"x"</f><v></v></c><c><f t="shared" ref="B3:B4" si="0">A3+1</f></c></row><row><c><v>4</v></c><c><f t="shared" si="0"/></c></row>`,
 		`<row>` + strings.Repeat(`<c><v>1</v></c>`, 300) + `</row>`,
 		strings.Repeat(`<row><c><v>1</v></c></row>`, 300),
 		`<row><c t="inlineStr"><is><t>` + strings.Repeat("x", 33000) + `</t></is></c></row>`,
@@ -245,12 +250,12 @@ func FuzzReadWorkbook(f *testing.F) {
 		f.Add([]byte(s))
 	}
 	f.Fuzz(func(t *testing.T, data []byte) {
-		b := &rawBook{
-			shared: []string{"name", "score"},
-			xfs:    []int{14},
-			sheets: []rawSheet{{name: "S", rows: []string{string(data)}}},
+		b := &iotest.RawBook{
+			Shared: []string{"name", "score"},
+			Xfs:    []int{14},
+			Sheets: []iotest.RawSheet{{Name: "S", Rows: []string{string(data)}}},
 		}
-		path := b.write(t, t.TempDir(), "in.xlsx")
+		path := b.Write(t, t.TempDir(), "in.xlsx")
 		readChecked(t, path)
 	})
 }
@@ -258,10 +263,10 @@ func FuzzReadWorkbook(f *testing.F) {
 // FuzzSniff reads arbitrary bytes as a file named .xlsx: the format
 // checks (zip, OLE compound file) and excelize must refuse, not panic.
 func FuzzSniff(f *testing.F) {
-	f.Add(oleFile("Workbook"))
-	f.Add(oleFile("EncryptionInfo", "EncryptedPackage"))
-	f.Add(zipOf(f, "mimetype", "application/vnd.oasis.opendocument.spreadsheet"))
-	f.Add(simpleBook().bytes(f))
+	f.Add(iotest.OleFile("Workbook"))
+	f.Add(iotest.OleFile("EncryptionInfo", "EncryptedPackage"))
+	f.Add(iotest.ZipOf(f, "mimetype", "application/vnd.oasis.opendocument.spreadsheet"))
+	f.Add(iotest.SimpleBook().Bytes(f))
 	f.Fuzz(func(t *testing.T, data []byte) {
 		path := filepath.Join(t.TempDir(), "in.xlsx")
 		if err := os.WriteFile(path, data, 0o644); err != nil {

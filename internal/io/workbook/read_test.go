@@ -8,51 +8,15 @@ import (
 	"strings"
 	"testing"
 	"time"
+
+	"slopewise/internal/io/table"
+	"slopewise/internal/io/xlsx"
+
+	"slopewise/internal/io/iotest"
 )
 
-// visitsBook is a messy evaluator's sheet: a title in row 1, the header in
-// row 3, numbers stored as text, hand-typed markers, error values and a
-// formula that was never calculated.
-func visitsBook() *rawBook {
-	b := &rawBook{
-		shared:  []string{"Site", "treated", "control", "North", "South", "East"},
-		numFmts: map[int]string{164: `yyyy\-mm\-dd`},
-		xfs:     []int{164, 4}, // style 1: a custom date format; style 2: "#,##0.00"
-	}
-	rows := []string{
-		row(1, inl("A1", "Home visits, spring round")),
-		row(3, inl("A3", "ID"), inl("B3", "Arm"), sst("C3", 0), inl("D3", "Score"), inl("E3", ""), inl("F3", "Visit date"), inl("G3", "Score"), inl("H3", "Flag")),
-	}
-	sites := []int{3, 4, 5}
-	for i := 0; i < 12; i++ {
-		r := 4 + i
-		ref := func(col string) string { return fmt.Sprintf("%s%d", col, r) }
-		arm := sst(ref("B"), 1+i%2)
-		score := numS(ref("D"), 2, fmt.Sprintf("%.7f", 10+float64(i)*0.1234567))
-		switch i {
-		case 2:
-			score = inl(ref("D"), "N/A")
-		case 3:
-			score = errc(ref("D"), "#DIV/0!")
-		case 4:
-			score = inl(ref("D"), " 12.5 ") // a number stored as text
-		case 5:
-			score = inl(ref("D"), "pending")
-		case 6:
-			score = formulaNoValue(ref("D"), "INDIRECT(\"A6\")*2")
-		case 7:
-			score = ""
-		}
-		cells := []string{num(ref("A"), fmt.Sprint(100+i)), arm, sst(ref("C"), sites[i%3]), score, errc(ref("E"), "#N/A"),
-			numS(ref("F"), 1, fmt.Sprint(45000+i)), num(ref("G"), fmt.Sprint(i%4)), boolc(ref("H"), i%3 == 0)}
-		rows = append(rows, row(r, cells...))
-	}
-	b.sheets = []rawSheet{{name: "Visits", rows: rows}}
-	return b
-}
-
 func TestReadMessySheet(t *testing.T) {
-	path := visitsBook().write(t, t.TempDir(), "visits.xlsx")
+	path := iotest.VisitsBook().Write(t, t.TempDir(), "visits.xlsx")
 	tab, err := Read(context.Background(), path, Options{})
 	if err != nil {
 		t.Fatal(err)
@@ -120,7 +84,7 @@ func TestReadMessySheet(t *testing.T) {
 	if !ok || !d.Equal(time.Date(2023, 3, 15, 0, 0, 0, 0, time.UTC)) {
 		t.Errorf("date %v", d)
 	}
-	notes := noteTexts(tab)
+	notes := iotest.NoteTexts(tab)
 	for _, want := range []string{
 		`another column is already named "Score", so this one is called "Score (2)"`,
 		`cell E3, column "Column E": the header cell is blank`,
@@ -139,23 +103,14 @@ func TestReadMessySheet(t *testing.T) {
 	}
 }
 
-func noteTexts(t *Table) string {
-	var b strings.Builder
-	for _, n := range t.Notes {
-		b.WriteString(n.String())
-		b.WriteString("\n")
-	}
-	return b.String()
-}
-
 func TestReadDate1904(t *testing.T) {
-	b := &rawBook{date1904: true, xfs: []int{14}}
-	rows := []string{row(1, inl("A1", "When"), inl("B1", "n"))}
+	b := &iotest.RawBook{Date1904: true, Xfs: []int{14}}
+	rows := []string{iotest.Row(1, iotest.Inl("A1", "When"), iotest.Inl("B1", "n"))}
 	for i := 0; i < 5; i++ {
-		rows = append(rows, row(i+2, numS(fmt.Sprintf("A%d", i+2), 1, "0"), num(fmt.Sprintf("B%d", i+2), fmt.Sprint(i))))
+		rows = append(rows, iotest.Row(i+2, iotest.NumS(fmt.Sprintf("A%d", i+2), 1, "0"), iotest.Num(fmt.Sprintf("B%d", i+2), fmt.Sprint(i))))
 	}
-	b.sheets = []rawSheet{{name: "S", rows: rows}}
-	tab, err := Read(context.Background(), b.write(t, t.TempDir(), "d.xlsx"), Options{})
+	b.Sheets = []iotest.RawSheet{{Name: "S", Rows: rows}}
+	tab, err := Read(context.Background(), b.Write(t, t.TempDir(), "d.xlsx"), Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -168,7 +123,7 @@ func TestReadDate1904(t *testing.T) {
 }
 
 func TestHeaderOverride(t *testing.T) {
-	path := visitsBook().write(t, t.TempDir(), "v.xlsx")
+	path := iotest.VisitsBook().Write(t, t.TempDir(), "v.xlsx")
 	tab, err := Read(context.Background(), path, Options{HeaderRow: 4})
 	if err != nil {
 		t.Fatal(err)
@@ -190,10 +145,10 @@ func TestHeaderOverride(t *testing.T) {
 }
 
 func TestReadOtherSheetAndSheets(t *testing.T) {
-	b := visitsBook()
-	b.sheets = append([]rawSheet{{name: "Chart", chart: true}}, b.sheets...)
-	b.sheets = append(b.sheets, rawSheet{name: "Small", rows: []string{row(1, inl("A1", "x"), inl("B1", "y")), row(2, num("A2", "1"), num("B2", "2")), row(3, num("A3", "3"), num("B3", "5"))}})
-	path := b.write(t, t.TempDir(), "multi.xlsx")
+	b := iotest.VisitsBook()
+	b.Sheets = append([]iotest.RawSheet{{Name: "Chart", Chart: true}}, b.Sheets...)
+	b.Sheets = append(b.Sheets, iotest.RawSheet{Name: "Small", Rows: []string{iotest.Row(1, iotest.Inl("A1", "x"), iotest.Inl("B1", "y")), iotest.Row(2, iotest.Num("A2", "1"), iotest.Num("B2", "2")), iotest.Row(3, iotest.Num("A3", "3"), iotest.Num("B3", "5"))}})
+	path := b.Write(t, t.TempDir(), "multi.xlsx")
 	sheets, err := Sheets(path)
 	if err != nil {
 		t.Fatal(err)
@@ -246,7 +201,7 @@ func TestParseNumber(t *testing.T) {
 		{"1234,567.8", false, 0, false},
 	}
 	for _, c := range cases {
-		got, ok := parseNumber(c.in, c.comma)
+		got, ok := table.ParseNumber(c.in, c.comma)
 		if ok != c.ok || ok && got != c.want {
 			t.Errorf("parseNumber(%q, %v) = %v, %v; want %v, %v", c.in, c.comma, got, ok, c.want, c.ok)
 		}
@@ -267,7 +222,7 @@ func TestIsDateFormat(t *testing.T) {
 		`0.00E+00`:           false,
 		`[$-409]mmm yy`:      true,
 	} {
-		if got := isDateFormat(code); got != want {
+		if got := xlsx.IsDateFormat(code); got != want {
 			t.Errorf("isDateFormat(%q) = %v", code, got)
 		}
 	}
@@ -275,10 +230,10 @@ func TestIsDateFormat(t *testing.T) {
 
 func TestColumnLetter(t *testing.T) {
 	for i, want := range map[int]string{0: "A", 25: "Z", 26: "AA", 701: "ZZ", 702: "AAA", 16383: "XFD"} {
-		if got := columnLetter(i); got != want {
+		if got := table.ColumnLetter(i); got != want {
 			t.Errorf("columnLetter(%d) = %q, want %q", i, got, want)
 		}
-		if got, _ := refColumn(want + "12"); got != i {
+		if got, _ := xlsx.RefColumn(want + "12"); got != i {
 			t.Errorf("refColumn(%q) = %d", want+"12", got)
 		}
 	}
@@ -293,39 +248,39 @@ func TestSerialDates(t *testing.T) {
 		45000.5:  time.Date(2023, 3, 15, 12, 0, 0, 0, time.UTC),
 		36526.25: time.Date(2000, 1, 1, 6, 0, 0, 0, time.UTC),
 	} {
-		if got := serialToTime(serial); !got.Equal(want) {
+		if got := table.SerialToTime(serial); !got.Equal(want) {
 			t.Errorf("serial %v = %v, want %v", serial, got, want)
 		}
 	}
-	if got := timeToSerial(time.Date(2023, 3, 15, 12, 0, 0, 0, time.UTC)); got != 45000.5 {
+	if got := table.TimeToSerial(time.Date(2023, 3, 15, 12, 0, 0, 0, time.UTC)); got != 45000.5 {
 		t.Errorf("timeToSerial = %v", got)
 	}
 }
 
 func TestDetectHeader(t *testing.T) {
-	textRow := func(n int, vals ...string) bufRow {
-		var cells []rawCell
+	textRow := func(n int, vals ...string) table.BufRow {
+		var cells []table.RawCell
 		for i, v := range vals {
 			if v != "" {
-				cells = append(cells, rawCell{Col: i, Type: cellText, Text: v})
+				cells = append(cells, table.RawCell{Col: i, Type: table.CellText, Text: v})
 			}
 		}
-		return bufRow{num: n, cells: cells}
+		return table.BufRow{Num: n, Cells: cells}
 	}
 	cases := []struct {
 		name string
-		rows []bufRow
+		rows []table.BufRow
 		want int // index of the header row, -1 for none
 	}{
-		{"names above numbers", []bufRow{textRow(1, "id", "score"), textRow(2, "1", "2"), textRow(3, "3", "4")}, 0},
-		{"title, blank line, header", []bufRow{textRow(1, "Spring visits"), textRow(3, "id", "site", "score"), textRow(4, "1", "North", "2"), textRow(5, "2", "South", "5")}, 1},
-		{"numbers only", []bufRow{textRow(1, "1", "2"), textRow(2, "3", "4")}, -1},
-		{"text table", []bufRow{textRow(1, "name", "town"), textRow(2, "Ann", "Oslo"), textRow(3, "Bo", "Lund")}, 0},
-		{"data rows with text and numbers", []bufRow{textRow(1, "Ann", "Oslo", "3"), textRow(2, "Bo", "Lund", "4")}, -1},
-		{"header only", []bufRow{textRow(2, "id", "score")}, 0},
+		{"names above numbers", []table.BufRow{textRow(1, "id", "score"), textRow(2, "1", "2"), textRow(3, "3", "4")}, 0},
+		{"title, blank line, header", []table.BufRow{textRow(1, "Spring visits"), textRow(3, "id", "site", "score"), textRow(4, "1", "North", "2"), textRow(5, "2", "South", "5")}, 1},
+		{"numbers only", []table.BufRow{textRow(1, "1", "2"), textRow(2, "3", "4")}, -1},
+		{"text table", []table.BufRow{textRow(1, "name", "town"), textRow(2, "Ann", "Oslo"), textRow(3, "Bo", "Lund")}, 0},
+		{"data rows with text and numbers", []table.BufRow{textRow(1, "Ann", "Oslo", "3"), textRow(2, "Bo", "Lund", "4")}, -1},
+		{"header only", []table.BufRow{textRow(2, "id", "score")}, 0},
 	}
 	for _, c := range cases {
-		if got := detectHeader(c.rows); got != c.want {
+		if got := table.DetectHeader(c.rows); got != c.want {
 			t.Errorf("%s: header at %d, want %d", c.name, got, c.want)
 		}
 	}
@@ -337,7 +292,7 @@ func TestReadCancelledAndProgress(t *testing.T) {
 	for i := 0; i < 10000; i++ {
 		fmt.Fprintf(&b, "%d,%d\n", i, i%7)
 	}
-	path := writeFile(t, t.TempDir(), "long.csv", []byte(b.String()))
+	path := iotest.WriteFile(t, t.TempDir(), "long.csv", []byte(b.String()))
 	var seen []int
 	tab, err := Read(context.Background(), path, Options{Progress: func(n int) { seen = append(seen, n) }})
 	if err != nil || tab.Len() != 10000 {

@@ -1,8 +1,6 @@
 package workbook
 
 import (
-	"archive/zip"
-	"bytes"
 	"context"
 	"errors"
 	"fmt"
@@ -10,42 +8,9 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"slopewise/internal/io/iotest"
 )
-
-// simpleBook is a small valid workbook with one data sheet.
-func simpleBook() *rawBook {
-	return &rawBook{sheets: []rawSheet{{name: "Data", rows: []string{
-		row(1, inl("A1", "id"), inl("B1", "score")),
-		row(2, num("A2", "1"), num("B2", "2.5")),
-		row(3, num("A3", "2"), num("B3", "3.5")),
-	}}}}
-}
-
-// zipOf builds a zip archive from name → content pairs.
-func zipOf(t testing.TB, parts ...string) []byte {
-	t.Helper()
-	var buf bytes.Buffer
-	zw := zip.NewWriter(&buf)
-	for i := 0; i+1 < len(parts); i += 2 {
-		w, err := zw.Create(parts[i])
-		if err != nil {
-			t.Fatal(err)
-		}
-		w.Write([]byte(parts[i+1]))
-	}
-	if err := zw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return buf.Bytes()
-}
-
-// withWorkbookXML returns a simple workbook whose workbook.xml gets extra
-// XML before <sheets>.
-func withWorkbookXML(extra string) *rawBook {
-	b := simpleBook()
-	b.wbExtra = extra
-	return b
-}
 
 // refusal is one bad input: how to make it, what to do with it, and the
 // whole message expected, with {path} standing for the quoted file name.
@@ -67,39 +32,39 @@ func msg(cause error, detail string) string {
 }
 
 func fileMaker(name string, content func(t *testing.T) []byte) func(*testing.T, string) string {
-	return func(t *testing.T, dir string) string { return writeFile(t, dir, name, content(t)) }
+	return func(t *testing.T, dir string) string { return iotest.WriteFile(t, dir, name, content(t)) }
 }
 
 func bytesOf(s string) func(*testing.T) []byte { return func(*testing.T) []byte { return []byte(s) } }
 
-func bookMaker(name string, b func() *rawBook) func(*testing.T, string) string {
-	return func(t *testing.T, dir string) string { return b().write(t, dir, name) }
+func bookMaker(name string, b func() *iotest.RawBook) func(*testing.T, string) string {
+	return func(t *testing.T, dir string) string { return b().Write(t, dir, name) }
 }
 
 var refusals = []refusal{
-	{name: "old binary workbook", make: fileMaker("old.xls", func(*testing.T) []byte { return oleFile("Workbook") }),
+	{name: "old binary workbook", make: fileMaker("old.xls", func(*testing.T) []byte { return iotest.OleFile("Workbook") }),
 		cause: ErrOldExcel, want: msg(ErrOldExcel, "")},
-	{name: "password-protected workbook", make: fileMaker("secret.xlsx", func(*testing.T) []byte { return oleFile("EncryptionInfo", "EncryptedPackage") }),
+	{name: "password-protected workbook", make: fileMaker("secret.xlsx", func(*testing.T) []byte { return iotest.OleFile("EncryptionInfo", "EncryptedPackage") }),
 		cause: ErrEncrypted, want: msg(ErrEncrypted, "")},
-	{name: "OLE file that is no workbook", make: fileMaker("memo.xlsx", func(*testing.T) []byte { return oleFile("WordDocument") }),
+	{name: "OLE file that is no workbook", make: fileMaker("memo.xlsx", func(*testing.T) []byte { return iotest.OleFile("WordDocument") }),
 		cause: ErrUnknownFormat, want: msg(ErrUnknownFormat, "an OLE container holding neither a workbook nor an encrypted package, such as a Word document")},
 	{name: "OpenDocument spreadsheet", make: fileMaker("calc.ods", func(t *testing.T) []byte {
-		return zipOf(t, "mimetype", "application/vnd.oasis.opendocument.spreadsheet", "content.xml", "<office:document-content/>")
+		return iotest.ZipOf(t, "mimetype", "application/vnd.oasis.opendocument.spreadsheet", "content.xml", "<office:document-content/>")
 	}), cause: ErrOpenDocument, want: msg(ErrOpenDocument, "")},
 	{name: "Apple Numbers file", make: fileMaker("budget.numbers", func(t *testing.T) []byte {
-		return zipOf(t, "Index/Document.iwa", "\x00\x01", "Metadata/Properties.plist", "x")
+		return iotest.ZipOf(t, "Index/Document.iwa", "\x00\x01", "Metadata/Properties.plist", "x")
 	}), cause: ErrNumbers, want: msg(ErrNumbers, "")},
 	{name: "binary workbook", make: fileMaker("fast.xlsb", func(t *testing.T) []byte {
-		return zipOf(t, "[Content_Types].xml", "<Types/>", "xl/workbook.bin", "\x83\x01")
+		return iotest.ZipOf(t, "[Content_Types].xml", "<Types/>", "xl/workbook.bin", "\x83\x01")
 	}), cause: ErrBinaryWorkbook, want: msg(ErrBinaryWorkbook, "")},
-	{name: "zip archive of photos", make: fileMaker("photos.xlsx", func(t *testing.T) []byte { return zipOf(t, "a.jpg", "jpeg") }),
+	{name: "zip archive of photos", make: fileMaker("photos.xlsx", func(t *testing.T) []byte { return iotest.ZipOf(t, "a.jpg", "jpeg") }),
 		cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "")},
 	{name: "Word document named as a workbook", make: fileMaker("report.xlsx", func(t *testing.T) []byte {
-		return zipOf(t, "[Content_Types].xml", "<Types/>", "word/document.xml", "<w:document/>")
+		return iotest.ZipOf(t, "[Content_Types].xml", "<Types/>", "word/document.xml", "<w:document/>")
 	}), cause: ErrNotWorkbook, want: msg(ErrNotWorkbook, "it is a Word document")},
 	{name: "truncated workbook", make: func(t *testing.T, dir string) string {
-		b := simpleBook().bytes(t)
-		return writeFile(t, dir, "cut.xlsx", b[:len(b)/2])
+		b := iotest.SimpleBook().Bytes(t)
+		return iotest.WriteFile(t, dir, "cut.xlsx", b[:len(b)/2])
 	}, cause: ErrDamaged, want: msg(ErrDamaged, "")},
 	{name: "text file named as a workbook", make: fileMaker("fake.xlsx", bytesOf("id,score\n1,2\n")),
 		cause: ErrDamaged, want: msg(ErrDamaged, "it does not start like a workbook")},
@@ -107,11 +72,11 @@ var refusals = []refusal{
 		cause: ErrEmptyFile, want: msg(ErrEmptyFile, "")},
 	{name: "text file of blank lines", make: fileMaker("blank.csv", bytesOf("\n\n  \n")),
 		cause: ErrEmptyFile, want: msg(ErrEmptyFile, "it holds no text")},
-	{name: "sheet with no cells", make: bookMaker("nothing.xlsx", func() *rawBook {
-		return &rawBook{sheets: []rawSheet{{name: "Empty"}}}
+	{name: "sheet with no cells", make: bookMaker("nothing.xlsx", func() *iotest.RawBook {
+		return &iotest.RawBook{Sheets: []iotest.RawSheet{{Name: "Empty"}}}
 	}), cause: ErrEmptySheet, want: `{path}, sheet "Empty": ` + ErrEmptySheet.Error()},
-	{name: "header-only sheet", make: bookMaker("header.xlsx", func() *rawBook {
-		return &rawBook{sheets: []rawSheet{{name: "Plan", rows: []string{row(2, inl("A2", "id"), inl("B2", "score"))}}}}
+	{name: "header-only sheet", make: bookMaker("header.xlsx", func() *iotest.RawBook {
+		return &iotest.RawBook{Sheets: []iotest.RawSheet{{Name: "Plan", Rows: []string{iotest.Row(2, iotest.Inl("A2", "id"), iotest.Inl("B2", "score"))}}}}
 	}), cause: ErrNoDataRows, want: `{path}, sheet "Plan": ` + ErrNoDataRows.Error() + " (the header is row 2)"},
 	{name: "header-only text file", make: fileMaker("header.csv", bytesOf("id,score,group\n")),
 		cause: ErrNoDataRows, want: msg(ErrNoDataRows, "the header is row 1")},
@@ -132,86 +97,86 @@ var refusals = []refusal{
 		cause: ErrNotText, want: msg(ErrNotText, "it contains a zero byte at line 1")},
 	{name: "unclosed quote", make: fileMaker("quote.csv", bytesOf("id,note\n1,\"open\n2,fine\n")),
 		cause: ErrBadQuote, want: `{path}, line 2: ` + ErrBadQuote.Error()},
-	{name: "sheet that does not exist", make: bookMaker("a.xlsx", simpleBook), opts: Options{Sheet: "Visits"},
+	{name: "sheet that does not exist", make: bookMaker("a.xlsx", iotest.SimpleBook), opts: Options{Sheet: "Visits"},
 		cause: ErrSheetNotFound, want: `{path}, sheet "Visits": ` + ErrSheetNotFound.Error() + ` (the sheets are "Data")`},
-	{name: "chart sheet", make: bookMaker("chart.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.sheets = append(b.sheets, rawSheet{name: "Plot", chart: true})
+	{name: "chart sheet", make: bookMaker("chart.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Sheets = append(b.Sheets, iotest.RawSheet{Name: "Plot", Chart: true})
 		return b
 	}), opts: Options{Sheet: "Plot"}, cause: ErrNotWorksheet, want: `{path}, sheet "Plot": ` + ErrNotWorksheet.Error()},
-	{name: "workbook past the size limit", make: bookMaker("big.xlsx", simpleBook), opts: Options{UnzipSizeLimit: 1000},
+	{name: "workbook past the size limit", make: bookMaker("big.xlsx", iotest.SimpleBook), opts: Options{UnzipSizeLimit: 1000},
 		cause: ErrTooLarge, want: msg(ErrTooLarge, "the limit is 1000 bytes")},
 	{name: "file of unknown kind", make: fileMaker("blob.bin", bytesOf("\x7fELF\x02\x01\x01\x00")),
 		cause: ErrUnknownFormat, want: msg(ErrUnknownFormat, "")},
-	{name: "broken sheet XML", make: bookMaker("broken.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.sheets[0].rows = append(b.sheets[0].rows, `<row r="4"><c r="A4"><v>1</v></row>`)
+	{name: "broken sheet XML", make: bookMaker("broken.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Sheets[0].Rows = append(b.Sheets[0].Rows, `<row r="4"><c r="A4"><v>1</v></row>`)
 		return b
 	}), cause: ErrDamaged, want: `{path}, sheet "Data", row 4: ` + ErrDamaged.Error()},
-	{name: "shared text index out of range", make: bookMaker("sst.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.sheets[0].rows = append(b.sheets[0].rows, row(4, sst("A4", 7)))
+	{name: "shared text index out of range", make: bookMaker("sst.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Sheets[0].Rows = append(b.Sheets[0].Rows, iotest.Row(4, iotest.Sst("A4", 7)))
 		return b
 	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell A4: ` + ErrUnusual.Error() + ` (the cell names shared text number "7", but the workbook's table of shared text has 0 entries)`},
-	{name: "a number cell holding text", make: bookMaker("nan.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.sheets[0].rows = append(b.sheets[0].rows, row(4, num("B4", "twelve")))
+	{name: "a number cell holding text", make: bookMaker("nan.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Sheets[0].Rows = append(b.Sheets[0].Rows, iotest.Row(4, iotest.Num("B4", "twelve")))
 		return b
 	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell B4: ` + ErrUnusual.Error() + ` (the cell is stored as a number but holds "twelve")`},
-	{name: "a cell type no workbook uses", make: bookMaker("type.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.sheets[0].rows = append(b.sheets[0].rows, row(4, `<c r="B4" t="money"><v>1</v></c>`))
+	{name: "a cell type no workbook uses", make: bookMaker("type.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Sheets[0].Rows = append(b.Sheets[0].Rows, iotest.Row(4, `<c r="B4" t="money"><v>1</v></c>`))
 		return b
 	}), cause: ErrUnusual, want: `{path}, sheet "Data", cell B4: ` + ErrUnusual.Error() + ` (the cell has the type "money", which is none of the types a workbook may use)`},
-	{name: "header row below the data", make: bookMaker("a.xlsx", simpleBook), opts: Options{HeaderRow: 9},
+	{name: "header row below the data", make: bookMaker("a.xlsx", iotest.SimpleBook), opts: Options{HeaderRow: 9},
 		cause: ErrHeaderOutside, want: `{path}, sheet "Data": ` + ErrHeaderOutside.Error() + " (row 9 was asked for; the last row with values is row 3)"},
 
 	// Writing.
 	{name: "workbook open in Excel", write: true, make: func(t *testing.T, dir string) string {
-		writeFile(t, dir, "~$book.xlsx", []byte("owner"))
-		return simpleBook().write(t, dir, "book.xlsx")
+		iotest.WriteFile(t, dir, "~$book.xlsx", []byte("owner"))
+		return iotest.SimpleBook().Write(t, dir, "book.xlsx")
 	}, cause: ErrOpenElsewhere, want: msg(ErrOpenElsewhere, "a lock file is beside it: ~$book.xlsx")},
 	{name: "workbook open in LibreOffice", write: true, make: func(t *testing.T, dir string) string {
-		writeFile(t, dir, ".~lock.book.xlsx#", []byte("owner"))
-		return simpleBook().write(t, dir, "book.xlsx")
+		iotest.WriteFile(t, dir, ".~lock.book.xlsx#", []byte("owner"))
+		return iotest.SimpleBook().Write(t, dir, "book.xlsx")
 	}, cause: ErrOpenElsewhere, want: msg(ErrOpenElsewhere, "a lock file is beside it: .~lock.book.xlsx#")},
-	{name: "read-only recommended", write: true, make: bookMaker("shared.xlsx", func() *rawBook {
-		return withWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`)
+	{name: "read-only recommended", write: true, make: bookMaker("shared.xlsx", func() *iotest.RawBook {
+		return iotest.WithWorkbookXML(`<fileSharing readOnlyRecommended="1"/>`)
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses a read-only recommendation or a password to modify")},
-	{name: "structure password", write: true, make: bookMaker("locked.xlsx", func() *rawBook {
-		return withWorkbookXML(`<workbookProtection workbookPassword="CC3D" lockStructure="1"/>`)
+	{name: "structure password", write: true, make: bookMaker("locked.xlsx", func() *iotest.RawBook {
+		return iotest.WithWorkbookXML(`<workbookProtection workbookPassword="CC3D" lockStructure="1"/>`)
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses the password that protects the workbook's structure")},
-	{name: "Excel 4.0 macro names", write: true, make: bookMaker("xlm.xlsx", func() *rawBook {
-		return withWorkbookXML(`<definedName name="Auto_Open" xlm="1">Macro1!$A$1</definedName>`)
+	{name: "Excel 4.0 macro names", write: true, make: bookMaker("xlm.xlsx", func() *iotest.RawBook {
+		return iotest.WithWorkbookXML(`<definedName name="Auto_Open" xlm="1">Macro1!$A$1</definedName>`)
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses Excel 4.0 macro names")},
 	{name: "extended conditional format styles", write: true, make: func(t *testing.T, dir string) string {
-		b := simpleBook().bytes(t)
-		b = replacePart(t, b, "xl/styles.xml", func(s string) string {
+		b := iotest.SimpleBook().Bytes(t)
+		b = iotest.ReplacePart(t, b, "xl/styles.xml", func(s string) string {
 			return strings.Replace(s, "</styleSheet>", `<dxfs count="1"><dxf><font><b/></font><extLst><ext uri="{x}"/></extLst></dxf></dxfs></styleSheet>`, 1)
 		})
-		return writeFile(t, dir, "dxf.xlsx", b)
+		return iotest.WriteFile(t, dir, "dxf.xlsx", b)
 	}, cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses extended formatting in conditional formats")},
-	{name: "embedded object area", write: true, make: bookMaker("ole.xlsx", func() *rawBook {
-		return withWorkbookXML(`<oleSize ref="A1:D10"/>`)
+	{name: "embedded object area", write: true, make: bookMaker("ole.xlsx", func() *iotest.RawBook {
+		return iotest.WithWorkbookXML(`<oleSize ref="A1:D10"/>`)
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses the display area of the embedded object")},
-	{name: "digitally signed", write: true, make: bookMaker("signed.xlsx", func() *rawBook {
-		b := simpleBook()
-		b.extra = map[string]string{"_xmlsignatures/sig1.xml": "<Signature/>"}
+	{name: "digitally signed", write: true, make: bookMaker("signed.xlsx", func() *iotest.RawBook {
+		b := iotest.SimpleBook()
+		b.Extra = map[string]string{"_xmlsignatures/sig1.xml": "<Signature/>"}
 		return b
 	}), cause: ErrWouldLose, want: msg(ErrWouldLose, "it uses a digital signature (it would no longer be valid)")},
-	{name: "Strict Open XML, even as a copy", write: true, copy: true, make: bookMaker("strict.xlsx", func() *rawBook {
-		return withWorkbookXML(`<fileVersion xmlns:s="http://purl.oclc.org/ooxml/spreadsheetml/main"/>`)
+	{name: "Strict Open XML, even as a copy", write: true, copy: true, make: bookMaker("strict.xlsx", func() *iotest.RawBook {
+		return iotest.WithWorkbookXML(`<fileVersion xmlns:s="http://purl.oclc.org/ooxml/spreadsheetml/main"/>`)
 	}), cause: ErrCannotRewrite, want: msg(ErrCannotRewrite, "it uses the Strict Open XML format")},
 	{name: "new sheet's part already used", write: true, make: func(t *testing.T, dir string) string {
-		return writeFile(t, dir, "odd.xlsx", sheetPartMoved(t, simpleBook().bytes(t)))
+		return iotest.WriteFile(t, dir, "odd.xlsx", iotest.SheetPartMoved(t, iotest.SimpleBook().Bytes(t)))
 	}, cause: ErrSheetPartTaken, want: msg(ErrSheetPartTaken, "the part xl/worksheets/sheet2.xml is already used")},
-	{name: "copy onto the original", write: true, copy: true, make: bookMaker("same.xlsx", simpleBook),
+	{name: "copy onto the original", write: true, copy: true, make: bookMaker("same.xlsx", iotest.SimpleBook),
 		cause: ErrSameFile, want: msg(ErrSameFile, "")},
-	{name: "writing into an old workbook", write: true, make: fileMaker("old.xls", func(*testing.T) []byte { return oleFile("Workbook") }),
+	{name: "writing into an old workbook", write: true, make: fileMaker("old.xls", func(*testing.T) []byte { return iotest.OleFile("Workbook") }),
 		cause: ErrOldExcel, want: msg(ErrOldExcel, "")},
 	{name: "results file beside a CSV exists", write: true, make: func(t *testing.T, dir string) string {
-		writeFile(t, dir, "survey results.xlsx", simpleBook().bytes(t))
-		return writeFile(t, dir, "survey.csv", []byte("a,b\n1,2\n"))
+		iotest.WriteFile(t, dir, "survey results.xlsx", iotest.SimpleBook().Bytes(t))
+		return iotest.WriteFile(t, dir, "survey.csv", []byte("a,b\n1,2\n"))
 	}, cause: ErrTargetExists, want: `{dir:survey results.xlsx}: ` + ErrTargetExists.Error()},
 }
 
@@ -223,7 +188,7 @@ func TestRefusals(t *testing.T) {
 		t.Run(c.name, func(t *testing.T) {
 			dir := t.TempDir()
 			path := c.make(t, dir)
-			before := hashIfFile(path)
+			before := iotest.HashIfFile(path)
 			var err error
 			func() {
 				defer func() {
@@ -233,11 +198,11 @@ func TestRefusals(t *testing.T) {
 				}()
 				switch {
 				case c.write && c.copy && strings.Contains(c.name, "original"):
-					_, err = WriteResults(path, resultsGrid(t), WriteOptions{CopyTo: path})
+					_, err = WriteResults(path, iotest.ResultsGrid(t), WriteOptions{CopyTo: path})
 				case c.write && c.copy:
-					_, err = WriteResults(path, resultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
+					_, err = WriteResults(path, iotest.ResultsGrid(t), WriteOptions{CopyTo: filepath.Join(dir, "copy.xlsx")})
 				case c.write:
-					_, err = WriteResults(path, resultsGrid(t), WriteOptions{})
+					_, err = WriteResults(path, iotest.ResultsGrid(t), WriteOptions{})
 				default:
 					_, err = Read(context.Background(), path, c.opts)
 				}
@@ -254,7 +219,7 @@ func TestRefusals(t *testing.T) {
 			if err.Error() != want {
 				t.Errorf("message\n got: %s\nwant: %s", err, want)
 			}
-			if after := hashIfFile(path); after != before {
+			if after := iotest.HashIfFile(path); after != before {
 				t.Error("the file's bytes changed")
 			}
 			if c.write {
@@ -267,84 +232,16 @@ func TestRefusals(t *testing.T) {
 	}
 }
 
-// sheetPartMoved stores the one sheet (sheetId 1) as sheet2.xml, the part
-// name excelize's NewSheet would give a new sheet.
-func sheetPartMoved(t testing.TB, b []byte) []byte {
-	t.Helper()
-	return rewriteZip(t, b, func(name, content string) (string, string) {
-		switch name {
-		case "xl/worksheets/sheet1.xml":
-			name = "xl/worksheets/sheet2.xml"
-		case "xl/_rels/workbook.xml.rels", "[Content_Types].xml":
-			content = strings.ReplaceAll(content, "sheet1.xml", "sheet2.xml")
-		}
-		return name, content
-	})
-}
-
-// replacePart changes one part of a workbook.
-func replacePart(t testing.TB, b []byte, part string, edit func(string) string) []byte {
-	t.Helper()
-	return rewriteZip(t, b, func(name, content string) (string, string) {
-		if name == part {
-			content = edit(content)
-		}
-		return name, content
-	})
-}
-
-// rewriteZip copies a zip archive, passing each entry through edit.
-func rewriteZip(t testing.TB, b []byte, edit func(name, content string) (string, string)) []byte {
-	t.Helper()
-	zr, err := zip.NewReader(bytes.NewReader(b), int64(len(b)))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var out bytes.Buffer
-	zw := zip.NewWriter(&out)
-	for _, f := range zr.File {
-		rc, err := f.Open()
-		if err != nil {
-			t.Fatal(err)
-		}
-		var body bytes.Buffer
-		if _, err := body.ReadFrom(rc); err != nil {
-			t.Fatal(err)
-		}
-		rc.Close()
-		name, content := edit(f.Name, body.String())
-		w, err := zw.Create(name)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if _, err := w.Write([]byte(content)); err != nil {
-			t.Fatal(err)
-		}
-	}
-	if err := zw.Close(); err != nil {
-		t.Fatal(err)
-	}
-	return out.Bytes()
-}
-
-func hashIfFile(path string) [32]byte {
-	b, err := os.ReadFile(path)
-	if err != nil {
-		return [32]byte{}
-	}
-	return sha(b)
-}
-
 // TestColumnAllErrors is a bad column rather than a bad file: the read
 // succeeds and says what is wrong.
 func TestColumnAllErrors(t *testing.T) {
-	b := simpleBook()
-	b.sheets[0].rows = []string{
-		row(1, inl("A1", "id"), inl("B1", "ratio")),
-		row(2, num("A2", "1"), errc("B2", "#DIV/0!")),
-		row(3, num("A3", "2"), errc("B3", "#REF!")),
+	b := iotest.SimpleBook()
+	b.Sheets[0].Rows = []string{
+		iotest.Row(1, iotest.Inl("A1", "id"), iotest.Inl("B1", "ratio")),
+		iotest.Row(2, iotest.Num("A2", "1"), iotest.Errc("B2", "#DIV/0!")),
+		iotest.Row(3, iotest.Num("A3", "2"), iotest.Errc("B3", "#REF!")),
 	}
-	tab, err := Read(context.Background(), b.write(t, t.TempDir(), "e.xlsx"), Options{})
+	tab, err := Read(context.Background(), b.Write(t, t.TempDir(), "e.xlsx"), Options{})
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -353,7 +250,7 @@ func TestColumnAllErrors(t *testing.T) {
 		t.Errorf("kind %v, missing %v", c.Kind, c.MissingCount)
 	}
 	want := `sheet "Data", column "ratio": every cell with a value is an error value (such as #DIV/0!), so the column has no usable values; check the formulas that fill it`
-	if !strings.Contains(noteTexts(tab), want) {
-		t.Errorf("notes:\n%s\nwant %s", noteTexts(tab), want)
+	if !strings.Contains(iotest.NoteTexts(tab), want) {
+		t.Errorf("notes:\n%s\nwant %s", iotest.NoteTexts(tab), want)
 	}
 }
