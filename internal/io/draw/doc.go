@@ -8,4 +8,8 @@
 // It writes into an excelize.File it is given: it never opens, checks or
 // saves a file (package save does), and never decides what a result says
 // (package report does).
+//
+// Files: draw.go lays the sheet out (LayOut, widths, wrapped heights,
+// formulas' references), cells.go writes it (styles, Cells, Finish),
+// print.go sets up the printed page (row heights, page breaks, setup).
 package draw
