@@ -54,6 +54,10 @@ func (u *UI) startRun() {
 		return
 	}
 	o := u.optionsScreen
+	if o.clusteredWithout() {
+		u.showMessage("Standard errors", "Clustered standard errors need a cluster column: choose one on the Roles step, or another type of standard errors.")
+		return
+	}
 	spec.Variance = o.variance()
 	spec.Alpha = o.alpha()
 	spec.Bootstrap.Off = !o.bootstrap.Checked
@@ -121,7 +125,7 @@ func (u *UI) startRun() {
 		}
 		u.analysis, u.screen, u.written = a, sa, nil
 		if a != nil {
-			u.setStatus(fmt.Sprintf("Done: %d rows used, %d left out.", a.Result.Rows.Used, a.Result.Rows.Dropped))
+			u.setStatus(fmt.Sprintf("Done: %s used, %s left out.", count(a.Result.Rows.Used, "row"), thousands(a.Result.Rows.Dropped)))
 		} else {
 			u.setStatus(fmt.Sprintf("Done: %d moderators tried.", len(sa.Run.Candidates)))
 		}

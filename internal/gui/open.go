@@ -73,7 +73,7 @@ func (s *openScreen) describe() string {
 	if u.table == nil {
 		return ""
 	}
-	return fmt.Sprintf("Open: %s — %d rows of data, %d columns.", u.path, u.table.Len(), len(u.table.Columns))
+	return fmt.Sprintf("Open: %s — %s of data, %s.", u.path, count(u.table.Len(), "row"), count(len(u.table.Columns), "column"))
 }
 
 // open reads a workbook's sheet list and its first sheet, off the UI
@@ -101,7 +101,7 @@ func (u *UI) open(path string) {
 		u.forget(stepWorkbook)
 		u.rowsScreen.reset()
 		u.rolesScreen.reset()
-		u.setStatus(fmt.Sprintf("%s: %d rows, %d columns", filepath.Base(path), table.Len(), len(table.Columns)))
+		u.setStatus(fmt.Sprintf("%s: %s, %s", filepath.Base(path), count(table.Len(), "row"), count(len(table.Columns), "column")))
 		u.reach(stepRows)
 		u.show(stepRows)
 	})
@@ -115,7 +115,7 @@ func (u *UI) readProgress(path string) func(rows int) {
 	return func(rows int) {
 		if now := time.Now(); now.Sub(last) > 200*time.Millisecond {
 			last = now
-			fyne.Do(func() { u.setStatus(fmt.Sprintf("Reading %s… %d rows so far", name, rows)) })
+			fyne.Do(func() { u.setStatus(fmt.Sprintf("Reading %s… %s so far", name, count(rows, "row"))) })
 		}
 	}
 }

@@ -26,7 +26,39 @@ var seChoices = []seChoice{
 	{"Robust (HC1)", estimate.HC1, "The common robust choice in large samples; scaled for the number of terms."},
 	{"Robust (HC0)", estimate.HC0, "The original robust formula; too optimistic in small samples."},
 	{"Classical", estimate.Classical, "Assumes the outcome varies equally everywhere; only when you have reason to believe that."},
-	{"Clustered by site (CR1)", estimate.CR1, "Rows of the same site or group are alike; needs a cluster column and, ideally, 40 or more clusters."},
+	{"Clustered (CR1)", estimate.CR1, "Rows of the same site or group are alike; needs a cluster column and, ideally, 40 or more clusters."},
+}
+
+// crChoice is the index of the clustered type in seChoices.
+const crChoice = 5
+
+// label is how choice i reads for the current roles: the clustered type
+// names the cluster column chosen, or says that none is.
+func (s *optionsScreen) label(i int) string {
+	if i != crChoice {
+		return seChoices[i].label
+	}
+	spec, _ := s.u.rolesScreen.spec()
+	if spec.Cluster == "" {
+		return "Clustered (CR1): needs a cluster column, chosen on the Roles step"
+	}
+	return fmt.Sprintf("Clustered by %s (CR1)", spec.Cluster)
+}
+
+// labels are the choices as they read now.
+func (s *optionsScreen) labels() []string {
+	out := make([]string, len(seChoices))
+	for i := range seChoices {
+		out[i] = s.label(i)
+	}
+	return out
+}
+
+// clusteredWithout reports the clustered type chosen with no cluster
+// column: the run is held back until one is chosen.
+func (s *optionsScreen) clusteredWithout() bool {
+	spec, _ := s.u.rolesScreen.spec()
+	return s.se.Selected == s.label(crChoice) && spec.Cluster == ""
 }
 
 // Confidence levels offered, as α.
@@ -94,17 +126,20 @@ func newOptionsScreen(u *UI) *optionsScreen {
 func (s *optionsScreen) defaultSE() string {
 	spec, _ := s.u.rolesScreen.spec()
 	if spec.Cluster != "" {
-		return seChoices[5].label
+		return s.label(crChoice)
 	}
-	return seChoices[0].label
+	return s.label(0)
 }
 
 func (s *optionsScreen) explain() {
-	for _, c := range seChoices {
-		if c.label == s.se.Selected {
+	for i, c := range seChoices {
+		if s.label(i) == s.se.Selected {
 			words := c.why
-			if c.label == s.defaultSE() {
+			if s.label(i) == s.defaultSE() {
 				words += " (Chosen for you.)"
+			}
+			if s.clusteredWithout() {
+				words = "No cluster column is chosen: go back to the Roles step and choose one under \"Sites or groups whose rows are alike\", or choose another type here."
 			}
 			s.seWhy.SetText(words)
 		}
@@ -115,8 +150,8 @@ func (s *optionsScreen) explain() {
 
 // variance is the chosen type, or the default for the roles.
 func (s *optionsScreen) variance() estimate.VarianceType {
-	for _, c := range seChoices {
-		if c.label == s.se.Selected {
+	for i, c := range seChoices {
+		if s.label(i) == s.se.Selected {
 			return c.vt
 		}
 	}
@@ -142,8 +177,21 @@ func (s *optionsScreen) alpha() float64 {
 
 func (s *optionsScreen) content() fyne.CanvasObject {
 	spec, _ := s.u.rolesScreen.spec()
+	// The choices name the cluster column chosen now; a choice made
+	// before keeps its place.
+	was := -1
+	for i, l := range s.se.Options {
+		if l == s.se.Selected {
+			was = i
+		}
+	}
+	s.se.Options = s.labels()
+	if was >= 0 {
+		s.se.Selected = s.se.Options[was]
+	}
+	s.se.Refresh()
 	// The clustered type needs a cluster; the others ignore one.
-	if spec.Cluster == "" && s.se.Selected == seChoices[5].label || spec.Cluster != "" && s.se.Selected != seChoices[5].label || s.se.Selected == "" {
+	if spec.Cluster == "" && was == crChoice || spec.Cluster != "" && was != crChoice || s.se.Selected == "" {
 		s.se.SetSelected(s.defaultSE())
 	}
 	// Offer each moderator for marking as named in advance, keeping marks

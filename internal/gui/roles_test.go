@@ -195,3 +195,36 @@ func TestManyGroupsStayResponsive(t *testing.T) {
 	}
 	t.Logf("most objects laid out on a tab: %d", objects)
 }
+
+// TestClusteredNamesItsColumn: the clustered type names the cluster column
+// chosen; with none, choosing it holds the run back and says what to do.
+func TestClusteredNamesItsColumn(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.demoRoles()
+	u.rolesScreen.cluster.SetSelected("region")
+	u.rolesScreen.moderator.SetSelected("first_time")
+	test.Tap(u.next)
+	o := u.optionsScreen
+	if o.se.Selected != "Clustered by region (CR1)" {
+		t.Errorf("with region as the cluster the choice reads %q", o.se.Selected)
+	}
+	test.Tap(u.back)
+	u.rolesScreen.cluster.SetSelected(none)
+	test.Tap(u.next)
+	if o.se.Selected != "Robust (HC3)" {
+		t.Errorf("without a cluster the default is %q", o.se.Selected)
+	}
+	o.se.SetSelected(o.label(crChoice))
+	if !u.next.Disabled() || !strings.Contains(o.seWhy.Text, "No cluster column is chosen") {
+		t.Errorf("clustered without a cluster: Run enabled %v, %q", !u.next.Disabled(), o.seWhy.Text)
+	}
+}
+
+func TestCountWords(t *testing.T) {
+	for n, want := range map[int]string{0: "0 rows", 1: "1 row", 2: "2 rows", 500000: "500,000 rows"} {
+		if got := count(n, "row"); got != want {
+			t.Errorf("count(%d) = %q, want %q", n, got, want)
+		}
+	}
+}

@@ -104,12 +104,12 @@ func (s *rowsScreen) refreshTable() {
 	if !t.HeaderDetected {
 		how = "as you set it"
 	}
-	detected := fmt.Sprintf("Column names are read from row %d (%s). %d rows of data below it.", t.HeaderRow, how, t.Len())
+	detected := fmt.Sprintf("Column names are read from row %d (%s). %s of data below it.", t.HeaderRow, how, count(t.Len(), "row"))
 	if t.Region != "" {
-		detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %d rows of data below it.", t.Region, t.HeaderRow, t.Len())
+		detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %s of data below it.", t.Region, t.HeaderRow, count(t.Len(), "row"))
 		for _, d := range t.Tables {
 			if d.Name == t.Region && d.TotalsRows > 0 {
-				detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %d rows of data below it; its totals row (row %d) is left out.", t.Region, t.HeaderRow, t.Len(), d.LastRow)
+				detected = fmt.Sprintf("The data are the table %q: column names from its row %d, %s of data below it; its totals row (row %d) is left out.", t.Region, t.HeaderRow, count(t.Len(), "row"), d.LastRow)
 			}
 		}
 	}
@@ -252,7 +252,7 @@ func (s *rowsScreen) reread(sheet string, headerRow int, table string) {
 		u.forget(stepRows)
 		u.rolesScreen.reset()
 		s.refreshTable()
-		u.setStatus(fmt.Sprintf("Sheet %q: %d rows, %d columns", t.Sheet, t.Len(), len(t.Columns)))
+		u.setStatus(fmt.Sprintf("Sheet %q: %s, %s", t.Sheet, count(t.Len(), "row"), count(len(t.Columns), "column")))
 		u.updateBar()
 	})
 }

@@ -170,6 +170,14 @@ func (h fixedHeight) Layout(objects []fyne.CanvasObject, size fyne.Size) {
 // thousands writes n with commas between groups of three digits.
 func thousands(n int) string { return formatNumber(float64(n), "#,##0") }
 
+// count writes n things: "1 row", "2 rows", "500,000 rows".
+func count(n int, thing string) string {
+	if n == 1 {
+		return "1 " + thing
+	}
+	return thousands(n) + " " + thing + "s"
+}
+
 // columns lays out one table row: the first column `first` times as wide
 // as the others, every row of a table sharing the same proportions so the
 // columns line up, and each row only as tall as its own cells.

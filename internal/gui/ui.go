@@ -236,7 +236,7 @@ func (u *UI) updateBar() {
 		ok = u.rolesScreen.ready()
 	case stepOptions:
 		u.next.SetText("Run the analysis")
-		ok = u.rolesScreen.ready() && u.cancel == nil
+		ok = u.rolesScreen.ready() && u.cancel == nil && !u.optionsScreen.clusteredWithout()
 	case stepFindings:
 		ok = false
 		u.next.SetText("Next")
