@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"strings"
 	"testing"
 
 	"fyne.io/fyne/v2"
@@ -160,5 +161,33 @@ func TestProgressInSight(t *testing.T) {
 	u.hideProgress()
 	if len(u.barMiddle.Objects) != 1 || u.barMiddle.Objects[0] != u.status {
 		t.Error("the status line is not back in the bar")
+	}
+}
+
+// TestHelpMenu: the Help menu holds more than About: the cautions for
+// reading the findings and the keys, each in a dialog that Escape closes.
+func TestHelpMenu(t *testing.T) {
+	h := newHarness(t, Options{})
+	var help *fyne.Menu
+	for _, m := range h.w.MainMenu().Items {
+		if m.Label == "Help" {
+			help = m
+		}
+	}
+	if help == nil {
+		t.Fatal("no Help menu")
+	}
+	for _, it := range help.Items {
+		if it.IsSeparator {
+			continue
+		}
+		it.Action()
+		if !strings.Contains(h.overlayText(), "[Close]") {
+			t.Errorf("%q shows no dialog: %q", it.Label, h.overlayText())
+		}
+		h.w.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyEscape})
+	}
+	if n := len(help.Items); n < 4 {
+		t.Errorf("the Help menu holds %d items", n)
 	}
 }

@@ -82,12 +82,13 @@ func (u *UI) open(path string) {
 	u.setStatus("Reading " + filepath.Base(path) + "…")
 	var sheets []workbook.SheetInfo
 	var table *workbook.Table
+	var sizes map[string]string
 	u.background(func() error {
 		var err error
 		if sheets, err = workbook.Sheets(path); err != nil {
 			return err
 		}
-		table, err = pipeline.Read(context.Background(), report.Run{File: path, Sheet: firstWorksheet(sheets)}, u.readProgress(path))
+		table, sizes, err = firstTable(path, sheets, u.readProgress(path))
 		return err
 	}, func(err error) {
 		if err != nil {
@@ -95,7 +96,7 @@ func (u *UI) open(path string) {
 			u.showError("This file could not be opened.", err)
 			return
 		}
-		u.path, u.sheets, u.table = path, sheets, table
+		u.path, u.sheets, u.table, u.sheetSizes = path, sheets, table, sizes
 		u.run = report.Run{File: path, Sheet: table.Sheet, HeaderRow: table.HeaderRow, Version: u.opts.Version}
 		u.remember(path)
 		u.forget(stepWorkbook)
@@ -118,6 +119,72 @@ func (u *UI) readProgress(path string) func(rows int) {
 			fyne.Do(func() { u.setStatus(fmt.Sprintf("Reading %s… %s so far", name, count(rows, "row"))) })
 		}
 	}
+}
+
+// A real table has at least this many rows and columns: a cover sheet of
+// a title and two lines of notes is passed over.
+const (
+	tableRows    = 5
+	tableColumns = 2
+)
+
+// firstTable reads the first visible worksheet that holds a real table
+// and is not a results sheet of Slopewise's own (its run-spec row),
+// else the first visible worksheet; sizes says what each sheet read holds,
+// for the Rows step's list.
+func firstTable(path string, sheets []workbook.SheetInfo, progress func(int)) (*workbook.Table, map[string]string, error) {
+	sizes := map[string]string{}
+	var first *workbook.Table
+	var firstErr error
+	tried := 0
+	for _, sh := range sheets {
+		if !sh.Worksheet || sh.Hidden {
+			continue
+		}
+		if tried++; tried > 8 {
+			break // a workbook of many small sheets: the first is shown
+		}
+		t, err := pipeline.Read(context.Background(), report.Run{File: path, Sheet: sh.Name}, progress)
+		if err != nil {
+			if tried == 1 {
+				firstErr = err
+			}
+			continue
+		}
+		if first == nil {
+			first = t
+		}
+		if ownResults(t) {
+			sizes[sh.Name] = "results of Slopewise"
+			continue
+		}
+		sizes[sh.Name] = count(t.Len(), "row") + ", " + count(len(t.Columns), "column")
+		if t.Len() >= tableRows && len(t.Columns) >= tableColumns {
+			return t, sizes, nil
+		}
+	}
+	if first == nil {
+		if firstErr == nil {
+			// A text file, or no visible worksheet was read.
+			t, err := pipeline.Read(context.Background(), report.Run{File: path, Sheet: firstWorksheet(sheets)}, progress)
+			return t, sizes, err
+		}
+		return nil, sizes, firstErr
+	}
+	return first, sizes, nil
+}
+
+// ownResults reports a results sheet that Slopewise wrote: a cell holds
+// the marker of its run-spec row.
+func ownResults(t *workbook.Table) bool {
+	for _, c := range t.Columns {
+		for _, v := range c.Texts {
+			if v == workbook.SpecMarker {
+				return true
+			}
+		}
+	}
+	return false
 }
 
 // firstWorksheet is the first visible worksheet's name ("" for text files).

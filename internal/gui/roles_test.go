@@ -9,6 +9,8 @@ import (
 
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
+	"github.com/xuri/excelize/v2"
 )
 
 // openCSV opens a CSV of the given text in a new window and moves to the
@@ -226,5 +228,40 @@ func TestCountWords(t *testing.T) {
 		if got := count(n, "row"); got != want {
 			t.Errorf("count(%d) = %q, want %q", n, got, want)
 		}
+	}
+}
+
+// TestCoverSheetPassedOver: a workbook whose first sheet is a cover of a
+// title and a note opens on its first sheet that holds a table, and the
+// Rows step says what each sheet read holds.
+func TestCoverSheetPassedOver(t *testing.T) {
+	f := excelize.NewFile()
+	f.SetSheetName("Sheet1", "About")
+	f.SetCellValue("About", "A1", "Tutoring pilot, spring term")
+	f.SetCellValue("About", "A2", "Prepared by the evaluation team")
+	f.NewSheet("Pupils")
+	f.SetSheetRow("Pupils", "A1", &[]any{"score", "tutored", "area"})
+	for i := range 40 {
+		f.SetSheetRow("Pupils", "A"+strconv.Itoa(i+2), &[]any{(i * 37) % 101, i % 2, string(rune('a' + i%3))})
+	}
+	src := filepath.Join(t.TempDir(), "pilot.xlsx")
+	if err := f.SaveAs(src); err != nil {
+		t.Fatal(err)
+	}
+	h := newHarness(t, Options{ChooseOpen: func(done func(string)) { done(src) }})
+	test.Tap(h.u.openScreen.openBtn)
+	h.wait()
+	if h.u.table == nil || h.u.table.Sheet != "Pupils" {
+		t.Fatalf("opened on sheet %v", h.u.table)
+	}
+	var said string
+	for _, o := range test.LaidOutObjects(h.w.Canvas().Content()) {
+		if l, ok := o.(*widget.Label); ok && strings.Contains(l.Text, "About:") {
+			said = l.Text
+		}
+	}
+	want := `About: 1 row, 1 column · Pupils: 40 rows, 3 columns. "Pupils" is shown: the first sheet that holds a table of data.`
+	if said != want {
+		t.Errorf("the Rows step says %q, want %q", said, want)
 	}
 }

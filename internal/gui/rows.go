@@ -307,6 +307,35 @@ func cellText(c *workbook.Column, i int) string {
 	return ""
 }
 
+// sheetsRead says what the sheets read on opening hold, and why the one
+// shown was chosen when it is not the first.
+func (s *rowsScreen) sheetsRead() fyne.CanvasObject {
+	u := s.u
+	var parts []string
+	skipped := false
+	for _, sh := range u.sheets {
+		size, ok := u.sheetSizes[sh.Name]
+		if !ok || sh.Name == "" {
+			continue
+		}
+		parts = append(parts, fmt.Sprintf("%s: %s", sh.Name, size))
+		if u.table != nil && sh.Name != u.table.Sheet && len(parts) == 1 {
+			skipped = true
+		}
+	}
+	if len(parts) < 2 {
+		return container.NewVBox()
+	}
+	text := strings.Join(parts, " · ")
+	if skipped {
+		text += fmt.Sprintf(". %q is shown: the first sheet that holds a table of data.", u.table.Sheet)
+	}
+	l := widget.NewLabel(text)
+	l.Wrapping = fyne.TextWrapWord
+	l.Importance = widget.LowImportance
+	return l
+}
+
 func (s *rowsScreen) content() fyne.CanvasObject {
 	intro := widget.NewLabel("Check that the columns were read as you expect. The second line under each name says what the column holds and how many cells are missing.")
 	intro.Wrapping = fyne.TextWrapWord
@@ -314,7 +343,7 @@ func (s *rowsScreen) content() fyne.CanvasObject {
 		heading("Check the rows"),
 		intro,
 		widget.NewForm(
-			widget.NewFormItem("Sheet", s.sheet),
+			widget.NewFormItem("Sheet", container.NewVBox(s.sheet, s.sheetsRead())),
 			widget.NewFormItem("Row with the column names", container.NewBorder(nil, nil, nil, s.apply, s.header)),
 			widget.NewFormItem("Data region", s.region),
 		),

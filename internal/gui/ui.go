@@ -74,6 +74,8 @@ type UI struct {
 	// What is open and what has been chosen.
 	path     string
 	sheets   []workbook.SheetInfo
+	// sheetSizes says what each sheet read on opening holds.
+	sheetSizes map[string]string
 	table    *workbook.Table
 	run      report.Run
 	analysis *pipeline.Analysis       // one moderator
@@ -325,7 +327,11 @@ func (u *UI) menu() *fyne.MainMenu {
 		fyne.NewMenuItem("Put a backup back…", u.chooseRestore),
 	)
 	analysis := fyne.NewMenu("Analysis", run, add)
-	help := fyne.NewMenu("Help", fyne.NewMenuItem("About Slopewise", u.showAbout))
+	help := fyne.NewMenu("Help",
+		fyne.NewMenuItem("Reading the findings with care", func() { u.showText("Reading the findings with care", readingWithCare) }),
+		fyne.NewMenuItem("Keys", func() { u.showText("Keys", keysText) }),
+		fyne.NewMenuItemSeparator(),
+		fyne.NewMenuItem("About Slopewise", u.showAbout))
 	return fyne.NewMainMenu(file, analysis, help)
 }
 
