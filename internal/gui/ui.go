@@ -72,16 +72,16 @@ type UI struct {
 	opts Options
 
 	// What is open and what has been chosen.
-	path     string
-	sheets   []workbook.SheetInfo
+	path   string
+	sheets []workbook.SheetInfo
 	// sheetSizes says what each sheet read on opening holds.
 	sheetSizes map[string]string
-	table    *workbook.Table
-	run      report.Run
-	analysis *pipeline.Analysis       // one moderator
-	screen   *pipeline.ScreenAnalysis // several moderators
-	written  *workbook.Written
-	cancel   context.CancelFunc
+	table      *workbook.Table
+	run        report.Run
+	analysis   *pipeline.Analysis       // one moderator
+	screen     *pipeline.ScreenAnalysis // several moderators
+	written    *workbook.Written
+	cancel     context.CancelFunc
 
 	current  step
 	reached  step
