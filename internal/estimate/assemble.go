@@ -43,7 +43,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	res.Rows = RowSummary{Read: ds.rowsRead, Used: n, Dropped: len(ds.dropped), Reasons: ds.counts, List: ds.dropped}
 
 	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
-		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
+		Sigma: math.Sqrt(f.rss / float64(n-k-ds.absorbedDF())), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
 	facts := ds.facts
 	if facts == nil {
 		facts = ds.rowFacts(f)
@@ -51,6 +51,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	res.Model.R2, res.Model.AdjR2 = facts.r2, facts.adjR2
 	res.Model.OutcomeBinary = facts.outcomeBinary
 	res.Model.DataSHA256 = facts.hash
+	res.Design = ds.designInfo(s, facts)
 
 	res.Covariance = make([][]float64, k)
 	for i := 0; i < k; i++ {
@@ -84,13 +85,20 @@ type rowFacts struct {
 	outcomeBinary bool
 	hash          string
 	rows, treated []int // by moderator level
+	// cells counts the rows of a before-and-after design by group of
+	// units and period (2·T + P).
+	cells [4]int
 }
 
 // rowFacts computes the facts from the design's rows.
 func (ds *design) rowFacts(f *lsFit) *rowFacts {
 	rf := &rowFacts{outcomeBinary: true}
+	ys := ds.y
+	if ds.yRaw != nil {
+		ys = ds.yRaw
+	}
 	var sw, swy float64
-	for i, y := range ds.y {
+	for i, y := range ys {
 		w := 1.0
 		if ds.w != nil {
 			w = ds.w[i]
@@ -108,14 +116,17 @@ func (ds *design) rowFacts(f *lsFit) *rowFacts {
 	}
 	mean := swy / sw
 	var tss float64
-	for i, y := range ds.y {
+	for i, y := range ys {
 		w := 1.0
 		if ds.w != nil {
 			w = ds.w[i]
 		}
 		tss += w * (y - mean) * (y - mean)
 	}
-	rf.r2, rf.adjR2 = rSquared(f.rss, tss, ds.n, ds.k)
+	rf.r2, rf.adjR2 = rSquared(f.rss, tss, ds.n, ds.k+ds.absorbedDF())
+	for r, p := range ds.period {
+		rf.cells[2*int(ds.treat[r])+int(p)]++
+	}
 	if ds.modLevel != nil {
 		rf.rows = make([]int, len(ds.levels))
 		rf.treated = make([]int, len(ds.levels))

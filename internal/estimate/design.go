@@ -3,6 +3,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -30,6 +31,15 @@ const (
 	roleModerator   = "moderator"
 	roleInteraction = "interaction"
 	roleControl     = "control"
+	// A before-and-after design (METHODS §10) adds the treated group's and
+	// the period's own terms and their products with the moderator; its
+	// roleTreatment term is the group × period product, whose coefficient
+	// is the difference in differences, and its roleInteraction terms are
+	// the triple products.
+	roleGroup           = "group"
+	rolePeriod          = "period"
+	roleGroupModerator  = "group × moderator"
+	rolePeriodModerator = "period × moderator"
 )
 
 // design is the model matrix and everything needed to read the fit back.
@@ -39,7 +49,10 @@ type design struct {
 	roles []string
 	x     []float64 // unweighted, n×k row-major
 	y     []float64
-	w     []float64 // nil without weights
+	// yRaw is the outcome before the within transformation (unit
+	// effects), for R² and the check of a 0/1 outcome; nil without.
+	yRaw []float64
+	w    []float64 // nil without weights
 
 	rowsRead int
 	used     []int // data row index of each used row
@@ -47,6 +60,11 @@ type design struct {
 	counts   []DropCount
 
 	treat []float64 // T of each used row
+	// period is P of each used row (1 after the start), nil unless the
+	// design is a difference in differences; gCol and pCol are then the
+	// columns of T and P, and tCol that of T·P.
+	period     []float64
+	gCol, pCol int
 
 	// Binary or categorical moderator.
 	levels   []string
@@ -62,6 +80,14 @@ type design struct {
 
 	cluster       []int
 	clusterLabels []string
+
+	// unit numbers each used row's unit when the spec names one; with
+	// unit effects, within holds the unit means the columns were demeaned
+	// by (within.go) and absorbed the names of the terms that dropped out.
+	unit       []int
+	unitLabels []string
+	within     *within
+	absorbed   []string
 
 	// effectA and diffA are the combinations a of the coefficients that
 	// give each effect and difference of the result, in its order.
@@ -185,11 +211,19 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	if err != nil {
 		return nil, err
 	}
+	checks := []roleColumn{outcome, treat}
+	var period roleColumn
+	if s.DiD() {
+		if period, err = get(s.Period, "period", s.After == ""); err != nil {
+			return nil, err
+		}
+		checks = append(checks, period)
+	}
 	mod, err := get(s.Moderator.Column, "moderator", s.Moderator.Kind == ModeratorContinuous)
 	if err != nil {
 		return nil, err
 	}
-	checks := []roleColumn{outcome, treat, mod}
+	checks = append(checks, mod)
 	var controls []roleColumn
 	for _, name := range s.Controls {
 		rc, err := get(name, "control", false)
@@ -205,6 +239,15 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 			return nil, err
 		}
 		checks = append(checks, cluster)
+	}
+	var unit roleColumn
+	if s.Unit != "" {
+		if unit, err = get(s.Unit, "unit", false); err != nil {
+			return nil, err
+		}
+		if s.Unit != s.Cluster {
+			checks = append(checks, unit)
+		}
 	}
 	var weight roleColumn
 	if s.Weights != "" {
@@ -268,6 +311,11 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	if err := ds.readTreatment(d, s, treat.col); err != nil {
 		return nil, err
 	}
+	if s.DiD() {
+		if err := ds.readPeriod(d, s, period.col); err != nil {
+			return nil, err
+		}
+	}
 	if err := ds.readModerator(d, s, mod.col); err != nil {
 		return nil, err
 	}
@@ -282,7 +330,10 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 		}
 	}
 	if s.Cluster != "" {
-		ds.readCluster(cluster.col)
+		ds.cluster, ds.clusterLabels = ds.numberKeys(cluster.col)
+	}
+	if s.Unit != "" {
+		ds.unit, ds.unitLabels = ds.numberKeys(unit.col)
 	}
 	ds.assemble(s, controls)
 	return ds, nil
@@ -337,25 +388,43 @@ func (ds *design) readTreatment(d *Data, s Spec, c *Column) error {
 			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q should hold only 0 (untreated) and 1 (treated), but row %d holds %s (%d rows in all). If it is a dose or amount, choose the kind \"continuous\"; otherwise correct those cells.", c.Name, bad[0], formatNumber(first), len(bad)), bad...)
 		}
 	case TreatmentLabels:
-		seen := map[string]int{}
-		for _, i := range ds.used {
-			seen[c.key(i)]++
-		}
-		labels := sortedLevels(seen)
 		treated := s.Treatment.Treated
-		if seen[treated] == 0 {
-			return fail(ErrValues, c.Name, fmt.Sprintf("The label %q, chosen as treated, does not appear in column %q among the rows used; its labels are %s.", treated, c.Name, quoteList(labels)))
-		}
-		if len(labels) != 2 {
-			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q has %d different labels (%s); it needs exactly two, one meaning treated. Correct the cells or recode the column.", c.Name, len(labels), quoteList(labels)))
-		}
-		for r, i := range ds.used {
-			if c.key(i) == treated {
-				ds.treat[r] = 1
-			}
-		}
+		var err error
+		ds.treat, err = ds.twoLabels(c, func(labels []string) (string, bool) {
+			return treated, slices.Contains(labels, treated)
+		}, func(labels []string) string {
+			return fmt.Sprintf("The label %q, chosen as treated, does not appear in column %q among the rows used; its labels are %s.", treated, c.Name, quoteList(labels))
+		}, func(labels []string) string {
+			return fmt.Sprintf("The treatment column %q has %d different labels (%s); it needs exactly two, one meaning treated. Correct the cells or recode the column.", c.Name, len(labels), quoteList(labels))
+		})
+		return err
 	}
 	return nil
+}
+
+// twoLabels reads a column of two labels as 0/1: 1 where a row holds the
+// label find picks among the column's labels. absent words the refusal
+// when find picks none, notTwo when there are not two labels.
+func (ds *design) twoLabels(c *Column, find func(labels []string) (string, bool), absent, notTwo func(labels []string) string) ([]float64, error) {
+	seen := map[string]int{}
+	for _, i := range ds.used {
+		seen[c.key(i)]++
+	}
+	labels := sortedLevels(seen)
+	one, ok := find(labels)
+	if !ok {
+		return nil, fail(ErrValues, c.Name, absent(labels))
+	}
+	if len(labels) != 2 {
+		return nil, fail(ErrValues, c.Name, notTwo(labels))
+	}
+	v := make([]float64, ds.n)
+	for r, i := range ds.used {
+		if c.key(i) == one {
+			v[r] = 1
+		}
+	}
+	return v, nil
 }
 
 // readModerator fills the moderator's levels or values.
@@ -429,11 +498,13 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 	return nil
 }
 
-// readCluster numbers the clusters in order of first appearance. Numeric
-// cluster columns are keyed by value, so that a million rows cost no
-// formatting.
-func (ds *design) readCluster(c *Column) {
-	ds.cluster = make([]int, ds.n)
+// numberKeys numbers the values of a cluster or unit column in order of
+// first appearance among the used rows, and returns each row's number and
+// the labels. Numeric columns are keyed by value, so that a million rows
+// cost no formatting.
+func (ds *design) numberKeys(c *Column) ([]int, []string) {
+	ids := make([]int, ds.n)
+	var labels []string
 	byText := map[string]int{}
 	byValue := map[float64]int{}
 	for r, i := range ds.used {
@@ -445,16 +516,60 @@ func (ds *design) readCluster(c *Column) {
 			j, ok = byText[c.Text[i]]
 		}
 		if !ok {
-			j = len(ds.clusterLabels)
-			ds.clusterLabels = append(ds.clusterLabels, c.key(i))
+			j = len(labels)
+			labels = append(labels, c.key(i))
 			if c.IsNumeric() {
 				byValue[c.Num[i]] = j
 			} else {
 				byText[c.Text[i]] = j
 			}
 		}
-		ds.cluster[r] = j
+		ids[r] = j
 	}
+	return ids, labels
+}
+
+// readPeriod fills ds.period: a 0/1 column as it is, or 1 where the
+// column holds the value named as after, which must be one of exactly two.
+func (ds *design) readPeriod(d *Data, s Spec, c *Column) error {
+	if s.After == "" {
+		ds.period = make([]float64, ds.n)
+		for r, i := range ds.used {
+			v := c.Num[i]
+			if v != 0 && v != 1 {
+				return fail(ErrValues, c.Name, fmt.Sprintf("The period column %q should hold only 0 (before the programme started) and 1 (after), but row %d holds %s. If it holds two other values, say which one means after.", c.Name, d.label(i), formatNumber(v)), d.label(i))
+			}
+			ds.period[r] = v
+		}
+		return nil
+	}
+	var err error
+	ds.period, err = ds.twoLabels(c, func(labels []string) (string, bool) {
+		return periodAfter(labels, s.After)
+	}, func(labels []string) string {
+		return fmt.Sprintf("The value %q, chosen as after, does not appear in the period column %q among the rows used; its values are %s.", ShortLabel(s.After), c.Name, quoteList(labels))
+	}, func(labels []string) string {
+		return fmt.Sprintf("The period column %q has %d different values (%s); a before-and-after comparison needs exactly two, one of them after the start. Recode the column, or keep the rows of one period before and one after.", c.Name, len(labels), quoteList(labels))
+	})
+	return err
+}
+
+// periodAfter finds the level named as after; a number matches the same
+// number written otherwise ("2020.0" is "2020").
+func periodAfter(levels []string, after string) (string, bool) {
+	for _, l := range levels {
+		if l == after {
+			return l, true
+		}
+	}
+	if v, err := strconv.ParseFloat(strings.TrimSpace(after), 64); err == nil {
+		for _, l := range levels {
+			if w, err := strconv.ParseFloat(l, 64); err == nil && w == v {
+				return l, true
+			}
+		}
+	}
+	return "", false
 }
 
 // assemble writes the model matrix: intercept, treatment, moderator,
@@ -476,13 +591,27 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			x[r*k+j] = 1
 		}
 	})
-	tName := s.Treatment.Column
-	if s.Treatment.Kind == TreatmentLabels {
-		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
+	tName := treatmentName(s)
+	column := func(v []float64) fill {
+		return func(x []float64, j, k, from, to int) {
+			for r := from; r < to; r++ {
+				x[r*k+j] = v[r]
+			}
+		}
+	}
+	// eff is row r's value of the term whose coefficient is the effect:
+	// T, or in a before-and-after design T·P.
+	eff := func(r int) float64 { return ds.treat[r] }
+	if ds.period != nil {
+		pName := periodName(s)
+		ds.gCol = add(tName, roleGroup, column(ds.treat))
+		ds.pCol = add(pName, rolePeriod, column(ds.period))
+		eff = func(r int) float64 { return ds.treat[r] * ds.period[r] }
+		tName += " × " + pName
 	}
 	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
 		for r := from; r < to; r++ {
-			x[r*k+j] = ds.treat[r]
+			x[r*k+j] = eff(r)
 		}
 	})
 
@@ -518,10 +647,24 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			}
 		}))
 	}
+	if ds.period != nil {
+		for _, lower := range []struct {
+			v          []float64
+			name, role string
+		}{{ds.treat, treatmentName(s), roleGroupModerator}, {ds.period, periodName(s), rolePeriodModerator}} {
+			for m, name := range modNames {
+				add(lower.name+" × "+name, lower.role, func(x []float64, j, k, from, to int) {
+					for r := from; r < to; r++ {
+						x[r*k+j] = lower.v[r] * mod(r, m)
+					}
+				})
+			}
+		}
+	}
 	for m, name := range modNames {
 		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
 			for r := from; r < to; r++ {
-				x[r*k+j] = ds.treat[r] * mod(r, m)
+				x[r*k+j] = eff(r) * mod(r, m)
 			}
 		}))
 	}
@@ -562,6 +705,24 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			f(ds.x, j, ds.k, from, to)
 		}
 	})
+}
+
+// treatmentName is the treatment's term name: the column, or for labels
+// "column = treated label".
+func treatmentName(s Spec) string {
+	if s.Treatment.Kind == TreatmentLabels {
+		return fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
+	}
+	return s.Treatment.Column
+}
+
+// periodName is the period's term name: the column, or for labels
+// "column = after label".
+func periodName(s Spec) string {
+	if s.After != "" {
+		return fmt.Sprintf("%s = %s", s.Period, s.After)
+	}
+	return s.Period
 }
 
 // sortedLevels returns the keys in level order: numerically when every key

@@ -165,8 +165,23 @@ func runRScript(t *testing.T, script string) string {
 
 func compareWithR(t *testing.T, dir string) {
 	ref := readReference(t, filepath.Join(dir, "reference.txt"))
+	checked := compareCases(t, ref, dir, rCases(), func(s *Spec, vt string) {
+		if vt == "CR1" {
+			s.Cluster = "Plant"
+		}
+	})
+	if checked < 1000 {
+		t.Errorf("only %d reference values compared", checked)
+	}
+	t.Logf("%d reference values compared with R", checked)
+}
+
+// compareCases fits every case for each variance type the reference
+// values hold, the spec's variance set and then adjusted for the type,
+// and compares; it returns how many values were compared.
+func compareCases(t *testing.T, ref refValues, dir string, cases []rCase, adjust func(s *Spec, vt string)) int {
 	checked := 0
-	for _, c := range rCases() {
+	for _, c := range cases {
 		cr := ref[c.name]
 		if cr == nil {
 			t.Fatalf("no reference values for case %s", c.name)
@@ -182,9 +197,7 @@ func compareWithR(t *testing.T, dir string) {
 		for _, vt := range vtypes {
 			spec := c.spec
 			spec.Variance = VarianceType(vt)
-			if vt == "CR1" {
-				spec.Cluster = "Plant"
-			}
+			adjust(&spec, vt)
 			res, err := Fit(data, spec)
 			if rows, ok := cr[vt]["leverage1_rows"]; ok {
 				// R's sandwich only warns here; the engine must refuse and name the row.
@@ -202,10 +215,7 @@ func compareWithR(t *testing.T, dir string) {
 			checked += compareCase(t, c.name+" "+vt, res, cr["-"], cr[vt])
 		}
 	}
-	if checked < 1000 {
-		t.Errorf("only %d reference values compared", checked)
-	}
-	t.Logf("%d reference values compared with R", checked)
+	return checked
 }
 
 // compareCase checks one fit against the values of one case and variance

@@ -9,6 +9,9 @@ type Result struct {
 
 	Rows  RowSummary `json:"rows"`
 	Model ModelInfo  `json:"model"`
+	// Design describes a design other than a single comparison of two
+	// arms (METHODS §10); nil for that one, so that its JSON is as before.
+	Design *DesignInfo `json:"design,omitempty"`
 
 	Coefficients []Coefficient `json:"coefficients"`
 	// Covariance is the estimated covariance of the coefficients, in the
@@ -222,4 +225,40 @@ func (r *Result) EffectAt(m float64) (inf Inference, ok bool) {
 	a[t] = 1
 	a[b3] = m - r.Moderator.Centre
 	return in.combo(a), true
+}
+
+// DesignKind names a study design.
+type DesignKind string
+
+const (
+	// BeforeAfter is a difference in differences by group (METHODS §10).
+	BeforeAfter DesignKind = "before_after"
+	// RepeatedUnits is a trial whose units have several rows each (a
+	// unit column without a period column).
+	RepeatedUnits DesignKind = "repeated_units"
+)
+
+// DesignInfo says how a design other than a single trial was fitted.
+type DesignInfo struct {
+	Kind DesignKind `json:"kind"`
+	// Period and After name the period column and the value after the
+	// start ("1" for a 0/1 column).
+	Period string `json:"period,omitempty"`
+	After  string `json:"after,omitempty"`
+	// Unit is the unit column and Units the number of units among the
+	// rows used.
+	Unit  string `json:"unit,omitempty"`
+	Units int    `json:"units,omitempty"`
+	// UnitEffects says each unit's own level was absorbed (within.go);
+	// Absorbed names the terms that do not change within any unit and so
+	// dropped out with it.
+	UnitEffects bool     `json:"unit_effects,omitempty"`
+	Absorbed    []string `json:"absorbed,omitempty"`
+	// UnitsNested says every unit lies in one cluster, so CR1's
+	// small-sample factor does not count the unit effects.
+	UnitsNested bool `json:"units_nested,omitempty"`
+	// Cells counts the rows used by group of units and period: the
+	// comparison units before and after, the programme's units before
+	// and after.
+	Cells [4]int `json:"cells"`
 }

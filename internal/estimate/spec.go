@@ -99,7 +99,30 @@ type Spec struct {
 	// proportions); when set, every difference between groups is tested
 	// for equivalence within it (Schuirmann 1987). 0 means none.
 	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
+
+	// Period, when set, makes the fit a difference in differences by
+	// group (METHODS §10): the column that says whether a row was measured
+	// before (0) or after (1) the programme started; with After set, a
+	// column of two labels (or two numbers) of which After is the one
+	// after the start. The treatment then marks the units that get the
+	// programme, and its effect in each group is the difference in
+	// differences there.
+	Period string `json:"period,omitempty"`
+	After  string `json:"after,omitempty"`
+	// Unit names the column that identifies the unit (person, site) whose
+	// rows are repeated; when no cluster column is chosen and the variance
+	// type is CR1 or left empty, the errors are clustered by it
+	// (Bertrand, Duflo & Mullainathan 2004).
+	Unit string `json:"unit,omitempty"`
+	// UnitEffects absorbs each unit's own level by demeaning every column
+	// within unit (the within transformation, Frisch–Waugh–Lovell); terms
+	// that do not change within any unit drop out and are named in
+	// Result.Absorbed.
+	UnitEffects bool `json:"unit_effects,omitempty"`
 }
+
+// DiD reports whether the spec is a before-and-after design.
+func (s Spec) DiD() bool { return s.Period != "" }
 
 // withDefaults returns the spec with every default filled in, or an error
 // if a setting is invalid.
@@ -109,6 +132,9 @@ func (s Spec) withDefaults() (Spec, error) {
 	}
 	if s.Power == 0 {
 		s.Power = 0.8
+	}
+	if s.Unit != "" && s.Cluster == "" && (s.Variance == "" || s.Variance == CR1) {
+		s.Cluster = s.Unit
 	}
 	if s.Variance == "" {
 		s.Variance = HC3
@@ -146,6 +172,12 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", fmt.Sprintf("The number of bootstrap draws %d is outside 1 to %d. The usual choice is %d.", s.Bootstrap.Draws, MaxDraws, DefaultDraws))
 	case s.Bootstrap.Weights != "" && s.Bootstrap.Weights != Rademacher && s.Bootstrap.Weights != Webb:
 		return s, fail(ErrSpec, "", fmt.Sprintf("Unknown bootstrap weights %q; choose rademacher or webb, or leave it empty.", s.Bootstrap.Weights))
+	case s.UnitEffects && s.Unit == "":
+		return s, fail(ErrSpec, "", "Unit effects need a unit column. Pick the column that names each person or site whose rows are repeated.")
+	case s.After != "" && s.Period == "":
+		return s, fail(ErrSpec, "", fmt.Sprintf("The value %q is named as \"after\" but no period column is chosen. Pick the column that says before or after.", s.After))
+	case s.DiD() && s.Treatment.Kind == TreatmentContinuous:
+		return s, fail(ErrSpec, s.Treatment.Column, "A before-and-after design needs a treatment that marks the units that get the programme (0/1 or two labels), not an amount.")
 	case s.Treatment.Kind == TreatmentLabels && s.Treatment.Treated == "":
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which label in %q means treated.", s.Treatment.Column))
 	}
@@ -168,9 +200,9 @@ func (s Spec) withDefaults() (Spec, error) {
 	roles := map[string]string{s.Outcome: "outcome"}
 	for _, r := range []struct{ col, role string }{
 		{s.Treatment.Column, "treatment"}, {s.Moderator.Column, "moderator"},
-		{s.Cluster, "cluster"}, {s.Weights, "weights"},
+		{s.Period, "period"}, {s.Cluster, "cluster"}, {s.Weights, "weights"}, {s.Unit, "unit"},
 	} {
-		if r.col == "" {
+		if r.col == "" || (r.role == "unit" && r.col == s.Cluster) {
 			continue
 		}
 		if prev, ok := roles[r.col]; ok {
