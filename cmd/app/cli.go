@@ -77,6 +77,23 @@ Roles:
                            without the right cluster
   --weights COL            a weight for each row (sampling or precision weights)
 
+Before and after (a difference in differences by group):
+  --period COL             whether a row was measured before (0) or after (1) the
+                           programme started; the treatment then marks the units
+                           that get the programme, and each group's effect is
+                           how much more the outcome changed in them than in the
+                           comparison units. It is the programme's effect only if,
+                           without it, both would have moved in parallel
+  --after VALUE            the value of --period that means after the start, when
+                           the column holds two labels or other numbers (2023, 2024)
+  --unit COL               the person or site each row belongs to, measured more
+                           than once; standard errors are clustered by it unless
+                           --cluster names a coarser group or --se says otherwise
+  --unit-effects           compare each unit with itself: take out each unit's own
+                           level; terms that do not change within a unit (the
+                           treated group, a moderator of the unit) drop out and
+                           are named
+
 Options:
   --se TYPE                standard errors: classical, hc0, hc1, hc2, hc3, cluster
                            (default hc3, or cluster when --cluster is given)
@@ -225,6 +242,10 @@ type modelFlags struct {
 	seed                        uint64
 	margin                      float64
 	grouping                    string // warn or refuse
+	// A before-and-after design (analyze only): the period column, the
+	// value after the start, the unit column and its effects.
+	period, after, unit string
+	unitEffects         bool
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -312,6 +333,10 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.values, "moderator-values", "", "")
 	fs.StringVar(&f.center, "center", "", "")
 	fs.BoolVar(&f.planned, "planned", false, "")
+	fs.StringVar(&f.period, "period", "", "")
+	fs.StringVar(&f.after, "after", "", "")
+	fs.StringVar(&f.unit, "unit", "", "")
+	fs.BoolVar(&f.unitEffects, "unit-effects", false, "")
 	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
 		return nil, err
 	}
@@ -336,6 +361,12 @@ func (f *analyzeFlags) check() error {
 	}
 	if (f.values != "" || f.center != "") && (f.moderatorType == "binary" || f.moderatorType == "category" || f.ref != "") {
 		return usagef("--moderator-values and --center are for a number moderator; they cannot go with groups (--moderator-type %s or --reference)", orText(f.moderatorType, "category"))
+	}
+	if f.after != "" && f.period == "" {
+		return usagef("--after names the value of the period column after the start, so it needs --period COL")
+	}
+	if f.unitEffects && f.unit == "" {
+		return usagef("--unit-effects needs --unit COL, the column that names each person or site whose rows are repeated")
 	}
 	if _, err := f.probeValues(); err != nil {
 		return err
@@ -363,7 +394,7 @@ func (f *modelFlags) check() error {
 	default:
 		return usagef("--se must be classical, hc0, hc1, hc2, hc3 or cluster, not %q", f.se)
 	}
-	if f.se == "cluster" && f.cluster == "" {
+	if f.se == "cluster" && f.clusterColumn() == "" {
 		return usagef("--se cluster needs --cluster COL, the column that names each cluster")
 	}
 	if f.cluster != "" && f.se != "" && f.se != "cluster" {
@@ -403,13 +434,13 @@ func (f *modelFlags) check() error {
 func (f *modelFlags) checkBootstrap() error {
 	var idle []string
 	for _, name := range []string{"no-bootstrap", "draws", "seed"} {
-		if f.set[name] && (f.cluster == "" || name != "no-bootstrap" && f.noBootstrap) {
+		if f.set[name] && (f.clusterColumn() == "" || name != "no-bootstrap" && f.noBootstrap) {
 			idle = append(idle, "--"+name)
 		}
 	}
 	if len(idle) > 0 {
 		why := "there is no --cluster, and the wild cluster bootstrap runs only with clusters"
-		if f.cluster != "" {
+		if f.clusterColumn() != "" {
 			why = "--no-bootstrap is given"
 		}
 		verb := "changes"
@@ -422,6 +453,16 @@ func (f *modelFlags) checkBootstrap() error {
 		return usagef("--draws must be a whole number from 99 to %d (the usual choice is %d), not %d", estimate.MaxDraws, estimate.DefaultDraws, f.draws)
 	}
 	return nil
+}
+
+// clusterColumn is the column the errors are clustered by: --cluster,
+// or else --unit unless --se chooses errors that are not clustered
+// (rows of one unit are alike; Bertrand, Duflo & Mullainathan 2004).
+func (f *modelFlags) clusterColumn() string {
+	if f.cluster == "" && (f.se == "" || f.se == "cluster") {
+		return f.unit
+	}
+	return f.cluster
 }
 
 func orText(s, alt string) string {
@@ -498,8 +539,8 @@ func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
 // baseSpec is the spec without its moderator, after checking that every
 // column named, the moderators included, is in the table.
 func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate.Spec, error) {
-	names := append([]string{f.outcome, f.treatment}, moderators...)
-	for _, name := range append(append(names, f.cluster, f.weights), splitList(f.controls)...) {
+	names := append([]string{f.outcome, f.treatment, f.period}, moderators...)
+	for _, name := range append(append(names, f.cluster, f.unit, f.weights), splitList(f.controls)...) {
 		if name != "" && t.Column(name) == nil {
 			return estimate.Spec{}, missingColumn(t, name)
 		}
@@ -507,8 +548,12 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 	s := estimate.Spec{
 		Outcome:           f.outcome,
 		Controls:          splitList(f.controls),
-		Cluster:           f.cluster,
+		Cluster:           f.clusterColumn(),
 		Weights:           f.weights,
+		Period:            f.period,
+		After:             f.after,
+		Unit:              f.unit,
+		UnitEffects:       f.unitEffects,
 		Variance:          seTypes[f.se],
 		Alpha:             f.alpha,
 		Bootstrap:         estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
@@ -518,6 +563,9 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
 	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
 		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
+	}
+	if p := t.Column(f.period); p != nil && f.after == "" && !pipeline.ZeroOne(p) {
+		return s, fmt.Errorf("the period column %q holds %s; say which one means after the programme started with --after VALUE", f.period, strings.Join(pipeline.ValuesOf(p, 8), ", "))
 	}
 	return s, nil
 }
@@ -663,7 +711,10 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	out := report.Summarize(a.Run, a.Result)
 	res := a.Result
 	fmt.Fprintf(w, "%d rows used, %d left out; standard errors %s, %d df.\n\n", out.NUsed, out.NDropped, out.SEType, res.Model.DF)
-	fmt.Fprintf(w, "Effect of %s on %s by %s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column)
+	fmt.Fprintf(w, "Effect of %s on %s by %s%s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column, report.DesignTitle(res))
+	if d := res.Design; d != nil && d.UnitEffects {
+		fmt.Fprintf(w, "Unit effects: %d units of %s; not estimated separately: %s\n", d.Units, d.Unit, strings.Join(d.Absorbed, ", "))
+	}
 	for _, g := range out.Groups {
 		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
 	}

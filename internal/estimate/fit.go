@@ -301,7 +301,11 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, VarianceType, 
 		}
 		if rows != nil {
 			if s.LeverageFallback == "" && ds.within != nil {
-				return nil, "", 0, nil, fail(ErrLeverage, s.Unit, fmt.Sprintf("%s cannot be computed: row %s has leverage 1 (with unit effects, the only row of a unit is fitted perfectly whatever its outcome, and tells nothing about the effect). Leave out the units seen only once, choose CR1, or agree to fall back to HC1.", vt, joinInts(rows)), rows...)
+				which := "row " + joinInts(rows) + " has"
+				if len(rows) > 1 {
+					which = "rows " + joinInts(rows) + " have"
+				}
+				return nil, "", 0, nil, fail(ErrLeverage, s.Unit, fmt.Sprintf("%s cannot be computed: %s leverage 1 (with unit effects, the only row of a unit is fitted perfectly whatever its outcome, and tells nothing about the effect). Leave out the units seen only once, choose CR1, or agree to fall back to HC1.", vt, which), rows...)
 			}
 			if s.LeverageFallback == "" {
 				return nil, "", 0, nil, fail(ErrLeverage, "", fmt.Sprintf("%s cannot be computed: row %s has leverage 1 (the model fits it perfectly whatever its outcome, usually because it is the only row in some group or control category). Merge or remove that category, or agree to fall back to HC1.", vt, joinInts(rows)), rows...)

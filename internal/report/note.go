@@ -19,6 +19,7 @@ import (
 func Note(run Run, res *estimate.Result) string {
 	w := noteWriter{run: run, res: res, u: unitsFor(res.Model.OutcomeBinary)}
 	w.rows()
+	w.designSentences()
 	if res.Moderator.Kind == estimate.ModeratorContinuous {
 		w.continuous()
 	} else {

@@ -32,6 +32,10 @@ type Output struct {
 	// EquivalenceMargin is the smallest difference that matters, when
 	// given; each difference between groups then carries its test.
 	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
+	// Design describes a design other than a single trial (a
+	// before-and-after comparison, units with several rows); left out for
+	// a single trial.
+	Design *OutDesign `json:"design,omitempty"`
 }
 
 // OutBootstrap describes the wild cluster bootstrap of a run.
@@ -249,6 +253,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 		}
 		o.JN = &OutJN{Bounds: bounds, SignificantWhere: significantWhere(jn, res.Moderator.Column)}
 	}
+	o.Design = outDesign(res)
 	o.HeterogeneityNotJudged = outNotJudged(res.HeterogeneityNotJudged, res.Spec.Cluster)
 	o.Linearity = outLinearity(res.Linearity, res.Spec.Cluster)
 	for _, c := range res.Coefficients {
