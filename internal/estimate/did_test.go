@@ -60,17 +60,26 @@ func compareDiDWithR(t *testing.T, dir string) {
 // after (post 1); half the units get the programme (t), a region (text,
 // the unit's own) changes its effect: north 1, south 3, west 2. Each unit
 // has its own level, so unit effects matter.
-func panel(units int, seed uint64) *Data {
+func panel(units int, seed uint64) *Data { return panelYears(units, 2, seed) }
+
+// panelYears is panel with each unit measured in years periods, the
+// second half of them after the start.
+func panelYears(units, years int, seed uint64) *Data {
 	rng := rand.New(rand.NewPCG(seed, 2))
 	regions := []string{"north", "south", "west"}
 	effect := map[string]float64{"north": 1, "south": 3, "west": 2}
-	var y, t, post, unit, site, age []float64
-	var region []string
+	n := units * years
+	y, t, post, unit, site, age := make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n), make([]float64, 0, n)
+	region := make([]string, 0, n)
 	for u := 0; u < units; u++ {
 		level := 2 * rng.NormFloat64()
 		ti := float64(rng.IntN(2))
 		reg := regions[rng.IntN(3)]
-		for p := 0.0; p <= 1; p++ {
+		for yr := 0; yr < years; yr++ {
+			p := 0.0
+			if yr >= years/2 {
+				p = 1
+			}
 			a := 30 + 10*rng.Float64()
 			y = append(y, 10+level+0.5*ti+1.5*p+effect[reg]*ti*p+0.1*a+rng.NormFloat64())
 			t = append(t, ti)
@@ -243,6 +252,7 @@ func TestFitStreamDiD(t *testing.T) {
 		change func(*Spec)
 	}{
 		"CR1 by unit":               {d, func(*Spec) {}},
+		"unit effects, 6 periods":   {panelYears(300, 6, 9), func(s *Spec) { s.UnitEffects = true }},
 		"HC3":                       {d, func(s *Spec) { s.Variance = HC3 }},
 		"labelled period, by site":  {labels, func(s *Spec) { s.Period, s.After, s.Cluster = "year", "2024", "site" }},
 		"unit effects":              {d, func(s *Spec) { s.UnitEffects = true }},
