@@ -64,7 +64,7 @@ save-trials: build
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:
-	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR|TestEquivalenceAgainstR|TestDiDAgainstR' -v
+	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR|TestEquivalenceAgainstR|TestDiDAgainstR|TestArmsAgainstR' -v
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x

@@ -56,6 +56,12 @@ Roles:
   --outcome COL            the result measured for each row
   --treatment COL          who received the programme: 0/1, two labels, or an amount
   --treated LABEL          the label that means treated, for a treatment of two labels
+  --control-arm LABEL      the comparison arm, for a treatment of several arms
+                           (a waiting list beside coaching and coaching with a
+                           stipend): each other arm's effect is reported in
+                           every group, with its own test that it is the same
+                           in all groups (Holm-adjusted over the arms) and a
+                           joint test
   --moderator COL          the column whose groups or values are compared
   --moderator-type T       binary, category or number (detected when left out:
                            text → category, two values → binary, numbers → number)
@@ -246,6 +252,8 @@ type modelFlags struct {
 	// value after the start, the unit column and its effects.
 	period, after, unit string
 	unitEffects         bool
+	// controlArm names the comparison arm of a treatment of several arms.
+	controlArm string
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -337,6 +345,7 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.after, "after", "", "")
 	fs.StringVar(&f.unit, "unit", "", "")
 	fs.BoolVar(&f.unitEffects, "unit-effects", false, "")
+	fs.StringVar(&f.controlArm, "control-arm", "", "")
 	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
 		return nil, err
 	}
@@ -364,6 +373,9 @@ func (f *analyzeFlags) check() error {
 	}
 	if f.after != "" && f.period == "" {
 		return usagef("--after names the value of the period column after the start, so it needs --period COL")
+	}
+	if f.controlArm != "" && f.treated != "" {
+		return usagef("--control-arm names the comparison arm of a treatment of several arms, and --treated the treated label of two; give one of them")
 	}
 	if f.unitEffects && f.unit == "" {
 		return usagef("--unit-effects needs --unit COL, the column that names each person or site whose rows are repeated")
@@ -561,6 +573,12 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 	}
 	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
 		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
+	if f.controlArm != "" {
+		s.Treatment = estimate.Treatment{Column: f.treatment, Kind: estimate.TreatmentArms, Control: f.controlArm}
+	}
+	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" && len(t.Column(f.treatment).Levels) > 2 {
+		return s, fmt.Errorf("the treatment %q holds %d arms (%s); name the comparison arm with --control-arm LABEL", f.treatment, len(t.Column(f.treatment).Levels), strings.Join(pipeline.ValuesOf(t.Column(f.treatment), 8), ", "))
+	}
 	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
 		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
 	}
@@ -716,18 +734,27 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 		fmt.Fprintf(w, "Unit effects: %d units of %s; not estimated separately: %s\n", d.Units, d.Unit, strings.Join(d.Absorbed, ", "))
 	}
 	for _, g := range out.Groups {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", armed(g.Arm, g.Label), g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
 	}
 	fmt.Fprintln(w, "Differences:")
 	for _, d := range out.Differences {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", d.Label, d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", armed(d.Arm, d.Label), d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
+	}
+	for _, a := range out.Arms {
+		if h := a.Heterogeneity; h != nil {
+			fmt.Fprintf(w, "Same effect of %s in every group? F = %.4g on %d and %g df, p = %.3g, Holm p = %.3g\n", a.Arm, h.F, h.DF1, h.DF2, h.P, a.HolmP)
+		}
 	}
 	if h := out.Heterogeneity; h != nil {
 		boot := ""
 		if h.PBoot != nil {
 			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
 		}
-		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g%s\n", h.F, h.DF1, h.DF2, h.P, boot)
+		what := "Same effect in every group?"
+		if out.Arms != nil {
+			what = "Same effect of every arm in every group?"
+		}
+		fmt.Fprintf(w, "%s F = %.4g on %d and %g df, p = %.3g%s\n", what, h.F, h.DF1, h.DF2, h.P, boot)
 	} else if nj := out.HeterogeneityNotJudged; nj != nil {
 		fmt.Fprintf(w, "Same effect in every group? %s\n", nj.Reason)
 	}
@@ -735,6 +762,14 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)
 	}
 	fmt.Fprintf(w, "\n%s\n", out.Note)
+}
+
+// armed puts the arm before a label, with several arms.
+func armed(arm, label string) string {
+	if arm == "" {
+		return label
+	}
+	return arm + ": " + label
 }
 
 // bootText writes the bootstrap's p-value and interval for a terminal.

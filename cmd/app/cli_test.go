@@ -273,10 +273,15 @@ func TestJSONAgainstR(t *testing.T) {
 	for name, values := range readReference(t, "did.txt") {
 		ref[name] = values
 	}
+	// The three-arm case of testdata/r/make_arms.R, in arms.txt.
+	for name, values := range readReference(t, "arms.txt") {
+		ref[name] = values
+	}
 	cases := []struct {
 		name, file, vtype string
 		args              []string
 	}{
+		{"arms3", "arms.csv", "HC3", []string{"--outcome", "earnings", "--treatment", "arm", "--control-arm", "waitlist", "--moderator", "region", "--controls", "age"}},
 		{"did_cat", "did_panel.csv", "CR1", []string{"--outcome", "earnings", "--treatment", "programme", "--treated", "coached", "--period", "year", "--after", "2024",
 			"--unit", "person", "--cluster", "site", "--moderator", "region", "--no-bootstrap"}},
 		{"did_cat", "did_panel.csv", "HC3", []string{"--outcome", "earnings", "--treatment", "programme", "--treated", "coached", "--period", "year", "--after", "2024",
@@ -331,8 +336,14 @@ func TestJSONAgainstR(t *testing.T) {
 				}
 				return label
 			}
+			arm := func(a string) string {
+				if a == "" {
+					return ""
+				}
+				return a + "|"
+			}
 			for _, g := range o.Groups {
-				k := "effect[" + key(g.Label) + "]"
+				k := "effect[" + arm(g.Arm) + key(g.Label) + "]"
 				near(g.Label+" estimate", g.Estimate, k+".est")
 				near(g.Label+" se", g.SE, k+".se")
 				near(g.Label+" ci_low", g.CILow, k+".lo")
@@ -345,12 +356,19 @@ func TestJSONAgainstR(t *testing.T) {
 					k = "diff[unit]"
 				} else {
 					to, from, _ := strings.Cut(d.Label, " vs ")
-					k = "diff[" + key(from) + "|" + key(to) + "]"
+					k = "diff[" + arm(d.Arm) + key(from) + "|" + key(to) + "]"
 				}
 				near(d.Label+" estimate", d.Estimate, k+".est")
 				near(d.Label+" se", d.SE, k+".se")
 				near(d.Label+" p", d.P, k+".p")
 				near(d.Label+" mdd", d.MDD, k+".mdd")
+			}
+			for _, a := range o.Arms {
+				near(a.Arm+" F", a.Heterogeneity.F, "armhet["+a.Arm+"].F")
+				near(a.Arm+" Holm p", a.HolmP, "armhet["+a.Arm+"].holm")
+			}
+			if (c.name == "arms3") != (len(o.Arms) == 2) {
+				t.Errorf("%d arms in the JSON", len(o.Arms))
 			}
 			near("F", o.Heterogeneity.F, "het.F")
 			near("F p", o.Heterogeneity.P, "het.p")
@@ -1053,11 +1071,13 @@ func TestBeforeAfterCommand(t *testing.T) {
 	}{
 		{with("--after", "1"), exitUsage, "--after names the value of the period column after the start, so it needs --period COL"},
 		{with("--unit-effects"), exitUsage, "--unit-effects needs --unit COL"},
+		{with("--control-arm", "0", "--treated", "1"), exitUsage, "give one of them"},
 		{with("--period", "when"), exitData, `has no column "when"`},
 		{with("--period", "year"), exitData, `the period column "year" holds "2023", "2024"; say which one means after the programme started with --after VALUE`},
 		{with("--period", "year", "--after", "2025"), exitData, `The value "2025", chosen as after, does not appear in the period column "year"`},
 		{with("--period", "post", "--unit", "weight", "--unit-effects", "--se", "hc3"), exitData, "and 20 more have leverage 1 (with unit effects, the only row of a unit"},
 		{[]string{"screen", csv, "--outcome", "earnings", "--treatment", "coached", "--moderators", "region,high", "--period", "post"}, exitUsage, "--period is an option of analyze"},
+		{[]string{"screen", csv, "--outcome", "earnings", "--treatment", "coached", "--moderators", "region,high", "--control-arm", "0"}, exitUsage, "--control-arm is an option of analyze"},
 	} {
 		code, _, errs := runCLI(t, c.args...)
 		if code != c.code || !strings.Contains(errs, c.words) {
@@ -1088,5 +1108,37 @@ func TestBeforeAfterCommand(t *testing.T) {
 	}
 	if !strings.Contains(errs, "(difference in differences: after = post = 1, against before)") || !strings.Contains(errs, "Unit effects: 78 units of person; not estimated separately: coached, region = East") {
 		t.Errorf("the summary does not name the design:\n%s", errs)
+	}
+}
+
+// TestSeveralArmsCommand: a treatment of three arms needs its comparison
+// arm named; with it, every effect and difference names its arm, in the
+// summary, the JSON and the note.
+func TestSeveralArmsCommand(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "arms.csv"))
+	base := []string{"analyze", csv, "--outcome", "earnings", "--treatment", "arm", "--moderator", "region", "--dry-run"}
+	code, _, errs := runCLI(t, base...)
+	if code != exitData || !strings.Contains(errs, `the treatment "arm" holds 3 arms ("coaching", "stipend", "waitlist"); name the comparison arm with --control-arm LABEL`) {
+		t.Errorf("exit %d: %s", code, errs)
+	}
+	code, out, errs := runCLI(t, append(base, "--control-arm", "waitlist", "--json", "--randomized")...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	if len(o.Groups) != 6 || o.Groups[0].Arm != "coaching" || o.Groups[5].Arm != "stipend" || o.Differences[0].Arm != "coaching" || len(o.Arms) != 2 {
+		t.Errorf("groups %+v, arms %+v", o.Groups, o.Arms)
+	}
+	for _, words := range []string{`The treatment "arm" has 2 arms besides the comparison arm "waitlist"`, `The estimated effect of "stipend" against "waitlist" on earnings was`,
+		"after Holm's adjustment over the 2 arms", "Testing whether any arm's effect differs between groups at all"} {
+		if !strings.Contains(o.Note, words) {
+			t.Errorf("the note does not say %q:\n%s", words, o.Note)
+		}
+	}
+	if !strings.Contains(errs, "stipend: South vs North") || !strings.Contains(errs, "Same effect of coaching in every group?") {
+		t.Errorf("the summary does not name the arms:\n%s", errs)
 	}
 }

@@ -50,7 +50,7 @@ type screenFlags struct {
 var analyzeOnly = []string{"moderator", "moderator-type", "reference", "moderator-values", "center"}
 
 // analyzeDesign are analyze's options of a before-and-after design.
-var analyzeDesign = []string{"period", "after", "unit", "unit-effects"}
+var analyzeDesign = []string{"period", "after", "unit", "unit-effects", "control-arm"}
 
 func parseScreen(args []string, stdout io.Writer) (*screenFlags, error) {
 	for _, a := range args {
@@ -65,7 +65,7 @@ func parseScreen(args []string, stdout io.Writer) (*screenFlags, error) {
 		name, _, _ := strings.Cut(strings.TrimLeft(a, "-"), "=")
 		for _, only := range analyzeDesign {
 			if strings.HasPrefix(a, "-") && name == only {
-				return nil, usagef("--%s is an option of analyze, for a before-and-after comparison; screen compares moderators of a single trial only", only)
+				return nil, usagef("--%s is an option of analyze, for a before-and-after comparison or several arms; screen compares moderators of a single two-arm trial only", only)
 			}
 		}
 	}

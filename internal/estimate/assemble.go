@@ -61,10 +61,13 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 		res.Coefficients = append(res.Coefficients, Coefficient{Term: ds.names[i], Role: ds.roles[i], Inference: in.combo(a)})
 	}
 
-	if ds.modValue != nil {
+	switch {
+	case ds.modValue != nil:
 		ds.continuousEffects(s, in, res)
-	} else {
-		ds.groupEffects(s, in, res, facts)
+	case ds.arms != nil:
+		ds.armEffects(s, in, res, facts)
+	default:
+		ds.groupEffectsOf(s, in, res, facts, ds.tCol, ds.iCols)
 	}
 	if nj := judgeJoint(len(ds.iCols), len(ds.clusterLabels)); nj != nil {
 		res.HeterogeneityNotJudged = nj
@@ -228,9 +231,11 @@ func (rh *rowHash) sum() string {
 	return hex.EncodeToString(rh.h.Sum(nil))
 }
 
-// groupEffects fills the effects and differences of a binary or
-// categorical moderator: θ(level) = b1 + b3[level] (METHODS §4).
-func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFacts) {
+// groupEffectsOf fills the effects and differences of a binary or
+// categorical moderator: θ(level) = b1 + b3[level] (METHODS §4), b1 the
+// coefficient of column tCol and b3 those of iCols (one arm's, with
+// several arms).
+func (ds *design) groupEffectsOf(s Spec, in *inferencer, res *Result, facts *rowFacts, tCol int, iCols []int) {
 	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Levels: ds.levels, Reference: ds.levels[ds.ref]}
 	binaryT := s.Treatment.Kind != TreatmentContinuous
 	// icol[level] is the interaction column of the level, −1 for the reference.
@@ -241,7 +246,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 			icol[j] = -1
 			continue
 		}
-		icol[j] = ds.iCols[next]
+		icol[j] = iCols[next]
 		next++
 	}
 	rows, treated := facts.rows, facts.treated
@@ -254,7 +259,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 	}
 	for _, j := range order {
 		a := make([]float64, ds.k)
-		a[ds.tCol] = 1
+		a[tCol] = 1
 		if icol[j] >= 0 {
 			a[icol[j]] = 1
 		}

@@ -608,6 +608,21 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 			h.PBoot = &p
 		}
 	}
+	for a := range res.Arms {
+		// Each arm's test, the same restricted bootstrap of its Wald
+		// statistic; then Holm over the arms again, on these p-values.
+		if h := res.Arms[a].Heterogeneity; h != nil {
+			if p, ok := w.wald(ds.arms[a].iCols, f.coef, h.F); ok {
+				h.PBoot = &p
+			}
+		}
+	}
+	if res.Arms != nil {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		adjustArms(res)
+	}
 	step()
 	if lin != nil {
 		// The check of the line: the same restricted bootstrap of the

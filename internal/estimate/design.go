@@ -60,6 +60,12 @@ type design struct {
 	counts   []DropCount
 
 	treat []float64 // T of each used row
+	// A treatment of several arms (METHODS §11): each used row's arm, 0
+	// for the comparison arm, j for armLabels[j−1]; and each arm's
+	// columns.
+	arm       []int
+	armLabels []string
+	arms      []armTerms
 	// period is P of each used row (1 after the start), nil unless the
 	// design is a difference in differences; gCol and pCol are then the
 	// columns of T and P, and tCol that of T·P.
@@ -207,7 +213,7 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	if err != nil {
 		return nil, err
 	}
-	treat, err := get(s.Treatment.Column, "treatment", s.Treatment.Kind != TreatmentLabels)
+	treat, err := get(s.Treatment.Column, "treatment", !s.Treatment.labelled())
 	if err != nil {
 		return nil, err
 	}
@@ -387,6 +393,8 @@ func (ds *design) readTreatment(d *Data, s Spec, c *Column) error {
 		if bad != nil {
 			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q should hold only 0 (untreated) and 1 (treated), but row %d holds %s (%d rows in all). If it is a dose or amount, choose the kind \"continuous\"; otherwise correct those cells.", c.Name, bad[0], formatNumber(first), len(bad)), bad...)
 		}
+	case TreatmentArms:
+		return ds.readArms(d, s, c)
 	case TreatmentLabels:
 		treated := s.Treatment.Treated
 		var err error
@@ -545,7 +553,7 @@ func (ds *design) readPeriod(d *Data, s Spec, c *Column) error {
 	}
 	var err error
 	ds.period, err = ds.twoLabels(c, func(labels []string) (string, bool) {
-		return periodAfter(labels, s.After)
+		return findLevel(labels, s.After)
 	}, func(labels []string) string {
 		return fmt.Sprintf("The value %q, chosen as after, does not appear in the period column %q among the rows used; its values are %s.", ShortLabel(s.After), c.Name, quoteList(labels))
 	}, func(labels []string) string {
@@ -554,9 +562,10 @@ func (ds *design) readPeriod(d *Data, s Spec, c *Column) error {
 	return err
 }
 
-// periodAfter finds the level named as after; a number matches the same
-// number written otherwise ("2020.0" is "2020").
-func periodAfter(levels []string, after string) (string, bool) {
+// findLevel finds a level named in the spec (the value after the start,
+// the comparison arm); a number matches the same number written otherwise
+// ("2020.0" is "2020").
+func findLevel(levels []string, after string) (string, bool) {
 	for _, l := range levels {
 		if l == after {
 			return l, true
@@ -609,11 +618,24 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 		eff = func(r int) float64 { return ds.treat[r] * ds.period[r] }
 		tName += " × " + pName
 	}
-	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
-		for r := from; r < to; r++ {
-			x[r*k+j] = eff(r)
+	if ds.arm != nil {
+		for a, label := range ds.armLabels {
+			ds.arms = append(ds.arms, armTerms{label: label, tCol: add(armName(s, label), roleTreatment, func(x []float64, j, k, from, to int) {
+				for r := from; r < to; r++ {
+					if ds.arm[r] == a+1 {
+						x[r*k+j] = 1
+					}
+				}
+			})})
 		}
-	})
+		ds.tCol = ds.arms[0].tCol
+	} else {
+		ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
+			for r := from; r < to; r++ {
+				x[r*k+j] = eff(r)
+			}
+		})
+	}
 
 	// mod(r, j) is row r's value of the moderator's column j.
 	var modNames []string
@@ -661,7 +683,23 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			}
 		}
 	}
+	for a := range ds.arms {
+		at := &ds.arms[a]
+		for m, name := range modNames {
+			at.iCols = append(at.iCols, add(armName(s, at.label)+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
+				for r := from; r < to; r++ {
+					if ds.arm[r] == a+1 {
+						x[r*k+j] = mod(r, m)
+					}
+				}
+			}))
+		}
+		ds.iCols = append(ds.iCols, at.iCols...)
+	}
 	for m, name := range modNames {
+		if ds.arm != nil {
+			break
+		}
 		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
 			for r := from; r < to; r++ {
 				x[r*k+j] = eff(r) * mod(r, m)

@@ -190,6 +190,9 @@ func (ds *design) check(d *Data, s Spec) error {
 			return fail(ErrNoContrast, mcol, fmt.Sprintf("The treatment's effect cannot be estimated in every group of %q: %s. Each group needs both treated and untreated rows; merge small groups with a neighbour or leave them out.", mcol, strings.Join(problems, "; ")), rows...)
 		}
 	}
+	if err := ds.checkArms(d, s); err != nil {
+		return err
+	}
 	if ds.n <= ds.k {
 		return fail(ErrTooFewRows, "", fmt.Sprintf("The model has %d terms but only %d rows are used; it needs more rows than terms. Use fewer controls or groups, or more data.", ds.k, ds.n))
 	}

@@ -290,8 +290,15 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		check(prefix+".lo", inf.CILow, own)
 		check(prefix+".hi", inf.CIHigh, own)
 	}
+	// With several arms a key names the arm first: effect[arm|group].
+	armed := func(arm string) string {
+		if arm == "" {
+			return ""
+		}
+		return arm + "|"
+	}
 	for _, e := range res.Effects {
-		inference("effect["+e.Group+"]", e.Inference)
+		inference("effect["+armed(e.Arm)+e.Group+"]", e.Inference)
 		if res.Moderator.Kind == ModeratorContinuous {
 			check("probe["+e.Group+"].value", e.Value, common)
 		}
@@ -306,7 +313,7 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		t.Errorf("%s: %d effects, R has %d", label, len(res.Effects), wantEffects)
 	}
 	for _, d := range res.Differences {
-		key := "diff[" + d.From + "|" + d.To + "]"
+		key := "diff[" + armed(d.Arm) + d.From + "|" + d.To + "]"
 		if d.PerUnit {
 			key = "diff[unit]"
 		}
@@ -320,6 +327,15 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		check("het.df1", float64(res.Heterogeneity.DF1), own)
 		check("het.df2", float64(res.Heterogeneity.DF2), own)
 		check("het.p", res.Heterogeneity.P, own)
+	}
+	for _, a := range res.Arms {
+		if a.Heterogeneity == nil {
+			t.Errorf("%s: no heterogeneity test for arm %s", label, a.Arm)
+			continue
+		}
+		check("armhet["+a.Arm+"].F", a.Heterogeneity.F, own)
+		check("armhet["+a.Arm+"].p", a.Heterogeneity.P, own)
+		check("armhet["+a.Arm+"].holm", a.HolmP, own)
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		check("mod.min", jn.Min, common)

@@ -24,8 +24,12 @@ type Result struct {
 	Heterogeneity *WaldTest     `json:"heterogeneity,omitempty"`
 	// HeterogeneityNotJudged is set instead of Heterogeneity when its
 	// interaction terms outnumber what the clusters can judge (joint.go).
-	HeterogeneityNotJudged *NotJudged     `json:"heterogeneity_not_judged,omitempty"`
-	JohnsonNeyman          *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	HeterogeneityNotJudged *NotJudged `json:"heterogeneity_not_judged,omitempty"`
+	// Arms, with a treatment of several arms (arms.go), says for each
+	// arm whether its effect is the same in every group; Heterogeneity is
+	// then the joint test over every arm.
+	Arms          []ArmResult    `json:"arms,omitempty"`
+	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
 	// Linearity checks a continuous moderator's straight line against the
 	// effect within each third of it; nil for groups, or when the check
 	// could not be made (Notes says why).
@@ -121,9 +125,13 @@ type Bin struct {
 type GroupEffect struct {
 	// Group is the level, or for a continuous moderator a probe label
 	// ("p10" for the 10th percentile, or the value typed).
-	Group     string  `json:"group"`
-	Value     float64 `json:"value,omitempty"`
-	Reference bool    `json:"reference,omitempty"`
+	Group string  `json:"group"`
+	Value float64 `json:"value,omitempty"`
+	// Arm names the arm, with a treatment of several arms; Treated and
+	// Untreated then count the group's rows of the arm and of the
+	// comparison arm.
+	Arm       string `json:"arm,omitempty"`
+	Reference bool   `json:"reference,omitempty"`
 	// Rows used in the group; for a probe, rows whose moderator lies within
 	// 10% of the observed range of the probe value.
 	Rows int `json:"rows"`
@@ -142,8 +150,10 @@ type GroupEffect struct {
 // or for a continuous moderator (PerUnit) the change in the effect per unit
 // of the moderator.
 type Difference struct {
-	From    string `json:"from,omitempty"`
-	To      string `json:"to,omitempty"`
+	From string `json:"from,omitempty"`
+	To   string `json:"to,omitempty"`
+	// Arm names the arm whose effects differ, with several arms.
+	Arm     string `json:"arm,omitempty"`
 	PerUnit bool   `json:"per_unit,omitempty"`
 	// VsReference marks a comparison with the reference group.
 	VsReference bool `json:"vs_reference,omitempty"`

@@ -16,6 +16,9 @@ const (
 	// TreatmentContinuous is a dose or amount; its coefficient is the
 	// change in the outcome per unit.
 	TreatmentContinuous TreatmentKind = "continuous"
+	// TreatmentArms is a column of two or more arms, one of them (Control)
+	// the comparison; each other arm gets its own effect (METHODS §11).
+	TreatmentArms TreatmentKind = "arms"
 )
 
 // ModeratorKind says how the moderator column enters the model.
@@ -52,7 +55,12 @@ type Treatment struct {
 	Kind   TreatmentKind `json:"kind"`
 	// Treated is the label that means "treated" when Kind is TreatmentLabels.
 	Treated string `json:"treated,omitempty"`
+	// Control is the comparison arm when Kind is TreatmentArms.
+	Control string `json:"control,omitempty"`
 }
+
+// labelled reports whether the treatment column is read as labels.
+func (t Treatment) labelled() bool { return t.Kind == TreatmentLabels || t.Kind == TreatmentArms }
 
 // Moderator is the column across whose values the effect may differ.
 type Moderator struct {
@@ -150,6 +158,9 @@ func (s Spec) withDefaults() (Spec, error) {
 		if s.Treatment.Treated != "" {
 			s.Treatment.Kind = TreatmentLabels
 		}
+		if s.Treatment.Control != "" {
+			s.Treatment.Kind = TreatmentArms
+		}
 	}
 	switch {
 	case s.Outcome == "":
@@ -178,6 +189,12 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", fmt.Sprintf("The value %q is named as \"after\" but no period column is chosen. Pick the column that says before or after.", s.After))
 	case s.DiD() && s.Treatment.Kind == TreatmentContinuous:
 		return s, fail(ErrSpec, s.Treatment.Column, "A before-and-after design needs a treatment that marks the units that get the programme (0/1 or two labels), not an amount.")
+	case s.Treatment.Kind == TreatmentArms && s.Treatment.Control == "":
+		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which arm of %q is the comparison (the control group).", s.Treatment.Column))
+	case s.Treatment.Kind == TreatmentArms && s.Moderator.Kind == ModeratorContinuous:
+		return s, fail(ErrSpec, s.Moderator.Column, "A treatment with several arms is compared across the groups of a moderator; a number moderator is not supported with several arms yet. Choose a moderator of groups, or cut the number into groups.")
+	case s.Treatment.Kind == TreatmentArms && s.DiD():
+		return s, fail(ErrSpec, s.Period, "A treatment with several arms measured before and after is not supported yet. Analyse each arm against the comparison group on its own, or leave out the period column.")
 	case s.Treatment.Kind == TreatmentLabels && s.Treatment.Treated == "":
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which label in %q means treated.", s.Treatment.Column))
 	}
@@ -188,9 +205,9 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", fmt.Sprintf("The fallback variance type %q must be classical, HC0 or HC1.", s.LeverageFallback))
 	}
 	switch s.Treatment.Kind {
-	case TreatmentBinary, TreatmentLabels, TreatmentContinuous:
+	case TreatmentBinary, TreatmentLabels, TreatmentContinuous, TreatmentArms:
 	default:
-		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Unknown treatment kind %q; choose binary, labels or continuous.", s.Treatment.Kind))
+		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Unknown treatment kind %q; choose binary, labels, continuous or arms.", s.Treatment.Kind))
 	}
 	switch s.Moderator.Kind {
 	case ModeratorBinary, ModeratorCategorical, ModeratorContinuous:

@@ -79,6 +79,9 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if s.Moderator.Kind == ModeratorContinuous {
 		return nil, needsMemory("a continuous moderator's percentiles need all its values")
 	}
+	if s.Treatment.Kind == TreatmentArms {
+		return nil, needsMemory("a treatment of several arms is fitted in memory")
+	}
 	st := &stream{s: s, parts: make(chan *chunkPart, spareParts)}
 	if err := src.Pass(ctx, func(d *Data, release func()) error {
 		defer release()

@@ -430,7 +430,7 @@ func (st *stream) planPeriod() error {
 	}
 	if s.After != "" {
 		labels := sortedLevels(st.periodCount)
-		after, ok := periodAfter(labels, s.After)
+		after, ok := findLevel(labels, s.After)
 		if !ok || len(labels) != 2 {
 			return needsMemory("the period column's values do not match the spec")
 		}

@@ -2,14 +2,16 @@ package report
 
 import (
 	"fmt"
+	"math"
 
 	"slopewise/internal/estimate"
 )
 
-// The words for designs other than a single trial (METHODS §10): the
-// note's sentences that name the design and its assumption, and the JSON's
-// design field. Kept apart from the note's other sentences so that they
-// can move with the note's layout.
+// The words for designs other than a single trial (METHODS §10, §11): the
+// note's sentences that name the design and its assumption, those of a
+// treatment with several arms, and the JSON's design and arms fields. Kept
+// apart from the note's other sentences so that they can move with the
+// note's layout.
 
 // designSentences name a before-and-after design and the assumption its
 // figures rest on, every time, in words a manager reads; with unit
@@ -108,4 +110,85 @@ func DesignTitle(res *estimate.Result) string {
 		return ""
 	}
 	return fmt.Sprintf(" (difference in differences: after = %s = %s, against before)", res.Design.Period, res.Design.After)
+}
+
+// OutArm is one arm's test that its effect is the same in every group.
+type OutArm struct {
+	Arm  string `json:"arm"`
+	Rows int    `json:"n"`
+	// Heterogeneity is null when the test cannot be computed or judged.
+	Heterogeneity *OutWald `json:"heterogeneity"`
+	// HolmP is its p-value (the bootstrap's when it ran) adjusted by Holm
+	// over the arms.
+	HolmP float64 `json:"holm_p"`
+}
+
+func outArms(res *estimate.Result) []OutArm {
+	var out []OutArm
+	for _, a := range res.Arms {
+		o := OutArm{Arm: a.Arm, Rows: a.Rows, HolmP: a.HolmP}
+		if h := a.Heterogeneity; h != nil {
+			o.Heterogeneity = &OutWald{F: h.F, DF1: h.DF1, DF2: float64(h.DF2), P: h.P, PBoot: h.PBoot}
+		}
+		out = append(out, o)
+	}
+	return out
+}
+
+// armPrefix names an arm before a group or a comparison in a table or a
+// chart: "coaching: ", or "" without arms.
+func armPrefix(arm string) string {
+	if arm == "" {
+		return ""
+	}
+	return arm + ": "
+}
+
+// armSentences cover a treatment of several arms (METHODS §11): each arm
+// against the comparison arm, its effect in every group, whether it is the
+// same in all of them (with Holm's adjustment over the arms) and the
+// smallest difference between groups it could detect; then the joint test.
+func (w *noteWriter) armSentences() {
+	res := w.res
+	t := res.Spec.Treatment
+	m := res.Moderator.Column
+	alpha := res.Model.Alpha
+	w.say("The treatment %q has %d arms besides the comparison arm %q; each is compared with it in every group of %s.", t.Column, len(res.Arms), t.Control, m)
+	for _, a := range res.Arms {
+		var parts []string
+		var mdd float64
+		for _, e := range res.Effects {
+			if e.Arm == a.Arm {
+				parts = append(parts, fmt.Sprintf("%s in %s %q", w.effectText(e), m, e.Group))
+			}
+		}
+		for _, d := range res.Differences {
+			if d.Arm == a.Arm {
+				mdd = math.Max(mdd, d.MDD)
+			}
+		}
+		subject := fmt.Sprintf("the difference in %s associated with %q against %q", res.Spec.Outcome, a.Arm, t.Control)
+		if w.run.Randomized {
+			subject = fmt.Sprintf("the estimated effect of %q against %q on %s", a.Arm, t.Control, res.Spec.Outcome)
+		}
+		w.say("%s was %s.", capitalise(subject), joinAnd(parts))
+		switch h := a.Heterogeneity; {
+		case h != nil:
+			p, boot := heterogeneityP(h)
+			verdict := "the data cannot tell whether it differs between them"
+			if a.HolmP < alpha {
+				verdict = "the data show that it differs between at least some of them"
+			}
+			w.say("Testing whether it is the same in all %d groups gives F = %s (%s; %s after Holm's adjustment over the %d arms): %s.",
+				len(parts), readable(h.F), w.pWords(p, boot), pText(a.HolmP), len(res.Arms), verdict)
+		case a.HeterogeneityNotJudged != nil:
+			w.say("Whether it is the same in all %d groups %s.", len(parts), notJudgedWords(a.HeterogeneityNotJudged, res.Spec.Cluster))
+		}
+		w.say("A difference between groups in this arm's %s would be detected reliably (%s%% power) only if it were about %s or more.", w.what(), strconv100(res.Model.Power), w.u.amount(mdd))
+	}
+	if h := res.Heterogeneity; h != nil {
+		p, boot := heterogeneityP(h)
+		w.say("Testing whether any arm's %s differs between groups at all gives F = %s (%s).", w.what(), readable(h.F), w.pWords(p, boot))
+	}
+	w.say("%s", seWords(res)+".")
 }

@@ -20,13 +20,18 @@ func Note(run Run, res *estimate.Result) string {
 	w := noteWriter{run: run, res: res, u: unitsFor(res.Model.OutcomeBinary)}
 	w.rows()
 	w.designSentences()
-	if res.Moderator.Kind == estimate.ModeratorContinuous {
+	switch {
+	case res.Arms != nil:
+		w.armSentences()
+	case res.Moderator.Kind == estimate.ModeratorContinuous:
 		w.continuous()
-	} else {
+	default:
 		w.groups()
 	}
 	w.equivalence()
-	w.precision()
+	if res.Arms == nil {
+		w.precision()
+	}
 	w.clusterBasis()
 	w.bootstrapSentences()
 	w.moderatorWords()

@@ -207,7 +207,7 @@ func (b *sheetBuilder) effects() {
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
 	for _, e := range res.Effects {
-		label := e.Group
+		label := armPrefix(e.Arm) + e.Group
 		if continuous {
 			label = probeLabel(e)
 		} else if e.Reference {
@@ -267,7 +267,7 @@ func (b *sheetBuilder) differences() {
 	f := numberFormat(vals)
 	rows := [][]Cell{head}
 	for _, d := range res.Differences {
-		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
+		row := []Cell{TextCell(armPrefix(d.Arm) + comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), NumberCell(d.SE, f),
 			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)}
 		if boot {
 			row = append(row, bootCells(d.Boot, f)...)
@@ -327,7 +327,7 @@ func (b *sheetBuilder) equivalence() {
 		if !e.Bounded {
 			lo, hi = TextCell("unbounded"), TextCell("unbounded")
 		}
-		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), lo, hi,
+		rows = append(rows, []Cell{TextCell(armPrefix(d.Arm) + comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), lo, hi,
 			NumberCell(margin, f), PValueCell(e.P), TextCell(yesNo(e.Equivalent))})
 	}
 	how := ""
