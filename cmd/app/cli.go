@@ -91,7 +91,11 @@ Before and after (a difference in differences by group):
                            comparison units. It is the programme's effect only if,
                            without it, both would have moved in parallel
   --after VALUE            the value of --period that means after the start, when
-                           the column holds two labels or other numbers (2023, 2024)
+                           the column holds two labels or other numbers (2023,
+                           2024); with more periods, the first one after the
+                           start: the earlier ones before the last one before
+                           the start (the leads) then show whether the two sets
+                           of units moved in parallel before it
   --unit COL               the person or site each row belongs to, measured more
                            than once; standard errors are clustered by it unless
                            --cluster names a coarser group or --se says otherwise
@@ -746,10 +750,7 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 		}
 	}
 	if h := out.Heterogeneity; h != nil {
-		boot := ""
-		if h.PBoot != nil {
-			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
-		}
+		boot := pBootText(h.PBoot)
 		what := "Same effect in every group?"
 		if out.Arms != nil {
 			what = "Same effect of every arm in every group?"
@@ -758,10 +759,27 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	} else if nj := out.HeterogeneityNotJudged; nj != nil {
 		fmt.Fprintf(w, "Same effect in every group? %s\n", nj.Reason)
 	}
+	if d := out.Design; d != nil && d.Leads != nil {
+		fmt.Fprintf(w, "Before the start (gaps against %s = %s):\n", d.Period, d.Leads.Reference)
+		for _, l := range d.Leads.Leads {
+			fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", l.Label, l.Estimate, l.CILow, l.CIHigh, l.P)
+		}
+		if t := d.Leads.Test; t != nil {
+			fmt.Fprintf(w, "Parallel before the start? F = %.4g on %d and %g df, p = %.3g%s\n", t.F, t.DF1, t.DF2, t.P, pBootText(t.PBoot))
+		}
+	}
 	if b := out.Bootstrap; b != nil {
 		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)
 	}
 	fmt.Fprintf(w, "\n%s\n", out.Note)
+}
+
+// pBootText writes a joint test's bootstrap p-value, if any.
+func pBootText(p *float64) string {
+	if p == nil {
+		return ""
+	}
+	return fmt.Sprintf("; bootstrap p = %.3g", *p)
 }
 
 // armed puts the arm before a label, with several arms.

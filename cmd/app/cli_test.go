@@ -1142,3 +1142,41 @@ func TestSeveralArmsCommand(t *testing.T) {
 		t.Errorf("the summary does not name the arms:\n%s", errs)
 	}
 }
+
+// TestLeadsCommand: a period column of five years, the start in 2023: the
+// leads of 2020 and 2021 against 2022 are in the summary, the JSON (equal
+// to R's, testdata/r/make_did.R, did_leads) and the note.
+func TestLeadsCommand(t *testing.T) {
+	ref := readReference(t, "did.txt")["did_leads"]
+	csv := copyFile(t, filepath.Join(rDir, "did_leads.csv"))
+	code, out, errs := runCLI(t, "analyze", csv, "--outcome", "earnings", "--treatment", "coached", "--period", "year", "--after", "2023",
+		"--unit", "person", "--moderator", "region", "--controls", "hours", "--dry-run", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	l := o.Design.Leads
+	if l == nil || l.Reference != "2022" || len(l.Leads) != 2 || l.Test == nil || l.Contradicts {
+		t.Fatalf("leads %+v", l)
+	}
+	for _, g := range l.Leads {
+		for key, got := range map[string]float64{".est": g.Estimate, ".se": g.SE, ".p": g.P} {
+			// R 4.2.2 lm + sandwich 3.0.2 (make_did.R)
+			if want := ref["CR1 lead["+g.Label+"]"+key]; math.Abs(got-want) > 1e-8*math.Abs(want) {
+				t.Errorf("lead %s%s = %.17g, R gives %.17g", g.Label, key, got, want)
+			}
+		}
+	}
+	if want := ref["CR1 leads.F"]; math.Abs(l.Test.F-want) > 1e-8*want {
+		t.Errorf("leads F = %.17g, R gives %.17g", l.Test.F, want)
+	}
+	if !strings.Contains(o.Note, "measured against their gap in year 2022 (the last period before the start)") || !strings.Contains(o.Note, "do not contradict common trends") {
+		t.Errorf("the note:\n%s", o.Note)
+	}
+	if !strings.Contains(errs, "Parallel before the start? F = ") {
+		t.Errorf("the summary:\n%s", errs)
+	}
+}

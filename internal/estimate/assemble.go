@@ -69,6 +69,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	default:
 		ds.groupEffectsOf(s, in, res, facts, ds.tCol, ds.iCols)
 	}
+	res.Leads = ds.leadsCheck(s, in)
 	if nj := judgeJoint(len(ds.iCols), len(ds.clusterLabels)); nj != nil {
 		res.HeterogeneityNotJudged = nj
 	} else if w, ok := in.wald(ds.iCols); ok {

@@ -623,6 +623,17 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 		}
 		adjustArms(res)
 	}
+	if lc := res.Leads; lc != nil && lc.Test != nil {
+		// The leads' test, the same restricted bootstrap of its Wald
+		// statistic, which then decides Contradicts.
+		if p, ok := w.wald(ds.leadCols, f.coef, lc.Test.F); ok {
+			lc.Test.PBoot = &p
+			lc.Contradicts = p < s.Alpha
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+	}
 	step()
 	if lin != nil {
 		// The check of the line: the same restricted bootstrap of the

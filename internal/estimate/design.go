@@ -71,6 +71,14 @@ type design struct {
 	// columns of T and P, and tCol that of T·P.
 	period     []float64
 	gCol, pCol int
+	// With more than two periods (leads.go): each used row's period,
+	// the periods in level order, the last one before the start (the
+	// reference), and the leads' columns and periods.
+	periodLevel  []int
+	periodLevels []string
+	refPeriod    int
+	leadCols     []int
+	leadLevels   []int
 
 	// Binary or categorical moderator.
 	levels   []string
@@ -551,6 +559,9 @@ func (ds *design) readPeriod(d *Data, s Spec, c *Column) error {
 		}
 		return nil
 	}
+	if many, err := ds.readPeriods(c, s); many || err != nil {
+		return err
+	}
 	var err error
 	ds.period, err = ds.twoLabels(c, func(labels []string) (string, bool) {
 		return findLevel(labels, s.After)
@@ -581,13 +592,16 @@ func findLevel(levels []string, after string) (string, bool) {
 	return "", false
 }
 
+// fill writes a term's column j of the row-major n×k matrix x for rows
+// from to to (assemble).
+type fill func(x []float64, j, k, from, to int)
+
 // assemble writes the model matrix: intercept, treatment, moderator,
 // treatment × moderator, controls (METHODS §1). Each term is a function
 // that fills its column of the row-major matrix for a range of rows; the
 // matrix is filled a block of rows at a time, so that the block stays in
 // cache while each term writes its column of it, the blocks in parallel.
 func (ds *design) assemble(s Spec, controls []roleColumn) {
-	type fill func(x []float64, j, k, from, to int)
 	var fills []fill
 	add := func(name, role string, f fill) int {
 		ds.names = append(ds.names, name)
@@ -614,7 +628,12 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 	if ds.period != nil {
 		pName := periodName(s)
 		ds.gCol = add(tName, roleGroup, column(ds.treat))
-		ds.pCol = add(pName, rolePeriod, column(ds.period))
+		if ds.periodLevels != nil {
+			ds.pCol = -1
+			pName = ds.addPeriods(s, add)
+		} else {
+			ds.pCol = add(pName, rolePeriod, column(ds.period))
+		}
 		eff = func(r int) float64 { return ds.treat[r] * ds.period[r] }
 		tName += " × " + pName
 	}
@@ -635,6 +654,9 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 				x[r*k+j] = eff(r)
 			}
 		})
+	}
+	if ds.periodLevels != nil {
+		ds.addLeads(s, add)
 	}
 
 	// mod(r, j) is row r's value of the moderator's column j.

@@ -28,6 +28,10 @@ func didCases() []rCase {
 			Period: "post", Moderator: Moderator{Column: "score", Kind: ModeratorContinuous}, Controls: []string{"age"}, Weights: "weight", Unit: "person"}},
 		{"did_fe", "did_panel.csv", Spec{Outcome: "earnings", Treatment: Treatment{Column: "coached"},
 			Period: "post", Moderator: Moderator{Column: "region", Kind: ModeratorCategorical}, Controls: []string{"age"}, Unit: "person", UnitEffects: true}},
+		{"did_leads", "did_leads.csv", Spec{Outcome: "earnings", Treatment: Treatment{Column: "coached"}, Period: "year", After: "2023",
+			Moderator: Moderator{Column: "region", Kind: ModeratorCategorical}, Controls: []string{"hours"}, Unit: "person"}},
+		{"did_leads_fe", "did_leads.csv", Spec{Outcome: "earnings", Treatment: Treatment{Column: "coached"}, Period: "year", After: "2023",
+			Moderator: Moderator{Column: "region", Kind: ModeratorCategorical}, Controls: []string{"hours"}, Unit: "person", UnitEffects: true}},
 		{"did_fe_w", "did_panel.csv", Spec{Outcome: "earnings", Treatment: Treatment{Column: "coached"},
 			Period: "post", Moderator: bin, Weights: "weight", Cluster: "site", Unit: "person", UnitEffects: true}},
 	}
@@ -49,7 +53,7 @@ func compareDiDWithR(t *testing.T, dir string) {
 		}
 		s.Bootstrap.Off = true
 	})
-	if checked < 3000 {
+	if checked < 5000 {
 		t.Errorf("only %d reference values compared", checked)
 	}
 	t.Logf("%d reference values compared with R", checked)
@@ -188,11 +192,11 @@ func TestDiDRefusals(t *testing.T) {
 		{"one period", set("post", func(_ *Data, i int, c *Column) { c.Num[i] = 1 }), nil, ErrConstant, "post", "Every row used is from after the start"},
 		{"not 0/1", set("post", func(_ *Data, i int, c *Column) { c.Num[i] *= 2 }), nil, ErrValues, "post", "should hold only 0"},
 		{"after missing", set("post", func(*Data, int, *Column) {}), func(s *Spec) { s.After = "2024" }, ErrValues, "post", `"2024", chosen as after, does not appear`},
-		{"three periods", set("post", func(_ *Data, i int, c *Column) {
+		{"after the earliest period", set("post", func(_ *Data, i int, c *Column) {
 			if i == 0 {
 				c.Num[i] = 2
 			}
-		}), func(s *Spec) { s.After = "1" }, ErrValues, "post", "needs exactly two"},
+		}), func(s *Spec) { s.After = "0" }, ErrValues, "post", "is the earliest of the period column"},
 		{"south's programme units lack rows after", set("y", func(d *Data, i int, c *Column) {
 			if d.col("region").Text[i] == "south" && d.col("t").Num[i] == 1 && d.col("post").Num[i] == 1 {
 				c.Num[i] = math.NaN()
@@ -308,4 +312,22 @@ func TestFitStreamUnitEffectsLarge(t *testing.T) {
 		t.Fatal(err)
 	}
 	compareResults(t, "200,000 rows", got, want)
+}
+
+// TestLeadsHandedBack: a period column of more than two values is fitted
+// in memory; the pipeline then reads the file whole.
+func TestLeadsHandedBack(t *testing.T) {
+	d := loadCSV(t, filepath.Join(rDir, "did_leads.csv"))
+	s := Spec{Outcome: "earnings", Treatment: Treatment{Column: "coached"}, Period: "year", After: "2023",
+		Moderator: Moderator{Column: "region", Kind: ModeratorCategorical}, Unit: "person"}
+	if _, err := FitStream(context.Background(), &sliced{d: d, size: 100}, s); !errors.Is(err, ErrNeedsMemory) {
+		t.Errorf("the streamed fit gives %v", err)
+	}
+	res, err := Fit(d, s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Leads == nil || len(res.Leads.Leads) != 2 || res.Leads.Reference != "2022" {
+		t.Errorf("leads %+v", res.Leads)
+	}
 }

@@ -328,6 +328,17 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		check("het.df2", float64(res.Heterogeneity.DF2), own)
 		check("het.p", res.Heterogeneity.P, own)
 	}
+	if lc := res.Leads; lc != nil {
+		for _, l := range lc.Leads {
+			inference("lead["+l.Period+"]", l.Inference)
+		}
+		if lc.Test == nil {
+			t.Errorf("%s: no test of the leads", label)
+		} else {
+			check("leads.F", lc.Test.F, own)
+			check("leads.p", lc.Test.P, own)
+		}
+	}
 	for _, a := range res.Arms {
 		if a.Heterogeneity == nil {
 			t.Errorf("%s: no heterogeneity test for arm %s", label, a.Arm)

@@ -28,7 +28,10 @@ type Result struct {
 	// Arms, with a treatment of several arms (arms.go), says for each
 	// arm whether its effect is the same in every group; Heterogeneity is
 	// then the joint test over every arm.
-	Arms          []ArmResult    `json:"arms,omitempty"`
+	Arms []ArmResult `json:"arms,omitempty"`
+	// Leads, in a before-and-after design with more than one period
+	// before the start, checks common trends (leads.go).
+	Leads         *LeadsCheck    `json:"leads,omitempty"`
 	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
 	// Linearity checks a continuous moderator's straight line against the
 	// effect within each third of it; nil for groups, or when the check

@@ -431,6 +431,9 @@ func (st *stream) planPeriod() error {
 	if s.After != "" {
 		labels := sortedLevels(st.periodCount)
 		after, ok := findLevel(labels, s.After)
+		if len(labels) > 2 {
+			return needsMemory("more than one period before or after the start: the periods' terms and the leads are fitted in memory")
+		}
 		if !ok || len(labels) != 2 {
 			return needsMemory("the period column's values do not match the spec")
 		}

@@ -184,9 +184,23 @@ func (ds *design) keepColumns(s Spec, w *within) error {
 	}
 	ds.tCol = index[ds.tCol]
 	if ds.period != nil {
-		ds.gCol, ds.pCol = index[ds.gCol], index[ds.pCol]
+		ds.gCol = index[ds.gCol]
+		if ds.pCol >= 0 {
+			ds.pCol = index[ds.pCol]
+		}
 	}
 	ds.mCols, ds.iCols = remap(ds.mCols), remap(ds.iCols)
+	if ds.leadCols != nil {
+		// A lead the unit effects absorb (a period with no unit of the
+		// programme) leaves the check with the others.
+		var levels []int
+		for l, j := range ds.leadCols {
+			if index[j] >= 0 {
+				levels = append(levels, ds.leadLevels[l])
+			}
+		}
+		ds.leadCols, ds.leadLevels = remap(ds.leadCols), levels
+	}
 	ds.k = len(w.keep)
 	return nil
 }

@@ -31,9 +31,19 @@ func DesignWords(res *estimate.Result) []string {
 	var out []string
 	say := func(format string, args ...any) { out = append(out, fmt.Sprintf(format, args...)) }
 	if d.Kind == estimate.BeforeAfter {
-		say("This is a before-and-after comparison (a difference in differences): each group's figure is how much more %s changed from before the start to after it (%s = %s) among the units in the programme than among the comparison units.",
-			res.Spec.Outcome, d.Period, d.After)
-		say("It is the programme's effect only if, without the programme, both sets of units' %s would have moved in parallel (common trends); with one period before the start, the data cannot check that, so it rests on what is known about how the units were chosen.", res.Spec.Outcome)
+		after := fmt.Sprintf("%s = %s", d.Period, d.After)
+		if res.Leads != nil {
+			after = fmt.Sprintf("%s %s on, against %s %s", d.Period, d.After, d.Period, res.Leads.Reference)
+		}
+		say("This is a before-and-after comparison (a difference in differences): each group's figure is how much more %s changed from before the start to after it (%s) among the units in the programme than among the comparison units.",
+			res.Spec.Outcome, after)
+		assumption := fmt.Sprintf("It is the programme's effect only if, without the programme, both sets of units' %s would have moved in parallel (common trends)", res.Spec.Outcome)
+		if res.Leads == nil || len(res.Leads.Leads) == 0 {
+			say("%s; with one period before the start, the data cannot check that, so it rests on what is known about how the units were chosen.", assumption)
+		} else {
+			say("%s.", assumption)
+			out = append(out, leadsWords(res)...)
+		}
 	}
 	if d.UnitEffects {
 		absorbed := "nothing else"
@@ -44,6 +54,35 @@ func DesignWords(res *estimate.Result) []string {
 	}
 	if d.Unit != "" && res.Spec.Cluster == "" {
 		say("The rows of one unit of %s were not allowed to be alike: with several rows a unit, standard errors that ignore it are usually too small (Bertrand, Duflo & Mullainathan 2004); choose cluster-robust errors by %s.", quoted(d.Unit), quoted(d.Unit))
+	}
+	return out
+}
+
+// leadsWords say what the periods before the start show of common
+// trends: each lead, and whether their joint test contradicts them.
+func leadsWords(res *estimate.Result) []string {
+	lc := res.Leads
+	u := unitsFor(res.Model.OutcomeBinary)
+	var parts []string
+	for _, l := range lc.Leads {
+		parts = append(parts, fmt.Sprintf("%s in %s %s", u.amount(l.Estimate), res.Spec.Period, l.Period))
+	}
+	out := []string{fmt.Sprintf("Before the start, the gap between the programme's units and the comparison units, measured against their gap in %s %s (the last period before the start), was %s (the leads).",
+		res.Spec.Period, lc.Reference, joinAnd(parts))}
+	switch t := lc.Test; {
+	case t != nil:
+		p, boot := heterogeneityP(t)
+		ptext := pText(p)
+		if boot {
+			ptext = "bootstrap " + ptext
+		}
+		if lc.Contradicts {
+			out = append(out, fmt.Sprintf("Testing that all of them are zero gives F = %s (%s): the data before the start contradict common trends, so the figures above may mix the programme's effect with differences in how the units were already changing; read them with great care.", readable(t.F), ptext))
+		} else {
+			out = append(out, fmt.Sprintf("Testing that all of them are zero gives F = %s (%s): the data before the start do not contradict common trends, though they cannot prove that the trends would have stayed parallel after it.", readable(t.F), ptext))
+		}
+	case lc.NotJudged != nil:
+		out = append(out, fmt.Sprintf("Whether they are all zero %s.", notJudgedWords(lc.NotJudged, res.Spec.Cluster)))
 	}
 	return out
 }
@@ -73,6 +112,20 @@ type OutDesign struct {
 	// Cells counts the rows used: comparison units before and after, the
 	// programme's units before and after.
 	Cells *OutCells `json:"cells,omitempty"`
+	// Leads, with more than one period before the start: the check of
+	// common trends.
+	Leads *OutLeads `json:"leads,omitempty"`
+}
+
+// OutLeads is the check of common trends in the periods before the start.
+type OutLeads struct {
+	// Reference is the last period before the start.
+	Reference string     `json:"reference"`
+	Leads     []OutGroup `json:"leads"`
+	// Test is the joint test that every lead is zero; null when it cannot
+	// be computed or judged.
+	Test        *OutWald `json:"test"`
+	Contradicts bool     `json:"contradicts"`
 }
 
 // OutCells counts the rows of a before-and-after design.
@@ -99,6 +152,16 @@ func outDesign(res *estimate.Result) *OutDesign {
 	if d.Kind == estimate.BeforeAfter {
 		o.Assumption = commonTrends
 		o.Cells = &OutCells{ComparisonBefore: d.Cells[0], ComparisonAfter: d.Cells[1], ProgrammeBefore: d.Cells[2], ProgrammeAfter: d.Cells[3]}
+	}
+	if lc := res.Leads; lc != nil {
+		ol := &OutLeads{Reference: lc.Reference, Leads: []OutGroup{}, Contradicts: lc.Contradicts}
+		for _, l := range lc.Leads {
+			ol.Leads = append(ol.Leads, OutGroup{Label: l.Period, Estimate: l.Estimate, SE: l.SE, CILow: l.CILow, CIHigh: l.CIHigh, P: l.P})
+		}
+		if t := lc.Test; t != nil {
+			ol.Test = &OutWald{F: t.F, DF1: t.DF1, DF2: float64(t.DF2), P: t.P, PBoot: t.PBoot}
+		}
+		o.Leads = ol
 	}
 	return o
 }

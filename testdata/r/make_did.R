@@ -8,6 +8,7 @@
 #
 # Writes into outdir:
 #   did_panel.csv  -- invented data (set.seed below; a known truth)
+#   did_leads.csv  -- invented data with five years, three before the start
 #   did.txt        -- "<case> <vtype> <key> <value>", the grammar of
 #                     reference.txt (README.md), so the Go test reads both
 #                     with one reader
@@ -302,6 +303,88 @@ run_case("did_fe", list(y = "earnings", treat = "coached", period = "post",
 run_case("did_fe_w", list(y = "earnings", treat = "coached", period = "post",
   mod = "high", kind = "binary", ref = "0", weights = "weight",
   cluster = "site", unit = "person", fe = TRUE), c("classical", "HC1", "HC3", "CR1"))
+
+## ---------------------------------------------------------------------------
+## More than one period before the start: the leads (METHODS section 10).
+## 60 people measured each year 2020-2024, coached from 2023 on for half of
+## them; the programme's effect 2 in East, 4 elsewhere; no trend of their
+## own before the start.  Columns, in the engine's order:
+##   1, T, D_2020, D_2021, D_2023, D_2024 (2022 the reference: the last year
+##   before the start), T*P, T*D_2020, T*D_2021 (the leads), M..., T*M...,
+##   P*M..., T*P*M..., controls
+## where P = year >= 2023.  Lead[y] = b_{T*D_y}; leads.F tests them all.
+## ---------------------------------------------------------------------------
+set.seed(20261204)
+u2 <- 60
+reg2 <- rep(c("East", "North", "West"), length.out = u2)
+tr2 <- rep(c(0, 1, 1, 1, 0, 0), length.out = u2)
+lvl2 <- rnorm(u2, 0, 2)
+p2 <- expand.grid(u = seq_len(u2), year = 2020:2024)
+p2 <- p2[order(p2$u, p2$year), ]
+after2 <- as.double(p2$year >= 2023)
+dl <- data.frame(person = sprintf("q%02d", p2$u), year = p2$year, coached = tr2[p2$u],
+  region = reg2[p2$u], hours = round(runif(nrow(p2), 10, 40)), stringsAsFactors = FALSE)
+dl$earnings <- round(15 + lvl2[p2$u] + 0.3 * (p2$year - 2020) + 0.05 * dl$hours +
+  ifelse(reg2[p2$u] == "East", 2, 4) * tr2[p2$u] * after2 + rnorm(nrow(p2), 0, 1.2), 2)
+file2 <- file.path(outdir, "did_leads.csv")
+write_exact_csv(dl, file2)
+r2 <- read.csv(file2, stringsAsFactors = FALSE)
+for (v in names(dl)) stopifnot(identical(as.character(dl[[v]]), as.character(r2[[v]])))
+dl <- r2
+
+run_leads <- function(case, fe, vtypes) {
+  y <- dl$earnings; tr <- dl$coached; yr <- dl$year
+  P <- as.double(yr >= 2023)
+  D <- sapply(c(2020, 2021, 2023, 2024), function(v) as.double(yr == v))
+  L <- sapply(c(2020, 2021), function(v) tr * (yr == v))
+  lev <- sort(unique(dl$region), method = "radix")
+  ref <- lev[which.max(tabulate(match(dl$region, lev)))]
+  others <- setdiff(lev, ref)
+  M <- sapply(others, function(l) as.double(dl$region == l))
+  X <- unname(cbind(1, tr, D, tr * P, L, M, tr * M, P * M, tr * P * M, dl$hours))
+  q <- length(others)
+  iT <- 7L; iLead <- 8:9; iTPM <- 9L + 3L * q + seq_len(q)
+  kept <- seq_len(ncol(X)); G_u <- 0
+  if (fe) {
+    kept <- which(apply(X, 2, function(col) any(tapply(col, dl$person, function(v) any(v != v[1])))))
+    G_u <- length(unique(dl$person))
+  }
+  Xk <- X[, kept, drop = FALSE]; k <- ncol(Xk); n <- nrow(Xk)
+  pos <- function(j) match(j, kept)
+  fit <- if (fe) { U <- factor(dl$person, levels = unique(dl$person)); lm(y ~ 0 + Xk + U) } else lm(y ~ 0 + Xk)
+  b <- unname(coef(fit))[seq_len(k)]
+  e <- residuals(fit)
+  stopifnot(fit$df.residual == n - k - G_u)
+  emit(case, "-", "n", n); emit(case, "-", "k", k); emit(case, "-", "dropped", 0)
+  emit(case, "-", "sigma", sqrt(sum(e^2) / (n - k - G_u)))
+  emit(case, "-", "r2", 1 - sum(e^2) / sum((y - mean(y))^2))
+  for (i in seq_len(k)) emit(case, "-", sprintf("coef[%d]", i), b[i])
+  jT <- pos(iT); jTPM <- pos(iTPM); jLead <- pos(iLead)
+  grad <- function(Lv) { g <- numeric(k); g[jT] <- 1; if (Lv != ref) g[jTPM[match(Lv, others)]] <- 1; g }
+  for (vt in vtypes) {
+    V <- unname(as.matrix(switch(vt,
+      classical = vcov(fit), HC1 = vcovHC(fit, type = "HC1"), HC3 = vcovHC(fit, type = "HC3"),
+      CR1 = if (fe) vcovCL(fit, cluster = dl$person, type = "HC0", cadjust = TRUE) * (n - 1) / (n - k)
+            else vcovCL(fit, cluster = dl$person, type = "HC1", cadjust = TRUE))))[seq_len(k), seq_len(k)]
+    df <- if (vt == "CR1") u2 - 1 else n - k - G_u
+    emit(case, vt, "df", df)
+    for (i in seq_len(k)) emit(case, vt, sprintf("se[%d]", i), sqrt(V[i, i]))
+    for (i in seq_len(k)) for (j in seq_len(k)) emit(case, vt, sprintf("vcov[%d,%d]", i, j), V[i, j])
+    for (Lv in lev) emit_lincomb(case, vt, sprintf("effect[%s]", Lv), grad(Lv), b, V, df)
+    ord <- c(ref, others)
+    for (ia in seq_along(ord)) for (ib in seq_along(ord)) if (ia < ib)
+      emit_lincomb(case, vt, sprintf("diff[%s|%s]", ord[ia], ord[ib]), grad(ord[ib]) - grad(ord[ia]), b, V, df, mdd = TRUE)
+    for (l in 1:2) { g <- numeric(k); g[jLead[l]] <- 1
+      emit_lincomb(case, vt, sprintf("lead[%d]", c(2020, 2021)[l]), g, b, V, df) }
+    Fl <- drop(t(b[jLead]) %*% solve(V[jLead, jLead], b[jLead])) / 2
+    emit(case, vt, "leads.F", Fl); emit(case, vt, "leads.p", pf(Fl, 2, df, lower.tail = FALSE))
+    Fh <- drop(t(b[jTPM]) %*% solve(V[jTPM, jTPM], b[jTPM])) / q
+    emit(case, vt, "het.F", Fh); emit(case, vt, "het.df1", q); emit(case, vt, "het.df2", df)
+    emit(case, vt, "het.p", pf(Fh, q, df, lower.tail = FALSE))
+  }
+}
+run_leads("did_leads", FALSE, c("classical", "HC3", "CR1"))
+run_leads("did_leads_fe", TRUE, c("classical", "HC1", "HC3", "CR1"))
 
 writeLines(out, file.path(outdir, "did.txt"), sep = "\n")
 cat(sprintf("make_did.R: %d reference values\n", length(out) - 2))
