@@ -762,7 +762,7 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	if d := out.Design; d != nil && d.Leads != nil {
 		fmt.Fprintf(w, "Before the start (gaps against %s = %s):\n", d.Period, d.Leads.Reference)
 		for _, l := range d.Leads.Leads {
-			fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", l.Label, l.Estimate, l.CILow, l.CIHigh, l.P)
+			fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", armed(l.Arm, l.Label), l.Estimate, l.CILow, l.CIHigh, l.P)
 		}
 		if t := d.Leads.Test; t != nil {
 			fmt.Fprintf(w, "Parallel before the start? F = %.4g on %d and %g df, p = %.3g%s\n", t.F, t.DF1, t.DF2, t.P, pBootText(t.PBoot))

@@ -76,27 +76,38 @@ func (ds *design) readArms(d *Data, s Spec, c *Column) error {
 	return nil
 }
 
-// checkArms refuses groups in which an arm has no rows: its effect there
-// cannot be estimated.
+// checkArms refuses groups in which an arm has no rows (in a
+// before-and-after design, no rows before or after the start): its effect
+// there cannot be estimated.
 func (ds *design) checkArms(d *Data, s Spec) error {
 	if ds.arm == nil || ds.modLevel == nil {
 		return nil
 	}
-	count := make([]int, len(ds.levels)*(len(ds.armLabels)+1))
+	arms := len(ds.armLabels) + 1
+	count := make([]int, len(ds.levels)*arms*2)
 	for r, l := range ds.modLevel {
-		count[l*(len(ds.armLabels)+1)+ds.arm[r]]++
+		p := 0
+		if ds.period != nil {
+			p = int(ds.period[r])
+		}
+		count[(l*arms+ds.arm[r])*2+p]++
 	}
 	var problems []string
 	for l, level := range ds.levels {
-		for a := 0; a <= len(ds.armLabels); a++ {
-			if count[l*(len(ds.armLabels)+1)+a] > 0 {
-				continue
-			}
+		for a := 0; a < arms; a++ {
 			arm := s.Treatment.Control
 			if a > 0 {
 				arm = ds.armLabels[a-1]
 			}
-			problems = append(problems, fmt.Sprintf("group %q has no rows of the arm %q", ShortLabel(level), ShortLabel(arm)))
+			before, after := count[(l*arms+a)*2], count[(l*arms+a)*2+1]
+			switch {
+			case before+after == 0:
+				problems = append(problems, fmt.Sprintf("group %q has no rows of the arm %q", ShortLabel(level), ShortLabel(arm)))
+			case ds.period != nil && before == 0:
+				problems = append(problems, fmt.Sprintf("group %q has no rows of the arm %q before the start", ShortLabel(level), ShortLabel(arm)))
+			case ds.period != nil && after == 0:
+				problems = append(problems, fmt.Sprintf("group %q has no rows of the arm %q after the start", ShortLabel(level), ShortLabel(arm)))
+			}
 		}
 	}
 	if problems != nil {

@@ -34,7 +34,16 @@ func compareArmsWithR(t *testing.T, dir string) {
 		}
 		s.Bootstrap.Off = true
 	})
-	if checked < 1000 {
+	// Several arms before and after, with and without unit effects,
+	// clustered by person (the unit) for CR1.
+	panel := Spec{Outcome: "earnings", Treatment: Treatment{Column: "arm", Control: "waitlist"}, Period: "year", After: "2024",
+		Moderator: Moderator{Column: "region", Kind: ModeratorCategorical}, Unit: "person"}
+	fe := panel
+	fe.UnitEffects = true
+	checked += compareCases(t, ref, dir, []rCase{{"arms_did", "arms_panel.csv", panel}, {"arms_did_fe", "arms_panel.csv", fe}}, func(s *Spec, vt string) {
+		s.Bootstrap.Off = true
+	})
+	if checked < 2500 {
 		t.Errorf("only %d reference values compared", checked)
 	}
 	t.Logf("%d reference values compared with R", checked)
@@ -86,7 +95,6 @@ func TestArmsRefusals(t *testing.T) {
 	}{
 		{"unknown comparison", func(s *Spec) { s.Treatment.Control = "none" }, ErrValues, `The arm "none", chosen as the comparison, does not appear`},
 		{"number moderator", func(s *Spec) { s.Moderator = Moderator{Column: "age", Kind: ModeratorContinuous}; s.Controls = nil }, ErrSpec, "a number moderator is not supported with several arms yet"},
-		{"before and after", func(s *Spec) { s.Period = "age" }, ErrSpec, "several arms measured before and after is not supported yet"},
 		{"an arm missing in a group", func(s *Spec) { s.Outcome = "earnings east without stipend" }, ErrNoContrast, `group "East" has no rows of the arm "stipend"`},
 	} {
 		s := armsCase().spec

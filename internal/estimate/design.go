@@ -79,6 +79,7 @@ type design struct {
 	refPeriod    int
 	leadCols     []int
 	leadLevels   []int
+	leadArms     []int // with several arms: the arm of each lead
 
 	// Binary or categorical moderator.
 	levels   []string
@@ -592,6 +593,13 @@ func findLevel(levels []string, after string) (string, bool) {
 	return "", false
 }
 
+// treatGroup is a group whose effect the model estimates: the treated
+// rows, or one arm; is(r) is 1 for its rows.
+type treatGroup struct {
+	name string
+	is   func(r int) float64
+}
+
 // fill writes a term's column j of the row-major n×k matrix x for rows
 // from to to (assemble).
 type fill func(x []float64, j, k, from, to int)
@@ -614,49 +622,61 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			x[r*k+j] = 1
 		}
 	})
-	tName := treatmentName(s)
-	column := func(v []float64) fill {
+	// The groups whose effect is estimated: the treated rows, or each arm
+	// of several (arms.go), each with its indicator.
+	groups := []treatGroup{{treatmentName(s), func(r int) float64 { return ds.treat[r] }}}
+	if ds.arm != nil {
+		groups = groups[:0]
+		for a, label := range ds.armLabels {
+			groups = append(groups, treatGroup{armName(s, label), func(r int) float64 {
+				if ds.arm[r] == a+1 {
+					return 1
+				}
+				return 0
+			}})
+		}
+	}
+	product := func(f, g func(r int) float64) fill {
 		return func(x []float64, j, k, from, to int) {
 			for r := from; r < to; r++ {
-				x[r*k+j] = v[r]
+				x[r*k+j] = f(r) * g(r)
 			}
 		}
 	}
-	// eff is row r's value of the term whose coefficient is the effect:
-	// T, or in a before-and-after design T·P.
-	eff := func(r int) float64 { return ds.treat[r] }
+	one := func(int) float64 { return 1 }
+	// after is row r's value of the period's after indicator: 1 outside a
+	// before-and-after design, where the effect term is the group itself.
+	after, pName := one, ""
 	if ds.period != nil {
-		pName := periodName(s)
-		ds.gCol = add(tName, roleGroup, column(ds.treat))
+		after = func(r int) float64 { return ds.period[r] }
+		for a, g := range groups {
+			if j := add(g.name, roleGroup, product(g.is, one)); a == 0 {
+				ds.gCol = j
+			}
+		}
+		pName = periodName(s)
 		if ds.periodLevels != nil {
 			ds.pCol = -1
 			pName = ds.addPeriods(s, add)
 		} else {
-			ds.pCol = add(pName, rolePeriod, column(ds.period))
+			ds.pCol = add(pName, rolePeriod, product(after, one))
 		}
-		eff = func(r int) float64 { return ds.treat[r] * ds.period[r] }
-		tName += " × " + pName
 	}
-	if ds.arm != nil {
-		for a, label := range ds.armLabels {
-			ds.arms = append(ds.arms, armTerms{label: label, tCol: add(armName(s, label), roleTreatment, func(x []float64, j, k, from, to int) {
-				for r := from; r < to; r++ {
-					if ds.arm[r] == a+1 {
-						x[r*k+j] = 1
-					}
-				}
-			})})
+	// effName is a group's effect term: the group, or the group × period.
+	effName := func(g treatGroup) string {
+		if pName == "" {
+			return g.name
 		}
-		ds.tCol = ds.arms[0].tCol
-	} else {
-		ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
-			for r := from; r < to; r++ {
-				x[r*k+j] = eff(r)
-			}
-		})
+		return g.name + " × " + pName
+	}
+	tCols := make([]int, len(groups))
+	for a, g := range groups {
+		tCols[a] = add(effName(g), roleTreatment, product(g.is, after))
 	}
 	if ds.periodLevels != nil {
-		ds.addLeads(s, add)
+		for a, g := range groups {
+			ds.addLeads(s, g, a, add)
+		}
 	}
 
 	// mod(r, j) is row r's value of the moderator's column j.
@@ -692,41 +712,26 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 		}))
 	}
 	if ds.period != nil {
-		for _, lower := range []struct {
-			v          []float64
-			name, role string
-		}{{ds.treat, treatmentName(s), roleGroupModerator}, {ds.period, periodName(s), rolePeriodModerator}} {
+		for _, g := range groups {
 			for m, name := range modNames {
-				add(lower.name+" × "+name, lower.role, func(x []float64, j, k, from, to int) {
-					for r := from; r < to; r++ {
-						x[r*k+j] = lower.v[r] * mod(r, m)
-					}
-				})
+				add(g.name+" × "+name, roleGroupModerator, product(g.is, func(r int) float64 { return mod(r, m) }))
 			}
 		}
-	}
-	for a := range ds.arms {
-		at := &ds.arms[a]
 		for m, name := range modNames {
-			at.iCols = append(at.iCols, add(armName(s, at.label)+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
-				for r := from; r < to; r++ {
-					if ds.arm[r] == a+1 {
-						x[r*k+j] = mod(r, m)
-					}
-				}
-			}))
+			add(pName+" × "+name, rolePeriodModerator, product(after, func(r int) float64 { return mod(r, m) }))
 		}
-		ds.iCols = append(ds.iCols, at.iCols...)
 	}
-	for m, name := range modNames {
-		if ds.arm != nil {
-			break
+	iCols := make([][]int, len(groups))
+	for a, g := range groups {
+		eff := func(r int) float64 { return g.is(r) * after(r) }
+		for m, name := range modNames {
+			iCols[a] = append(iCols[a], add(effName(g)+" × "+name, roleInteraction, product(eff, func(r int) float64 { return mod(r, m) })))
 		}
-		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
-			for r := from; r < to; r++ {
-				x[r*k+j] = eff(r) * mod(r, m)
-			}
-		}))
+		ds.iCols = append(ds.iCols, iCols[a]...)
+	}
+	ds.tCol = tCols[0]
+	for a, label := range ds.armLabels {
+		ds.arms = append(ds.arms, armTerms{label: label, tCol: tCols[a], iCols: iCols[a]})
 	}
 	for _, rc := range controls {
 		c := rc.col

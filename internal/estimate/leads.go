@@ -39,6 +39,8 @@ type LeadsCheck struct {
 // in one period before the start, less their gap in the reference period.
 type Lead struct {
 	Period string `json:"period"`
+	// Arm names the arm, with several arms.
+	Arm string `json:"arm,omitempty"`
 	Inference
 }
 
@@ -85,30 +87,31 @@ func (ds *design) addPeriods(s Spec, add func(name, role string, f fill) int) st
 		if j == ds.refPeriod {
 			continue
 		}
-		add(fmt.Sprintf("%s = %s", s.Period, l), rolePeriod, ds.periodIs(j, false))
+		add(fmt.Sprintf("%s = %s", s.Period, l), rolePeriod, func(x []float64, col, k, from, to int) {
+			for r := from; r < to; r++ {
+				if ds.periodLevel[r] == j {
+					x[r*k+col] = 1
+				}
+			}
+		})
 	}
 	return fmt.Sprintf("%s ≥ %s", s.Period, ds.periodLevels[ds.refPeriod+1])
 }
 
-// addLeads adds the leads: the programme's units × each period before the
-// reference.
-func (ds *design) addLeads(s Spec, add func(name, role string, f fill) int) {
+// addLeads adds the leads of group g (the treated rows, or arm a): g ×
+// each period before the reference.
+func (ds *design) addLeads(s Spec, g treatGroup, a int, add func(name, role string, f fill) int) {
 	for j := 0; j < ds.refPeriod; j++ {
-		name := fmt.Sprintf("%s × %s = %s", treatmentName(s), s.Period, ds.periodLevels[j])
-		ds.leadCols = append(ds.leadCols, add(name, roleLead, ds.periodIs(j, true)))
-		ds.leadLevels = append(ds.leadLevels, j)
-	}
-}
-
-// periodIs fills a column with 1 where the row is of period j (and, when
-// treated is set, of the programme's units).
-func (ds *design) periodIs(j int, treated bool) fill {
-	return func(x []float64, col, k, from, to int) {
-		for r := from; r < to; r++ {
-			if ds.periodLevel[r] == j && (!treated || ds.treat[r] == 1) {
-				x[r*k+col] = 1
+		name := fmt.Sprintf("%s × %s = %s", g.name, s.Period, ds.periodLevels[j])
+		ds.leadCols = append(ds.leadCols, add(name, roleLead, func(x []float64, col, k, from, to int) {
+			for r := from; r < to; r++ {
+				if ds.periodLevel[r] == j {
+					x[r*k+col] = g.is(r)
+				}
 			}
-		}
+		}))
+		ds.leadLevels = append(ds.leadLevels, j)
+		ds.leadArms = append(ds.leadArms, a)
 	}
 }
 
@@ -121,7 +124,11 @@ func (ds *design) leadsCheck(s Spec, in *inferencer) *LeadsCheck {
 	for l, j := range ds.leadCols {
 		a := make([]float64, ds.k)
 		a[j] = 1
-		lc.Leads = append(lc.Leads, Lead{Period: ds.periodLevels[ds.leadLevels[l]], Inference: in.combo(a)})
+		lead := Lead{Period: ds.periodLevels[ds.leadLevels[l]], Inference: in.combo(a)}
+		if ds.arms != nil {
+			lead.Arm = ds.armLabels[ds.leadArms[l]]
+		}
+		lc.Leads = append(lc.Leads, lead)
 	}
 	if len(ds.leadCols) == 0 {
 		return lc

@@ -193,8 +193,6 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which arm of %q is the comparison (the control group).", s.Treatment.Column))
 	case s.Treatment.Kind == TreatmentArms && s.Moderator.Kind == ModeratorContinuous:
 		return s, fail(ErrSpec, s.Moderator.Column, "A treatment with several arms is compared across the groups of a moderator; a number moderator is not supported with several arms yet. Choose a moderator of groups, or cut the number into groups.")
-	case s.Treatment.Kind == TreatmentArms && s.DiD():
-		return s, fail(ErrSpec, s.Period, "A treatment with several arms measured before and after is not supported yet. Analyse each arm against the comparison group on its own, or leave out the period column.")
 	case s.Treatment.Kind == TreatmentLabels && s.Treatment.Treated == "":
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which label in %q means treated.", s.Treatment.Column))
 	}

@@ -157,7 +157,7 @@ func (ds *design) keepColumns(s Spec, w *within) error {
 			continue
 		}
 		ds.absorbed = append(ds.absorbed, name)
-		if j == ds.tCol || ds.roles[j] == roleInteraction {
+		if ds.roles[j] == roleTreatment || ds.roles[j] == roleInteraction {
 			lost = append(lost, name)
 		}
 	}
@@ -193,13 +193,17 @@ func (ds *design) keepColumns(s Spec, w *within) error {
 	if ds.leadCols != nil {
 		// A lead the unit effects absorb (a period with no unit of the
 		// programme) leaves the check with the others.
-		var levels []int
+		var levels, arms []int
 		for l, j := range ds.leadCols {
 			if index[j] >= 0 {
 				levels = append(levels, ds.leadLevels[l])
+				arms = append(arms, ds.leadArms[l])
 			}
 		}
-		ds.leadCols, ds.leadLevels = remap(ds.leadCols), levels
+		ds.leadCols, ds.leadLevels, ds.leadArms = remap(ds.leadCols), levels, arms
+	}
+	for a := range ds.arms {
+		ds.arms[a].tCol, ds.arms[a].iCols = index[ds.arms[a].tCol], remap(ds.arms[a].iCols)
 	}
 	ds.k = len(w.keep)
 	return nil

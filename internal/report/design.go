@@ -65,7 +65,11 @@ func leadsWords(res *estimate.Result) []string {
 	u := unitsFor(res.Model.OutcomeBinary)
 	var parts []string
 	for _, l := range lc.Leads {
-		parts = append(parts, fmt.Sprintf("%s in %s %s", u.amount(l.Estimate), res.Spec.Period, l.Period))
+		part := fmt.Sprintf("%s in %s %s", u.amount(l.Estimate), res.Spec.Period, l.Period)
+		if l.Arm != "" {
+			part += fmt.Sprintf(" for %q", l.Arm)
+		}
+		parts = append(parts, part)
 	}
 	out := []string{fmt.Sprintf("Before the start, the gap between the programme's units and the comparison units, measured against their gap in %s %s (the last period before the start), was %s (the leads).",
 		res.Spec.Period, lc.Reference, joinAnd(parts))}
@@ -156,7 +160,7 @@ func outDesign(res *estimate.Result) *OutDesign {
 	if lc := res.Leads; lc != nil {
 		ol := &OutLeads{Reference: lc.Reference, Leads: []OutGroup{}, Contradicts: lc.Contradicts}
 		for _, l := range lc.Leads {
-			ol.Leads = append(ol.Leads, OutGroup{Label: l.Period, Estimate: l.Estimate, SE: l.SE, CILow: l.CILow, CIHigh: l.CIHigh, P: l.P})
+			ol.Leads = append(ol.Leads, OutGroup{Label: l.Period, Arm: l.Arm, Estimate: l.Estimate, SE: l.SE, CILow: l.CILow, CIHigh: l.CIHigh, P: l.P})
 		}
 		if t := lc.Test; t != nil {
 			ol.Test = &OutWald{F: t.F, DF1: t.DF1, DF2: float64(t.DF2), P: t.P, PBoot: t.PBoot}

@@ -7,6 +7,7 @@
 #
 # Writes into outdir:
 #   arms.csv  -- invented data (set.seed below; a known truth)
+#   arms_panel.csv -- invented data before and after (a second seed)
 #   arms.txt  -- "<case> <vtype> <key> <value>" (reference.txt's grammar)
 #
 # Only base R (lm, qt, pt, pf, p.adjust) and sandwich (vcovHC, vcovCL).
@@ -153,5 +154,99 @@ run_case <- function(case, control, vtypes) {
 }
 
 run_case("arms3", "waitlist", c("classical", "HC0", "HC1", "HC2", "HC3", "CR1"))
+
+## ---------------------------------------------------------------------------
+## Several arms before and after (METHODS sections 10 and 11): 150 people
+## measured in 2023 and 2024; the arms start in 2024.  Columns, in the
+## engine's order:
+##   1, A_c, A_s, P, A_c*P, A_s*P, M..., A_c*M..., A_s*M..., P*M...,
+##   A_c*P*M..., A_s*P*M...
+## Arm a's effect in group L: b_{A_a*P} + b_{A_a*P*M,L}.  With unit effects
+## (case arms_did_fe) the columns constant within a person (1, A, M, A*M)
+## are left out and one indicator per person added; CR1's factor as in
+## make_did.R (persons nested in the clusters: (N-1)/(N-K), K the columns
+## kept).
+## ---------------------------------------------------------------------------
+set.seed(14015)
+u3 <- 150
+arm3 <- rep(c("waitlist", "coaching", "stipend"), length.out = u3)
+reg3 <- sample(c("East", "North", "South"), u3, replace = TRUE, prob = c(0.3, 0.45, 0.25))
+lvl3 <- rnorm(u3, 0, 2)
+pp <- expand.grid(u = seq_len(u3), year = c(2023, 2024))
+pp <- pp[order(pp$u, pp$year), ]
+post3 <- as.double(pp$year == 2024)
+eff3 <- mapply(function(a, r) if (a == "waitlist") 0 else truth[[a]][[r]], arm3[pp$u], reg3[pp$u], USE.NAMES = FALSE)
+dp <- data.frame(person = sprintf("r%03d", pp$u), year = pp$year, arm = arm3[pp$u], region = reg3[pp$u],
+  earnings = round(18 + lvl3[pp$u] + 1.2 * post3 + eff3 * post3 + rnorm(nrow(pp), 0, 1.5), 2),
+  stringsAsFactors = FALSE)
+file3 <- file.path(outdir, "arms_panel.csv")
+lines <- c(paste(names(dp), collapse = ","),
+           do.call(paste, c(lapply(dp, function(x) if (is.numeric(x)) fmt(x) else x), sep = ",")))
+con <- file(file3, open = "wb"); writeLines(lines, con, sep = "\n"); close(con)
+r3 <- read.csv(file3, stringsAsFactors = FALSE)
+for (v in names(dp)) stopifnot(identical(as.character(dp[[v]]), as.character(r3[[v]])))
+dp <- r3
+
+run_did_arms <- function(case, fe, vtypes) {
+  lev <- sort(unique(dp$region), method = "radix")
+  ref <- lev[which.max(tabulate(match(dp$region, lev)))]
+  others <- setdiff(lev, ref); q <- length(others)
+  arms <- c("coaching", "stipend")
+  A <- sapply(arms, function(a) as.double(dp$arm == a))
+  P <- as.double(dp$year == 2024)
+  M <- sapply(others, function(l) as.double(dp$region == l))
+  AM <- do.call(cbind, lapply(arms, function(a) A[, a] * M))
+  APM <- do.call(cbind, lapply(arms, function(a) A[, a] * P * M))
+  X <- unname(cbind(1, A, P, A * P, M, AM, P * M, APM))
+  iA <- c(5L, 6L); iAPM <- lapply(1:2, function(j) 6L + 4L * q + (j - 1L) * q + seq_len(q))
+  kept <- seq_len(ncol(X)); G_u <- 0
+  if (fe) {
+    kept <- which(apply(X, 2, function(col) any(tapply(col, dp$person, function(v) any(v != v[1])))))
+    stopifnot(identical(kept, c(4L, 5L, 6L, 6L + 3L * q + seq_len(3L * q))))
+    G_u <- u3
+  }
+  Xk <- X[, kept, drop = FALSE]; k <- ncol(Xk); n <- nrow(Xk); y <- dp$earnings
+  pos <- function(j) match(j, kept)
+  fit <- if (fe) { U <- factor(dp$person, levels = unique(dp$person)); lm(y ~ 0 + Xk + U) } else lm(y ~ 0 + Xk)
+  stopifnot(fit$df.residual == n - k - G_u, !anyNA(coef(fit)))
+  b <- unname(coef(fit))[seq_len(k)]; e <- residuals(fit)
+  emit(case, "-", "n", n); emit(case, "-", "k", k); emit(case, "-", "dropped", 0)
+  emit(case, "-", "sigma", sqrt(sum(e^2) / (n - k - G_u)))
+  emit(case, "-", "r2", 1 - sum(e^2) / sum((y - mean(y))^2))
+  for (i in seq_len(k)) emit(case, "-", sprintf("coef[%d]", i), b[i])
+  grad <- function(j, L) {
+    g <- numeric(k); g[pos(iA[j])] <- 1
+    if (L != ref) g[pos(iAPM[[j]][match(L, others)])] <- 1
+    g
+  }
+  for (vt in vtypes) {
+    V <- unname(as.matrix(switch(vt,
+      classical = vcov(fit), HC3 = vcovHC(fit, type = "HC3"),
+      CR1 = if (fe) vcovCL(fit, cluster = dp$person, type = "HC0", cadjust = TRUE) * (n - 1) / (n - k)
+            else vcovCL(fit, cluster = dp$person, type = "HC1", cadjust = TRUE))))[seq_len(k), seq_len(k)]
+    df <- if (vt == "CR1") u3 - 1 else n - k - G_u
+    emit(case, vt, "df", df)
+    for (i in seq_len(k)) emit(case, vt, sprintf("se[%d]", i), sqrt(V[i, i]))
+    for (i in seq_len(k)) for (j in seq_len(k)) emit(case, vt, sprintf("vcov[%d,%d]", i, j), V[i, j])
+    ord <- c(ref, others); ps <- numeric()
+    for (j in 1:2) {
+      for (L in lev) emit_lincomb(case, vt, sprintf("effect[%s|%s]", arms[j], L), grad(j, L), b, V, df)
+      for (ia in seq_along(ord)) for (ib in seq_along(ord)) if (ia < ib)
+        emit_lincomb(case, vt, sprintf("diff[%s|%s|%s]", arms[j], ord[ia], ord[ib]),
+                     grad(j, ord[ib]) - grad(j, ord[ia]), b, V, df, mdd = TRUE)
+      w <- wald(b, V, pos(iAPM[[j]]), df)
+      emit(case, vt, sprintf("armhet[%s].F", arms[j]), w[["F"]]); emit(case, vt, sprintf("armhet[%s].p", arms[j]), w[["p"]])
+      ps <- c(ps, w[["p"]])
+    }
+    holm <- p.adjust(ps, method = "holm")
+    for (j in 1:2) emit(case, vt, sprintf("armhet[%s].holm", arms[j]), holm[j])
+    w <- wald(b, V, pos(unlist(iAPM)), df)
+    emit(case, vt, "het.F", w[["F"]]); emit(case, vt, "het.df1", 2 * q)
+    emit(case, vt, "het.df2", df); emit(case, vt, "het.p", w[["p"]])
+  }
+}
+run_did_arms("arms_did", FALSE, c("classical", "HC3", "CR1"))
+run_did_arms("arms_did_fe", TRUE, c("classical", "HC3", "CR1"))
+
 writeLines(out, file.path(outdir, "arms.txt"), sep = "\n")
 cat(sprintf("make_arms.R: %d reference values\n", length(out) - 2))
