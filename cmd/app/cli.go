@@ -16,6 +16,7 @@ import (
 	"unicode/utf8"
 
 	"slopewise/assets"
+	demodata "slopewise/internal/demo"
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
@@ -38,7 +39,7 @@ Usage:
                                  fit the model and write a results sheet into FILE
   slopewise screen FILE [options]
                                  try several moderators, adjusted for how many
-  slopewise demo DIR             write the demonstration workbook into DIR
+  slopewise demo DIR             write the demonstration workbooks into DIR
   slopewise version              print the version
   slopewise help [COMMAND]       this help, or a command's
 
@@ -145,8 +146,11 @@ names the column, sheet or cell), 2 a problem with the command line.
 
 const demoUsage = `Usage: slopewise demo DIR
 
-Writes the demonstration workbook, an invented job-coaching pilot with known
-true effects, into DIR as slopewise-demo.xlsx. DIR is created if needed.
+Writes the demonstration workbooks into DIR, created if needed: an invented
+job-coaching pilot with known true effects, slopewise-demo.xlsx, and its
+roll-out, slopewise-demo-rollout.xlsx: earnings of the same people before
+and after the programme reached half of the sites, in two arms (coaching,
+coaching with a stipend), with known true effects by region.
 `
 
 // usageError is a problem with the command line.
@@ -818,13 +822,26 @@ func demo(args []string, stdout io.Writer) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("cannot create the folder %s: %w", dir, err)
 	}
-	path := filepath.Join(dir, "slopewise-demo.xlsx")
-	if _, err := os.Stat(path); err == nil {
-		return fmt.Errorf("%s already exists; remove it or choose another folder", path)
+	files := []struct {
+		name string
+		data []byte
+	}{{"slopewise-demo.xlsx", assets.DemoWorkbook}, {demodata.RolloutFile, assets.DemoRolloutWorkbook}}
+	for _, f := range files {
+		if path := filepath.Join(dir, f.name); fileExists(path) {
+			return fmt.Errorf("%s already exists; remove it or choose another folder", path)
+		}
 	}
-	if err := workbook.WriteWhole(path, assets.DemoWorkbook, 0o644); err != nil {
-		return err
+	for _, f := range files {
+		if err := workbook.WriteWhole(filepath.Join(dir, f.name), f.data, 0o644); err != nil {
+			return err
+		}
 	}
-	fmt.Fprintf(stdout, "Demo workbook written to %s\n", path)
+	fmt.Fprintf(stdout, "Demo workbook written to %s\n", filepath.Join(dir, files[0].name))
+	fmt.Fprintf(stdout, "Second demo workbook (before and after, two arms) written to %s; to analyse it:\n  %s\n", filepath.Join(dir, files[1].name), demodata.RolloutCommand)
 	return nil
+}
+
+func fileExists(path string) bool {
+	_, err := os.Stat(path)
+	return err == nil
 }

@@ -247,7 +247,7 @@ func TestDryRunAndOut(t *testing.T) {
 		t.Fatalf("dry run: exit %d\n%s\n%s", code, out, errs)
 	}
 	entries, _ := os.ReadDir(filepath.Dir(path))
-	if hashFile(t, path) != before || len(entries) != 1 {
+	if hashFile(t, path) != before || len(entries) != 2 { // the two demo workbooks
 		t.Fatalf("dry run changed the folder: %d entries", len(entries))
 	}
 	copyPath := filepath.Join(t.TempDir(), "copy.xlsx")
@@ -1178,5 +1178,43 @@ func TestLeadsCommand(t *testing.T) {
 	}
 	if !strings.Contains(errs, "Parallel before the start? F = ") {
 		t.Errorf("the summary:\n%s", errs)
+	}
+}
+
+// TestRolloutDemoEndToEnd: slopewise demo writes the roll-out workbook
+// beside the pilot; analysed as its Notes sheet says (before and after,
+// two arms, unit effects), every arm's true effect in every region lies
+// inside its 95% interval, and the results are written into it.
+func TestRolloutDemoEndToEnd(t *testing.T) {
+	dir := filepath.Dir(writeDemo(t))
+	path := filepath.Join(dir, demodata.RolloutFile)
+	args := strings.Fields(demodata.RolloutCommand)[1:]
+	args[1] = path
+	code, out, errs := runCLI(t, append(args, "--json")...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	truth := demodata.RolloutTrueEffects()
+	if len(o.Groups) != 8 || o.Design == nil || !o.Design.UnitEffects || len(o.Arms) != 2 {
+		t.Fatalf("groups %d, design %+v, arms %+v", len(o.Groups), o.Design, o.Arms)
+	}
+	for _, g := range o.Groups {
+		want := truth[g.Arm][g.Label]
+		if !(g.CILow < want && want < g.CIHigh) {
+			t.Errorf("%s in %s: %.1f [%.1f, %.1f] misses the truth %g", g.Arm, g.Label, g.Estimate, g.CILow, g.CIHigh, want)
+		}
+	}
+	if !strings.Contains(errs, "Results written to") {
+		t.Errorf("no results written:\n%s", errs)
+	}
+	// Clustered by site, in which the people (the unit) lie: the grouping
+	// check does not warn about the unit column it was told of.
+	code, _, errs = runCLI(t, append(args, "--cluster", "site", "--dry-run")...)
+	if code != exitOK || strings.Contains(errs, "Warning:") {
+		t.Errorf("exit %d, a warning about the unit:\n%s", code, errs)
 	}
 }

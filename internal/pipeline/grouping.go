@@ -257,6 +257,12 @@ func newGroupingScan(t *workbook.Table, s estimate.Spec) *groupingScan {
 	for _, c := range s.Controls {
 		model[c] = true
 	}
+	if s.Unit != s.Cluster {
+		// A unit column named beside another cluster is accounted for:
+		// its rows are alike by design, and the cluster was chosen over it
+		// (a coarser group it lies in, or another choice made knowingly).
+		model[s.Unit] = true
+	}
 	for _, name := range usedColumns(t, s) {
 		sc.used[name] = true
 	}
