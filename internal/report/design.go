@@ -3,6 +3,7 @@ package report
 import (
 	"fmt"
 	"math"
+	"strings"
 
 	"slopewise/internal/estimate"
 )
@@ -258,4 +259,77 @@ func (w *noteWriter) armSentences() {
 		w.say("Testing whether any arm's %s differs between groups at all gives F = %s (%s).", w.what(), readable(h.F), w.pWords(p, boot))
 	}
 	w.say("%s", seWords(res)+".")
+}
+
+// designPairs are the lines of "What was asked" that name the design:
+// the period and its value after the start, the unit, unit effects.
+func designPairs(res *estimate.Result) [][]Cell {
+	d := res.Design
+	if d == nil {
+		return nil
+	}
+	var rows [][]Cell
+	if d.Kind == estimate.BeforeAfter {
+		rows = append(rows, pair("Before and after", fmt.Sprintf("%s (after the start: %s)", d.Period, d.After)))
+	}
+	if d.Unit != "" {
+		rows = append(rows, pair("Unit measured each time", fmt.Sprintf("%s (%s units)", d.Unit, count(d.Units))))
+	}
+	if d.UnitEffects {
+		rows = append(rows, pair("Unit effects", "each unit compared with itself; not estimated separately: "+joinAnd(d.Absorbed)))
+	}
+	return rows
+}
+
+// designModelWords writes the model of a before-and-after design or of
+// several arms in words; "" for a single trial.
+func designModelWords(res *estimate.Result) string {
+	s := res.Spec
+	if res.Design == nil && res.Arms == nil {
+		return ""
+	}
+	t := treatmentName(s.Treatment)
+	if res.Arms != nil {
+		t = "each arm of " + s.Treatment.Column
+	}
+	m := s.Moderator.Column
+	terms := []string{"a baseline level", t, m, t + " × " + m}
+	if res.Design != nil && res.Design.Kind == estimate.BeforeAfter {
+		p := s.Period
+		terms = []string{"a baseline level", t, p, t + " × " + p, m, t + " × " + m, p + " × " + m, t + " × " + p + " × " + m}
+		if res.Leads != nil && len(res.Leads.Leads) > 0 {
+			terms = append(terms, t+" × each earlier "+p)
+		}
+	}
+	if res.Design != nil && res.Design.UnitEffects {
+		terms[0] = "each unit's own level"
+	}
+	terms = append(terms, s.Controls...)
+	return fmt.Sprintf("%s = %s + error", s.Outcome, strings.Join(terms, " + "))
+}
+
+// leads adds the check of common trends: each lead with its interval, and
+// their joint test.
+func (b *sheetBuilder) leads() {
+	lc := b.res.Leads
+	if lc == nil || len(lc.Leads) == 0 {
+		return
+	}
+	res := b.res
+	ci := level(res.Model.Alpha) + " CI"
+	var vals []float64
+	for _, l := range lc.Leads {
+		vals = append(vals, l.Estimate, l.SE, l.CILow, l.CIHigh)
+	}
+	f := numberFormat(vals)
+	rows := [][]Cell{{HeadingCell("Period before the start"), HeadingCell("Gap against " + lc.Reference), HeadingCell("Std. error"),
+		HeadingCell(ci + " low"), HeadingCell(ci + " high"), HeadingCell("p-value")}}
+	for _, l := range lc.Leads {
+		rows = append(rows, []Cell{TextCell(armPrefix(l.Arm) + l.Period), NumberCell(l.Estimate, f), NumberCell(l.SE, f),
+			NumberCell(l.CILow, f), NumberCell(l.CIHigh, f), PValueCell(l.P)})
+	}
+	for _, sentence := range leadsWords(res)[1:] {
+		rows = append(rows, []Cell{ParagraphCell(sentence, tableWidth)})
+	}
+	b.add("leads", "Before the start: did the two sets of units move in parallel?", rows)
 }

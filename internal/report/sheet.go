@@ -56,6 +56,7 @@ func (b *sheetBuilder) findings() error {
 	b.differences()
 	b.equivalence()
 	b.linearity()
+	b.leads()
 	b.add("note", "In plain words", [][]Cell{{ParagraphCell(Note(run, res), tableWidth)}})
 	b.add("cautions", "Keep in mind", paragraphs(Cautions(run, res)))
 	b.coefficients()
@@ -102,6 +103,7 @@ func (b *sheetBuilder) asked() {
 	if s.EquivalenceMargin > 0 {
 		rows = append(rows, pair("Smallest difference that matters", marginWords(b.res)))
 	}
+	rows = append(rows, designPairs(b.res)...)
 	b.add("asked", "What was asked", rows)
 }
 
@@ -111,6 +113,8 @@ func treatmentWords(t estimate.Treatment) string {
 		return fmt.Sprintf("%s (treated: %q)", t.Column, t.Treated)
 	case estimate.TreatmentContinuous:
 		return fmt.Sprintf("%s (an amount; effects are per unit)", t.Column)
+	case estimate.TreatmentArms:
+		return fmt.Sprintf("%s (several arms; compared with %q)", t.Column, t.Control)
 	}
 	return fmt.Sprintf("%s (1 = treated, 0 = not)", t.Column)
 }
@@ -129,6 +133,9 @@ func moderatorWords(res *estimate.Result) string {
 
 // modelWords writes the model as an equation in words (METHODS §1).
 func modelWords(res *estimate.Result) string {
+	if w := designModelWords(res); w != "" {
+		return w
+	}
 	s := res.Spec
 	t := treatmentName(s.Treatment)
 	terms := []string{"a baseline level", t, s.Moderator.Column, t + " × " + s.Moderator.Column}
