@@ -27,16 +27,19 @@ build-deps:
 build: build-deps
 	$(GO) build -o bin/slopewise ./cmd/app
 
-# The demo: write the invented job-coaching workbook and analyze it, leaving
-# an annotated workbook in demo-output/.
+# The demo: write the invented job-coaching workbooks (the pilot and its
+# roll-out) and analyze them, leaving annotated workbooks in demo-output/.
 demo: build
 	rm -rf demo-output
 	./bin/slopewise demo demo-output
 	./bin/slopewise analyze demo-output/slopewise-demo.xlsx \
 	  --outcome earnings_6m --treatment coached --moderator region \
 	  --controls age,baseline_score --cluster site --randomized --planned
+	./bin/slopewise analyze demo-output/slopewise-demo-rollout.xlsx \
+	  --outcome earnings --treatment programme --control-arm none --period year \
+	  --after 2024 --unit person_id --unit-effects --moderator region --randomized
 	@echo
-	@echo "Open demo-output/slopewise-demo.xlsx and look at the sheet \"Results\"."
+	@echo "Open demo-output/slopewise-demo.xlsx and demo-output/slopewise-demo-rollout.xlsx and look at the sheet \"Results\"."
 
 # Pictures of every screen for the README, from a real window under Xvfb.
 screenshots: build
@@ -66,7 +69,7 @@ save-trials: build
 
 # Rerun R on the reference cases and compare with the engine live.
 crosscheck-r:
-	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR|TestEquivalenceAgainstR' -v
+	SLOPEWISE_LIVE_R=1 $(GO) test ./internal/estimate -run 'TestAgainstR|TestBootstrapAgainstR|TestLinearityAgainstR|TestEquivalenceAgainstR|TestDiDAgainstR|TestArmsAgainstR' -v
 
 bench:
 	$(GO) test ./internal/estimate -run '^$$' -bench . -benchmem -benchtime 3x

@@ -7,10 +7,17 @@ import _ "embed"
 // known true effects (see README.md beside it). It is made by package
 // internal/demo; after changing that package, write it again with
 //
-//	go run ./internal/demo/gen assets/demo.xlsx
+//	go run ./internal/demo/gen assets/demo.xlsx assets/demo-rollout.xlsx
 //
 //go:embed demo.xlsx
 var DemoWorkbook []byte
+
+// DemoRolloutWorkbook is the second demonstration workbook: the coaching
+// roll-out, earnings before and after in two arms (see README.md beside
+// it), made by package internal/demo (RolloutWorkbook).
+//
+//go:embed demo-rollout.xlsx
+var DemoRolloutWorkbook []byte
 
 // Icon is the program's icon, 512 pixels square, rendered from icon.svg
 // by icons/render.sh.

@@ -16,6 +16,7 @@ import (
 	"unicode/utf8"
 
 	"slopewise/assets"
+	demodata "slopewise/internal/demo"
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
@@ -38,7 +39,7 @@ Usage:
                                  fit the model and write a results sheet into FILE
   slopewise screen FILE [options]
                                  try several moderators, adjusted for how many
-  slopewise demo DIR             write the demonstration workbook into DIR
+  slopewise demo DIR             write the demonstration workbooks into DIR
   slopewise version              print the version
   slopewise help [COMMAND]       this help, or a command's
 
@@ -56,6 +57,12 @@ Roles:
   --outcome COL            the result measured for each row
   --treatment COL          who received the programme: 0/1, two labels, or an amount
   --treated LABEL          the label that means treated, for a treatment of two labels
+  --control-arm LABEL      the comparison arm, for a treatment of several arms
+                           (a waiting list beside coaching and coaching with a
+                           stipend): each other arm's effect is reported in
+                           every group, with its own test that it is the same
+                           in all groups (Holm-adjusted over the arms) and a
+                           joint test
   --moderator COL          the column whose groups or values are compared
   --moderator-type T       binary, category or number (detected when left out:
                            text → category, two values → binary, numbers → number)
@@ -76,6 +83,27 @@ Roles:
                            before fitting, for scripts that must not run
                            without the right cluster
   --weights COL            a weight for each row (sampling or precision weights)
+
+Before and after (a difference in differences by group):
+  --period COL             whether a row was measured before (0) or after (1) the
+                           programme started; the treatment then marks the units
+                           that get the programme, and each group's effect is
+                           how much more the outcome changed in them than in the
+                           comparison units. It is the programme's effect only if,
+                           without it, both would have moved in parallel
+  --after VALUE            the value of --period that means after the start, when
+                           the column holds two labels or other numbers (2023,
+                           2024); with more periods, the first one after the
+                           start: the earlier ones before the last one before
+                           the start (the leads) then show whether the two sets
+                           of units moved in parallel before it
+  --unit COL               the person or site each row belongs to, measured more
+                           than once; standard errors are clustered by it unless
+                           --cluster names a coarser group or --se says otherwise
+  --unit-effects           compare each unit with itself: take out each unit's own
+                           level; terms that do not change within a unit (the
+                           treated group, a moderator of the unit) drop out and
+                           are named
 
 Options:
   --se TYPE                standard errors: classical, hc0, hc1, hc2, hc3, cluster
@@ -118,8 +146,11 @@ names the column, sheet or cell), 2 a problem with the command line.
 
 const demoUsage = `Usage: slopewise demo DIR
 
-Writes the demonstration workbook, an invented job-coaching pilot with known
-true effects, into DIR as slopewise-demo.xlsx. DIR is created if needed.
+Writes the demonstration workbooks into DIR, created if needed: an invented
+job-coaching pilot with known true effects, slopewise-demo.xlsx, and its
+roll-out, slopewise-demo-rollout.xlsx: earnings of the same people before
+and after the programme reached half of the sites, in two arms (coaching,
+coaching with a stipend), with known true effects by region.
 `
 
 // usageError is a problem with the command line.
@@ -225,6 +256,12 @@ type modelFlags struct {
 	seed                        uint64
 	margin                      float64
 	grouping                    string // warn or refuse
+	// A before-and-after design (analyze only): the period column, the
+	// value after the start, the unit column and its effects.
+	period, after, unit string
+	unitEffects         bool
+	// controlArm names the comparison arm of a treatment of several arms.
+	controlArm string
 	// set holds the names of the options given on the command line.
 	set map[string]bool
 }
@@ -312,6 +349,11 @@ func parseAnalyze(args []string, stdout io.Writer) (*analyzeFlags, error) {
 	fs.StringVar(&f.values, "moderator-values", "", "")
 	fs.StringVar(&f.center, "center", "", "")
 	fs.BoolVar(&f.planned, "planned", false, "")
+	fs.StringVar(&f.period, "period", "", "")
+	fs.StringVar(&f.after, "after", "", "")
+	fs.StringVar(&f.unit, "unit", "", "")
+	fs.BoolVar(&f.unitEffects, "unit-effects", false, "")
+	fs.StringVar(&f.controlArm, "control-arm", "", "")
 	if err := f.parse(fs, args, "give the workbook to analyze: slopewise analyze FILE --outcome … --treatment … --moderator …"); err != nil {
 		return nil, err
 	}
@@ -336,6 +378,15 @@ func (f *analyzeFlags) check() error {
 	}
 	if (f.values != "" || f.center != "") && (f.moderatorType == "binary" || f.moderatorType == "category" || f.ref != "") {
 		return usagef("--moderator-values and --center are for a number moderator; they cannot go with groups (--moderator-type %s or --reference)", orText(f.moderatorType, "category"))
+	}
+	if f.after != "" && f.period == "" {
+		return usagef("--after names the value of the period column after the start, so it needs --period COL")
+	}
+	if f.controlArm != "" && f.treated != "" {
+		return usagef("--control-arm names the comparison arm of a treatment of several arms, and --treated the treated label of two; give one of them")
+	}
+	if f.unitEffects && f.unit == "" {
+		return usagef("--unit-effects needs --unit COL, the column that names each person or site whose rows are repeated")
 	}
 	if _, err := f.probeValues(); err != nil {
 		return err
@@ -363,7 +414,7 @@ func (f *modelFlags) check() error {
 	default:
 		return usagef("--se must be classical, hc0, hc1, hc2, hc3 or cluster, not %q", f.se)
 	}
-	if f.se == "cluster" && f.cluster == "" {
+	if f.se == "cluster" && f.clusterColumn() == "" {
 		return usagef("--se cluster needs --cluster COL, the column that names each cluster")
 	}
 	if f.cluster != "" && f.se != "" && f.se != "cluster" {
@@ -403,13 +454,13 @@ func (f *modelFlags) check() error {
 func (f *modelFlags) checkBootstrap() error {
 	var idle []string
 	for _, name := range []string{"no-bootstrap", "draws", "seed"} {
-		if f.set[name] && (f.cluster == "" || name != "no-bootstrap" && f.noBootstrap) {
+		if f.set[name] && (f.clusterColumn() == "" || name != "no-bootstrap" && f.noBootstrap) {
 			idle = append(idle, "--"+name)
 		}
 	}
 	if len(idle) > 0 {
 		why := "there is no --cluster, and the wild cluster bootstrap runs only with clusters"
-		if f.cluster != "" {
+		if f.clusterColumn() != "" {
 			why = "--no-bootstrap is given"
 		}
 		verb := "changes"
@@ -422,6 +473,16 @@ func (f *modelFlags) checkBootstrap() error {
 		return usagef("--draws must be a whole number from 99 to %d (the usual choice is %d), not %d", estimate.MaxDraws, estimate.DefaultDraws, f.draws)
 	}
 	return nil
+}
+
+// clusterColumn is the column the errors are clustered by: --cluster,
+// or else --unit unless --se chooses errors that are not clustered
+// (rows of one unit are alike; Bertrand, Duflo & Mullainathan 2004).
+func (f *modelFlags) clusterColumn() string {
+	if f.cluster == "" && (f.se == "" || f.se == "cluster") {
+		return f.unit
+	}
+	return f.cluster
 }
 
 func orText(s, alt string) string {
@@ -498,8 +559,8 @@ func (f *analyzeFlags) spec(t *workbook.Table) (estimate.Spec, error) {
 // baseSpec is the spec without its moderator, after checking that every
 // column named, the moderators included, is in the table.
 func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate.Spec, error) {
-	names := append([]string{f.outcome, f.treatment}, moderators...)
-	for _, name := range append(append(names, f.cluster, f.weights), splitList(f.controls)...) {
+	names := append([]string{f.outcome, f.treatment, f.period}, moderators...)
+	for _, name := range append(append(names, f.cluster, f.unit, f.weights), splitList(f.controls)...) {
 		if name != "" && t.Column(name) == nil {
 			return estimate.Spec{}, missingColumn(t, name)
 		}
@@ -507,8 +568,12 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 	s := estimate.Spec{
 		Outcome:           f.outcome,
 		Controls:          splitList(f.controls),
-		Cluster:           f.cluster,
+		Cluster:           f.clusterColumn(),
 		Weights:           f.weights,
+		Period:            f.period,
+		After:             f.after,
+		Unit:              f.unit,
+		UnitEffects:       f.unitEffects,
 		Variance:          seTypes[f.se],
 		Alpha:             f.alpha,
 		Bootstrap:         estimate.Bootstrap{Off: f.noBootstrap, Draws: f.draws, Seed: f.seed},
@@ -516,8 +581,17 @@ func (f *modelFlags) baseSpec(t *workbook.Table, moderators ...string) (estimate
 	}
 	s.Treatment = estimate.Treatment{Column: f.treatment, Treated: f.treated,
 		Kind: pipeline.TreatmentKind(t.Column(f.treatment), f.treated)}
+	if f.controlArm != "" {
+		s.Treatment = estimate.Treatment{Column: f.treatment, Kind: estimate.TreatmentArms, Control: f.controlArm}
+	}
+	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" && len(t.Column(f.treatment).Levels) > 2 {
+		return s, fmt.Errorf("the treatment %q holds %d arms (%s); name the comparison arm with --control-arm LABEL", f.treatment, len(t.Column(f.treatment).Levels), strings.Join(pipeline.ValuesOf(t.Column(f.treatment), 8), ", "))
+	}
 	if s.Treatment.Kind == estimate.TreatmentLabels && f.treated == "" {
 		return s, fmt.Errorf("the treatment %q holds labels (%s); say which one means treated with --treated LABEL", f.treatment, strings.Join(t.Column(f.treatment).Levels, ", "))
+	}
+	if p := t.Column(f.period); p != nil && f.after == "" && !pipeline.ZeroOne(p) {
+		return s, fmt.Errorf("the period column %q holds %s; say which one means after the programme started with --after VALUE", f.period, strings.Join(pipeline.ValuesOf(p, 8), ", "))
 	}
 	return s, nil
 }
@@ -663,27 +737,61 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	out := report.Summarize(a.Run, a.Result)
 	res := a.Result
 	fmt.Fprintf(w, "%d rows used, %d left out; standard errors %s, %d df.\n\n", out.NUsed, out.NDropped, out.SEType, res.Model.DF)
-	fmt.Fprintf(w, "Effect of %s on %s by %s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column)
+	fmt.Fprintf(w, "Effect of %s on %s by %s%s:\n", res.Spec.Treatment.Column, res.Spec.Outcome, res.Moderator.Column, report.DesignTitle(res))
+	if d := res.Design; d != nil && d.UnitEffects {
+		fmt.Fprintf(w, "Unit effects: %d units of %s; not estimated separately: %s\n", d.Units, d.Unit, strings.Join(d.Absorbed, ", "))
+	}
 	for _, g := range out.Groups {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", g.Label, g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", armed(g.Arm, g.Label), g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
 	}
 	fmt.Fprintln(w, "Differences:")
 	for _, d := range out.Differences {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", d.Label, d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
+		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", armed(d.Arm, d.Label), d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
+	}
+	for _, a := range out.Arms {
+		if h := a.Heterogeneity; h != nil {
+			fmt.Fprintf(w, "Same effect of %s in every group? F = %.4g on %d and %g df, p = %.3g, Holm p = %.3g\n", a.Arm, h.F, h.DF1, h.DF2, h.P, a.HolmP)
+		}
 	}
 	if h := out.Heterogeneity; h != nil {
-		boot := ""
-		if h.PBoot != nil {
-			boot = fmt.Sprintf("; bootstrap p = %.3g", *h.PBoot)
+		boot := pBootText(h.PBoot)
+		what := "Same effect in every group?"
+		if out.Arms != nil {
+			what = "Same effect of every arm in every group?"
 		}
-		fmt.Fprintf(w, "Same effect in every group? F = %.4g on %d and %g df, p = %.3g%s\n", h.F, h.DF1, h.DF2, h.P, boot)
+		fmt.Fprintf(w, "%s F = %.4g on %d and %g df, p = %.3g%s\n", what, h.F, h.DF1, h.DF2, h.P, boot)
 	} else if nj := out.HeterogeneityNotJudged; nj != nil {
 		fmt.Fprintf(w, "Same effect in every group? %s\n", nj.Reason)
+	}
+	if d := out.Design; d != nil && d.Leads != nil {
+		fmt.Fprintf(w, "Before the start (gaps against %s = %s):\n", d.Period, d.Leads.Reference)
+		for _, l := range d.Leads.Leads {
+			fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", armed(l.Arm, l.Label), l.Estimate, l.CILow, l.CIHigh, l.P)
+		}
+		if t := d.Leads.Test; t != nil {
+			fmt.Fprintf(w, "Parallel before the start? F = %.4g on %d and %g df, p = %.3g%s\n", t.F, t.DF1, t.DF2, t.P, pBootText(t.PBoot))
+		}
 	}
 	if b := out.Bootstrap; b != nil {
 		fmt.Fprintf(w, "Bootstrap: %d draws, %s weights, seed %d, all draws listed: %v\n", b.Draws, b.Weights, b.Seed, b.Enumerated)
 	}
 	fmt.Fprintf(w, "\n%s\n", out.Note)
+}
+
+// pBootText writes a joint test's bootstrap p-value, if any.
+func pBootText(p *float64) string {
+	if p == nil {
+		return ""
+	}
+	return fmt.Sprintf("; bootstrap p = %.3g", *p)
+}
+
+// armed puts the arm before a label, with several arms.
+func armed(arm, label string) string {
+	if arm == "" {
+		return label
+	}
+	return arm + ": " + label
 }
 
 // bootText writes the bootstrap's p-value and interval for a terminal.
@@ -714,13 +822,26 @@ func demo(args []string, stdout io.Writer) error {
 	if err := os.MkdirAll(dir, 0o755); err != nil {
 		return fmt.Errorf("cannot create the folder %s: %w", dir, err)
 	}
-	path := filepath.Join(dir, "slopewise-demo.xlsx")
-	if _, err := os.Stat(path); err == nil {
-		return fmt.Errorf("%s already exists; remove it or choose another folder", path)
+	files := []struct {
+		name string
+		data []byte
+	}{{"slopewise-demo.xlsx", assets.DemoWorkbook}, {demodata.RolloutFile, assets.DemoRolloutWorkbook}}
+	for _, f := range files {
+		if path := filepath.Join(dir, f.name); fileExists(path) {
+			return fmt.Errorf("%s already exists; remove it or choose another folder", path)
+		}
 	}
-	if err := workbook.WriteWhole(path, assets.DemoWorkbook, 0o644); err != nil {
-		return err
+	for _, f := range files {
+		if err := workbook.WriteWhole(filepath.Join(dir, f.name), f.data, 0o644); err != nil {
+			return err
+		}
 	}
-	fmt.Fprintf(stdout, "Demo workbook written to %s\n", path)
+	fmt.Fprintf(stdout, "Demo workbook written to %s\n", filepath.Join(dir, files[0].name))
+	fmt.Fprintf(stdout, "Second demo workbook (before and after, two arms) written to %s; to analyse it:\n  %s\n", filepath.Join(dir, files[1].name), demodata.RolloutCommand)
 	return nil
+}
+
+func fileExists(path string) bool {
+	_, err := os.Stat(path)
+	return err == nil
 }

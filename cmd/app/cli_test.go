@@ -166,6 +166,8 @@ func TestHelp(t *testing.T) {
 		{[]string{"help"}, "slopewise screen FILE"},
 		{[]string{"help", "analyze"}, "--draws B"},
 		{[]string{"help", "analyze"}, "--seed N"},
+		{[]string{"help", "analyze"}, "--period COL"},
+		{[]string{"help", "analyze"}, "--unit-effects"},
 		{[]string{"help", "demo"}, "known"},
 		{[]string{"demo", "-h"}, "known"},
 		{[]string{"version"}, "slopewise " + version},
@@ -245,7 +247,7 @@ func TestDryRunAndOut(t *testing.T) {
 		t.Fatalf("dry run: exit %d\n%s\n%s", code, out, errs)
 	}
 	entries, _ := os.ReadDir(filepath.Dir(path))
-	if hashFile(t, path) != before || len(entries) != 1 {
+	if hashFile(t, path) != before || len(entries) != 2 { // the two demo workbooks
 		t.Fatalf("dry run changed the folder: %d entries", len(entries))
 	}
 	copyPath := filepath.Join(t.TempDir(), "copy.xlsx")
@@ -265,11 +267,29 @@ func TestDryRunAndOut(t *testing.T) {
 // compares the printed numbers with R 4.2.2 lm + sandwich 3.0.2
 // (testdata/r/reference.txt, produced by testdata/r/make_reference.R).
 func TestJSONAgainstR(t *testing.T) {
-	ref := readReference(t)
+	ref := readReference(t, "reference.txt")
+	// The before-and-after cases of testdata/r/make_did.R (R 4.2.2 lm +
+	// sandwich 3.0.2), in did.txt.
+	for name, values := range readReference(t, "did.txt") {
+		ref[name] = values
+	}
+	// The three-arm case of testdata/r/make_arms.R, in arms.txt.
+	for name, values := range readReference(t, "arms.txt") {
+		ref[name] = values
+	}
 	cases := []struct {
 		name, file, vtype string
 		args              []string
 	}{
+		{"arms3", "arms.csv", "HC3", []string{"--outcome", "earnings", "--treatment", "arm", "--control-arm", "waitlist", "--moderator", "region", "--controls", "age"}},
+		{"did_cat", "did_panel.csv", "CR1", []string{"--outcome", "earnings", "--treatment", "programme", "--treated", "coached", "--period", "year", "--after", "2024",
+			"--unit", "person", "--cluster", "site", "--moderator", "region", "--no-bootstrap"}},
+		{"did_cat", "did_panel.csv", "HC3", []string{"--outcome", "earnings", "--treatment", "programme", "--treated", "coached", "--period", "year", "--after", "2024",
+			"--unit", "person", "--se", "hc3", "--moderator", "region"}},
+		{"did_fe", "did_panel.csv", "CR1", []string{"--outcome", "earnings", "--treatment", "coached", "--period", "post", "--unit", "person", "--unit-effects",
+			"--moderator", "region", "--controls", "age"}},
+		{"did_cont", "did_panel.csv", "HC1", []string{"--outcome", "earnings", "--treatment", "coached", "--period", "post", "--unit", "person", "--se", "hc1",
+			"--moderator", "score", "--controls", "age", "--weights", "weight"}},
 		{"warp_cat", "warp_cat.csv", "HC3", []string{"--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension"}},
 		{"warp_cat", "warp_cat.csv", "HC1", []string{"--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension", "--se", "hc1"}},
 		{"mtcars_bin", "mtcars_bin.csv", "classical", []string{"--outcome", "mpg", "--treatment", "am", "--moderator", "vs", "--controls", "wt,hp", "--se", "classical"}},
@@ -316,8 +336,14 @@ func TestJSONAgainstR(t *testing.T) {
 				}
 				return label
 			}
+			arm := func(a string) string {
+				if a == "" {
+					return ""
+				}
+				return a + "|"
+			}
 			for _, g := range o.Groups {
-				k := "effect[" + key(g.Label) + "]"
+				k := "effect[" + arm(g.Arm) + key(g.Label) + "]"
 				near(g.Label+" estimate", g.Estimate, k+".est")
 				near(g.Label+" se", g.SE, k+".se")
 				near(g.Label+" ci_low", g.CILow, k+".lo")
@@ -330,28 +356,35 @@ func TestJSONAgainstR(t *testing.T) {
 					k = "diff[unit]"
 				} else {
 					to, from, _ := strings.Cut(d.Label, " vs ")
-					k = "diff[" + key(from) + "|" + key(to) + "]"
+					k = "diff[" + arm(d.Arm) + key(from) + "|" + key(to) + "]"
 				}
 				near(d.Label+" estimate", d.Estimate, k+".est")
 				near(d.Label+" se", d.SE, k+".se")
 				near(d.Label+" p", d.P, k+".p")
 				near(d.Label+" mdd", d.MDD, k+".mdd")
 			}
+			for _, a := range o.Arms {
+				near(a.Arm+" F", a.Heterogeneity.F, "armhet["+a.Arm+"].F")
+				near(a.Arm+" Holm p", a.HolmP, "armhet["+a.Arm+"].holm")
+			}
+			if (c.name == "arms3") != (len(o.Arms) == 2) {
+				t.Errorf("%d arms in the JSON", len(o.Arms))
+			}
 			near("F", o.Heterogeneity.F, "het.F")
 			near("F p", o.Heterogeneity.P, "het.p")
 			if o.JN != nil {
 				lo, hi := want["- mod.min"], want["- mod.max"]
-				var inside []float64
+				var inside []string // the keys of R's roots inside the range
 				for _, r := range []string{"jn.root1", "jn.root2"} {
 					if v, ok := want[c.vtype+" "+r]; ok && v > lo && v < hi {
-						inside = append(inside, v)
+						inside = append(inside, r)
 					}
 				}
 				if len(o.JN.Bounds) != len(inside) {
 					t.Errorf("JN bounds %v, R's roots inside the range %v", o.JN.Bounds, inside)
 				}
-				for i := range inside {
-					near("JN bound", o.JN.Bounds[i], "jn.root"+strconv.Itoa(i+1))
+				for i, r := range inside {
+					near("JN bound", o.JN.Bounds[i], r)
 				}
 			}
 			if o.Note == "" || len(o.Cautions) == 0 {
@@ -361,10 +394,11 @@ func TestJSONAgainstR(t *testing.T) {
 	}
 }
 
-// readReference reads testdata/r/reference.txt into case → "vtype key" → value.
-func readReference(t *testing.T) map[string]map[string]float64 {
+// readReference reads a file of testdata/r in reference.txt's grammar into
+// case → "vtype key" → value.
+func readReference(t *testing.T, name string) map[string]map[string]float64 {
 	t.Helper()
-	fh, err := os.Open(filepath.Join(rDir, "reference.txt"))
+	fh, err := os.Open(filepath.Join(rDir, name))
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -993,5 +1027,195 @@ func TestScreenGroupingWarning(t *testing.T) {
 	code, _, errs = runCLI(t, append(args, "--grouping", "refuse")...)
 	if code != exitData || !strings.Contains(errs, "For the moderator region: Every row of a site has the same region") {
 		t.Errorf("screen --grouping refuse: exit %d\n%s", code, errs)
+	}
+}
+
+// TestTrialJSONUnchanged: a two-arm trial without a period column gives,
+// byte for byte, the JSON the command gave before before-and-after designs
+// existed: testdata/trial-json/ was written by the command built at commit
+// 58f1ce8 with the same arguments (dry runs on testdata/r's files).
+func TestTrialJSONUnchanged(t *testing.T) {
+	cases := map[string][]string{
+		"warp_cat":        {"warp_cat.csv", "--outcome", "breaks", "--treatment", "wool", "--treated", "B", "--moderator", "tension"},
+		"co2_cluster":     {"co2_cluster.csv", "--outcome", "uptake", "--treatment", "Treatment", "--treated", "chilled", "--moderator", "Type", "--controls", "conc", "--cluster", "Plant", "--draws", "999"},
+		"mtcars_cont":     {"mtcars_cont.csv", "--outcome", "mpg", "--treatment", "am", "--moderator", "wt", "--moderator-type", "number", "--center", "3", "--controls", "hp", "--se", "hc2"},
+		"airq_weighted78": {"airq_weighted78.csv", "--outcome", "Ozone", "--treatment", "hot", "--moderator", "Month", "--moderator-type", "category", "--controls", "Wind,Solar.R", "--weights", "w", "--randomized", "--planned"},
+	}
+	for name, args := range cases {
+		t.Run(name, func(t *testing.T) {
+			csv := copyFile(t, filepath.Join(rDir, args[0]))
+			code, out, errs := runCLI(t, append([]string{"analyze", csv, "--json", "--dry-run"}, args[1:]...)...)
+			if code != exitOK {
+				t.Fatalf("exit %d: %s", code, errs)
+			}
+			want, err := os.ReadFile(filepath.Join("testdata", "trial-json", name+".json"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			if out != string(want) {
+				t.Errorf("the JSON changed:\n%s\nwas:\n%s", out, want)
+			}
+		})
+	}
+}
+
+// TestBeforeAfterCommand: the options of a before-and-after comparison,
+// their refusals, the JSON's design and the note's words for it.
+func TestBeforeAfterCommand(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "did_panel.csv"))
+	base := []string{"analyze", csv, "--outcome", "earnings", "--treatment", "coached", "--moderator", "region", "--dry-run"}
+	with := func(extra ...string) []string { return append(append([]string{}, base...), extra...) }
+	for _, c := range []struct {
+		args  []string
+		code  int
+		words string
+	}{
+		{with("--after", "1"), exitUsage, "--after names the value of the period column after the start, so it needs --period COL"},
+		{with("--unit-effects"), exitUsage, "--unit-effects needs --unit COL"},
+		{with("--control-arm", "0", "--treated", "1"), exitUsage, "give one of them"},
+		{with("--period", "when"), exitData, `has no column "when"`},
+		{with("--period", "year"), exitData, `the period column "year" holds "2023", "2024"; say which one means after the programme started with --after VALUE`},
+		{with("--period", "year", "--after", "2025"), exitData, `The value "2025", chosen as after, does not appear in the period column "year"`},
+		{with("--period", "post", "--unit", "weight", "--unit-effects", "--se", "hc3"), exitData, "and 20 more have leverage 1 (with unit effects, the only row of a unit"},
+		{[]string{"screen", csv, "--outcome", "earnings", "--treatment", "coached", "--moderators", "region,high", "--period", "post"}, exitUsage, "--period is an option of analyze"},
+		{[]string{"screen", csv, "--outcome", "earnings", "--treatment", "coached", "--moderators", "region,high", "--control-arm", "0"}, exitUsage, "--control-arm is an option of analyze"},
+	} {
+		code, _, errs := runCLI(t, c.args...)
+		if code != c.code || !strings.Contains(errs, c.words) {
+			t.Errorf("%v: exit %d, stderr %q; want %d and %q", c.args[len(base)-1:], code, errs, c.code, c.words)
+		}
+	}
+	code, out, errs := runCLI(t, with("--period", "post", "--unit", "person", "--unit-effects", "--controls", "age", "--randomized", "--json")...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	d := o.Design
+	if d == nil || d.Kind != "before_after" || d.Unit != "person" || d.Units != 78 || !d.UnitEffects || d.Cells == nil || d.Cells.ProgrammeAfter != 40 ||
+		strings.Join(d.Absorbed, "|") != "coached|region = East|region = South|coached × region = East|coached × region = South" {
+		t.Errorf("design %+v", d)
+	}
+	if o.SEType != "cluster" || !strings.Contains(errs, "rows of the same person to be alike (cluster-robust, CR1, 78 clusters)") {
+		t.Errorf("not clustered by person: %s", o.SEType)
+	}
+	for _, words := range []string{"a difference in differences", "would have moved in parallel (common trends)",
+		`Each of the 78 units of "person" was compared with itself (unit effects)`} {
+		if !strings.Contains(o.Note, words) {
+			t.Errorf("the note does not say %q:\n%s", words, o.Note)
+		}
+	}
+	if !strings.Contains(errs, "(difference in differences: after = post = 1, against before)") || !strings.Contains(errs, "Unit effects: 78 units of person; not estimated separately: coached, region = East") {
+		t.Errorf("the summary does not name the design:\n%s", errs)
+	}
+}
+
+// TestSeveralArmsCommand: a treatment of three arms needs its comparison
+// arm named; with it, every effect and difference names its arm, in the
+// summary, the JSON and the note.
+func TestSeveralArmsCommand(t *testing.T) {
+	csv := copyFile(t, filepath.Join(rDir, "arms.csv"))
+	base := []string{"analyze", csv, "--outcome", "earnings", "--treatment", "arm", "--moderator", "region", "--dry-run"}
+	code, _, errs := runCLI(t, base...)
+	if code != exitData || !strings.Contains(errs, `the treatment "arm" holds 3 arms ("coaching", "stipend", "waitlist"); name the comparison arm with --control-arm LABEL`) {
+		t.Errorf("exit %d: %s", code, errs)
+	}
+	code, out, errs := runCLI(t, append(base, "--control-arm", "waitlist", "--json", "--randomized")...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	if len(o.Groups) != 6 || o.Groups[0].Arm != "coaching" || o.Groups[5].Arm != "stipend" || o.Differences[0].Arm != "coaching" || len(o.Arms) != 2 {
+		t.Errorf("groups %+v, arms %+v", o.Groups, o.Arms)
+	}
+	for _, words := range []string{`The treatment "arm" has 2 arms besides the comparison arm "waitlist"`, `The estimated effect of "stipend" against "waitlist" on earnings was`,
+		"after Holm's adjustment over the 2 arms", "Testing whether any arm's effect differs between groups at all"} {
+		if !strings.Contains(o.Note, words) {
+			t.Errorf("the note does not say %q:\n%s", words, o.Note)
+		}
+	}
+	if !strings.Contains(errs, "stipend: South vs North") || !strings.Contains(errs, "Same effect of coaching in every group?") {
+		t.Errorf("the summary does not name the arms:\n%s", errs)
+	}
+}
+
+// TestLeadsCommand: a period column of five years, the start in 2023: the
+// leads of 2020 and 2021 against 2022 are in the summary, the JSON (equal
+// to R's, testdata/r/make_did.R, did_leads) and the note.
+func TestLeadsCommand(t *testing.T) {
+	ref := readReference(t, "did.txt")["did_leads"]
+	csv := copyFile(t, filepath.Join(rDir, "did_leads.csv"))
+	code, out, errs := runCLI(t, "analyze", csv, "--outcome", "earnings", "--treatment", "coached", "--period", "year", "--after", "2023",
+		"--unit", "person", "--moderator", "region", "--controls", "hours", "--dry-run", "--json")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	l := o.Design.Leads
+	if l == nil || l.Reference != "2022" || len(l.Leads) != 2 || l.Test == nil || l.Contradicts {
+		t.Fatalf("leads %+v", l)
+	}
+	for _, g := range l.Leads {
+		for key, got := range map[string]float64{".est": g.Estimate, ".se": g.SE, ".p": g.P} {
+			// R 4.2.2 lm + sandwich 3.0.2 (make_did.R)
+			if want := ref["CR1 lead["+g.Label+"]"+key]; math.Abs(got-want) > 1e-8*math.Abs(want) {
+				t.Errorf("lead %s%s = %.17g, R gives %.17g", g.Label, key, got, want)
+			}
+		}
+	}
+	if want := ref["CR1 leads.F"]; math.Abs(l.Test.F-want) > 1e-8*want {
+		t.Errorf("leads F = %.17g, R gives %.17g", l.Test.F, want)
+	}
+	if !strings.Contains(o.Note, "measured against their gap in year 2022 (the last period before the start)") || !strings.Contains(o.Note, "do not contradict common trends") {
+		t.Errorf("the note:\n%s", o.Note)
+	}
+	if !strings.Contains(errs, "Parallel before the start? F = ") {
+		t.Errorf("the summary:\n%s", errs)
+	}
+}
+
+// TestRolloutDemoEndToEnd: slopewise demo writes the roll-out workbook
+// beside the pilot; analysed as its Notes sheet says (before and after,
+// two arms, unit effects), every arm's true effect in every region lies
+// inside its 95% interval, and the results are written into it.
+func TestRolloutDemoEndToEnd(t *testing.T) {
+	dir := filepath.Dir(writeDemo(t))
+	path := filepath.Join(dir, demodata.RolloutFile)
+	args := strings.Fields(demodata.RolloutCommand)[1:]
+	args[1] = path
+	code, out, errs := runCLI(t, append(args, "--json")...)
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	var o report.Output
+	if err := json.Unmarshal([]byte(out), &o); err != nil {
+		t.Fatal(err)
+	}
+	truth := demodata.RolloutTrueEffects()
+	if len(o.Groups) != 8 || o.Design == nil || !o.Design.UnitEffects || len(o.Arms) != 2 {
+		t.Fatalf("groups %d, design %+v, arms %+v", len(o.Groups), o.Design, o.Arms)
+	}
+	for _, g := range o.Groups {
+		want := truth[g.Arm][g.Label]
+		if !(g.CILow < want && want < g.CIHigh) {
+			t.Errorf("%s in %s: %.1f [%.1f, %.1f] misses the truth %g", g.Arm, g.Label, g.Estimate, g.CILow, g.CIHigh, want)
+		}
+	}
+	if !strings.Contains(errs, "Results written to") {
+		t.Errorf("no results written:\n%s", errs)
+	}
+	// Clustered by site, in which the people (the unit) lie: the grouping
+	// check does not warn about the unit column it was told of.
+	code, _, errs = runCLI(t, append(args, "--cluster", "site", "--dry-run")...)
+	if code != exitOK || strings.Contains(errs, "Warning:") {
+		t.Errorf("exit %d, a warning about the unit:\n%s", code, errs)
 	}
 }

@@ -49,12 +49,23 @@ type screenFlags struct {
 // analyzeOnly are analyze's options about its one moderator.
 var analyzeOnly = []string{"moderator", "moderator-type", "reference", "moderator-values", "center"}
 
+// analyzeDesign are analyze's options of a before-and-after design.
+var analyzeDesign = []string{"period", "after", "unit", "unit-effects", "control-arm"}
+
 func parseScreen(args []string, stdout io.Writer) (*screenFlags, error) {
 	for _, a := range args {
 		name, _, _ := strings.Cut(strings.TrimLeft(a, "-"), "=")
 		for _, only := range analyzeOnly {
 			if strings.HasPrefix(a, "-") && name == only {
 				return nil, usagef("--%s is an option of analyze, about its one moderator; screen takes --moderators A,B,C and detects each one's kind", only)
+			}
+		}
+	}
+	for _, a := range args {
+		name, _, _ := strings.Cut(strings.TrimLeft(a, "-"), "=")
+		for _, only := range analyzeDesign {
+			if strings.HasPrefix(a, "-") && name == only {
+				return nil, usagef("--%s is an option of analyze, for a before-and-after comparison or several arms; screen compares moderators of a single two-arm trial only", only)
 			}
 		}
 	}

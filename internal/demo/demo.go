@@ -294,11 +294,16 @@ func Workbook() ([]byte, error) {
 // setProperties names the workbook's author and program as Slopewise and
 // fixes its dates, so that the bytes, not only the cells, repeat.
 func setProperties(f *excelize.File) error {
+	return setPropertiesOf(f, "Harbourline job-coaching pilot (invented demonstration data)")
+}
+
+// setPropertiesOf is setProperties with the workbook's title.
+func setPropertiesOf(f *excelize.File, title string) error {
 	const made = "2024-06-11T00:00:00Z"
 	err := f.SetDocProps(&excelize.DocProperties{
 		Creator:        "Slopewise",
 		LastModifiedBy: "Slopewise",
-		Title:          "Harbourline job-coaching pilot (invented demonstration data)",
+		Title:          title,
 		Description:    "Invented data drawn by Slopewise from a stated process with known effects; see the Notes sheet.",
 		Created:        made,
 		Modified:       made,
@@ -310,7 +315,21 @@ func setProperties(f *excelize.File) error {
 }
 
 func writeParticipants(f *excelize.File, people []participant) error {
-	const sh = SheetParticipants
+	values := make([][]any, len(people))
+	for i, p := range people {
+		values[i] = []any{p.id, p.site, p.region, yesNo(p.firstTime), p.score, p.age, zeroOne(p.coached), p.earnings}
+	}
+	messy := map[string]MessyCell{}
+	for _, m := range MessyCells() {
+		messy[m.Cell] = m
+	}
+	return writeTable(f, SheetParticipants, Title, Columns(), values, []float64{15, 7, 10, 11, 15, 6, 9, 13}, messy)
+}
+
+// writeTable writes a data sheet: the title in A1, the header in bold on
+// HeaderRow, one row of values a record below it, the messy cells spoilt
+// (writeMessy), the columns' widths, and the header frozen.
+func writeTable(f *excelize.File, sh, title string, header []string, values [][]any, widths []float64, messy map[string]MessyCell) error {
 	bold, err := f.NewStyle(&excelize.Style{Font: &excelize.Font{Bold: true}})
 	if err != nil {
 		return err
@@ -319,13 +338,12 @@ func writeParticipants(f *excelize.File, people []participant) error {
 	if err != nil {
 		return err
 	}
-	if err := f.SetCellStr(sh, "A1", Title); err != nil {
+	if err := f.SetCellStr(sh, "A1", title); err != nil {
 		return err
 	}
 	if err := f.SetCellStyle(sh, "A1", "A1", titleStyle); err != nil {
 		return err
 	}
-	header := Columns()
 	row := make([]any, len(header))
 	for i, name := range header {
 		row[i] = name
@@ -336,14 +354,9 @@ func writeParticipants(f *excelize.File, people []participant) error {
 	if err := f.SetCellStyle(sh, cellRef(0, HeaderRow), cellRef(len(header)-1, HeaderRow), bold); err != nil {
 		return err
 	}
-	messy := map[string]MessyCell{}
-	for _, m := range MessyCells() {
-		messy[m.Cell] = m
-	}
-	for i, p := range people {
-		values := []any{p.id, p.site, p.region, yesNo(p.firstTime), p.score, p.age, zeroOne(p.coached), p.earnings}
+	for i, vs := range values {
 		r := HeaderRow + 1 + i
-		for c, v := range values {
+		for c, v := range vs {
 			ref := cellRef(c, r)
 			if m, ok := messy[ref]; ok {
 				if err := writeMessy(f, m); err != nil {
@@ -356,14 +369,13 @@ func writeParticipants(f *excelize.File, people []participant) error {
 			}
 		}
 	}
-	widths := []float64{15, 7, 10, 11, 15, 6, 9, 13}
 	for c, w := range widths {
 		col, _ := excelize.ColumnNumberToName(c + 1)
 		if err := f.SetColWidth(sh, col, col, w); err != nil {
 			return err
 		}
 	}
-	if err := f.SetSheetDimension(sh, "A1:"+cellRef(len(header)-1, HeaderRow+len(people))); err != nil {
+	if err := f.SetSheetDimension(sh, "A1:"+cellRef(len(header)-1, HeaderRow+len(values))); err != nil {
 		return err
 	}
 	return f.SetPanes(sh, &excelize.Panes{Freeze: true, YSplit: HeaderRow, TopLeftCell: cellRef(0, HeaderRow+1), ActivePane: "bottomLeft"})
@@ -473,9 +485,12 @@ func zeroOne(b bool) int {
 
 // writeNotes writes the Notes sheet: one line of plain text a row in
 // column A.
-func writeNotes(f *excelize.File) error {
+func writeNotes(f *excelize.File) error { return writeLines(f, notes()) }
+
+// writeLines writes lines on the Notes sheet, one a row in column A; the
+// first line and each after an empty one are headings, in bold.
+func writeLines(f *excelize.File, lines []string) error {
 	const sh = SheetNotes
-	lines := notes()
 	heading, err := f.NewStyle(&excelize.Style{Font: &excelize.Font{Bold: true}})
 	if err != nil {
 		return err

@@ -18,7 +18,7 @@ import (
 	"slopewise/internal/io/workbook"
 )
 
-const regenerate = "go run ./internal/demo/gen assets/demo.xlsx"
+const regenerate = "go run ./internal/demo/gen assets/demo.xlsx assets/demo-rollout.xlsx"
 
 func open(t *testing.T, b []byte) *excelize.File {
 	t.Helper()
@@ -497,5 +497,58 @@ func TestReadmeRemarks(t *testing.T) {
 	}
 	if firstTime != 601 {
 		t.Errorf("%d first-time job seekers, README says 601", firstTime)
+	}
+}
+
+// TestRolloutCommitted: the committed roll-out workbook is what
+// RolloutWorkbook makes now (cell values), and its rows follow the
+// process: two rows a person, 2023 then 2024, one arm a person, the
+// comparison arm at exactly half the sites, three of them in each region.
+func TestRolloutCommitted(t *testing.T) {
+	fresh, err := RolloutWorkbook()
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, got := open(t, fresh), open(t, assets.DemoRolloutWorkbook)
+	for _, sh := range []string{SheetRollout, SheetNotes} {
+		w, _ := want.GetRows(sh, excelize.Options{RawCellValue: true})
+		g, _ := got.GetRows(sh, excelize.Options{RawCellValue: true})
+		if len(w) == 0 || len(w) != len(g) {
+			t.Fatalf("sheet %q: committed %d rows, fresh %d; run %s", sh, len(g), len(w), regenerate)
+		}
+		for r := range w {
+			if !slices.Equal(w[r], g[r]) {
+				t.Fatalf("sheet %q row %d: committed %q, fresh %q; run %s", sh, r+1, g[r], w[r], regenerate)
+			}
+		}
+	}
+	rows := drawRollout()
+	if len(rows) != RolloutRows {
+		t.Fatalf("%d rows, want %d", len(rows), RolloutRows)
+	}
+	comparison := map[string]map[string]bool{} // region → site → only "none"
+	for i := 0; i < len(rows); i += 2 {
+		a, b := rows[i], rows[i+1]
+		if a.person != b.person || a.year != 2023 || b.year != 2024 || a.arm != b.arm {
+			t.Fatalf("rows %d and %d: %+v, %+v", i, i+1, a, b)
+		}
+		if comparison[a.region] == nil {
+			comparison[a.region] = map[string]bool{}
+		}
+		if _, seen := comparison[a.region][a.site]; !seen {
+			comparison[a.region][a.site] = true
+		}
+		comparison[a.region][a.site] = comparison[a.region][a.site] && a.arm == ArmNone
+	}
+	for region, sites := range comparison {
+		n := 0
+		for _, none := range sites {
+			if none {
+				n++
+			}
+		}
+		if len(sites) != SitesPerRegion || n != SitesPerRegion/2 {
+			t.Errorf("region %s: %d sites, %d without the programme", region, len(sites), n)
+		}
 	}
 }

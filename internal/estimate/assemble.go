@@ -43,7 +43,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	res.Rows = RowSummary{Read: ds.rowsRead, Used: n, Dropped: len(ds.dropped), Reasons: ds.counts, List: ds.dropped}
 
 	res.Model = ModelInfo{Terms: k, Variance: vt, DF: df, Clusters: len(ds.clusterLabels),
-		Sigma: math.Sqrt(f.rss / float64(n-k)), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
+		Sigma: math.Sqrt(f.rss / float64(n-k-ds.absorbedDF())), Condition: f.qr.cond(), Alpha: s.Alpha, Power: s.Power}
 	facts := ds.facts
 	if facts == nil {
 		facts = ds.rowFacts(f)
@@ -51,6 +51,7 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 	res.Model.R2, res.Model.AdjR2 = facts.r2, facts.adjR2
 	res.Model.OutcomeBinary = facts.outcomeBinary
 	res.Model.DataSHA256 = facts.hash
+	res.Design = ds.designInfo(s, facts)
 
 	res.Covariance = make([][]float64, k)
 	for i := 0; i < k; i++ {
@@ -60,11 +61,15 @@ func (ds *design) result(s Spec, f *lsFit, v []float64, vt VarianceType, df int,
 		res.Coefficients = append(res.Coefficients, Coefficient{Term: ds.names[i], Role: ds.roles[i], Inference: in.combo(a)})
 	}
 
-	if ds.modValue != nil {
+	switch {
+	case ds.modValue != nil:
 		ds.continuousEffects(s, in, res)
-	} else {
-		ds.groupEffects(s, in, res, facts)
+	case ds.arms != nil:
+		ds.armEffects(s, in, res, facts)
+	default:
+		ds.groupEffectsOf(s, in, res, facts, ds.tCol, ds.iCols)
 	}
+	res.Leads = ds.leadsCheck(s, in)
 	if nj := judgeJoint(len(ds.iCols), len(ds.clusterLabels)); nj != nil {
 		res.HeterogeneityNotJudged = nj
 	} else if w, ok := in.wald(ds.iCols); ok {
@@ -84,13 +89,20 @@ type rowFacts struct {
 	outcomeBinary bool
 	hash          string
 	rows, treated []int // by moderator level
+	// cells counts the rows of a before-and-after design by group of
+	// units and period (2·T + P).
+	cells [4]int
 }
 
 // rowFacts computes the facts from the design's rows.
 func (ds *design) rowFacts(f *lsFit) *rowFacts {
 	rf := &rowFacts{outcomeBinary: true}
+	ys := ds.y
+	if ds.yRaw != nil {
+		ys = ds.yRaw
+	}
 	var sw, swy float64
-	for i, y := range ds.y {
+	for i, y := range ys {
 		w := 1.0
 		if ds.w != nil {
 			w = ds.w[i]
@@ -108,14 +120,17 @@ func (ds *design) rowFacts(f *lsFit) *rowFacts {
 	}
 	mean := swy / sw
 	var tss float64
-	for i, y := range ds.y {
+	for i, y := range ys {
 		w := 1.0
 		if ds.w != nil {
 			w = ds.w[i]
 		}
 		tss += w * (y - mean) * (y - mean)
 	}
-	rf.r2, rf.adjR2 = rSquared(f.rss, tss, ds.n, ds.k)
+	rf.r2, rf.adjR2 = rSquared(f.rss, tss, ds.n, ds.k+ds.absorbedDF())
+	for r, p := range ds.period {
+		rf.cells[2*int(ds.treat[r])+int(p)]++
+	}
 	if ds.modLevel != nil {
 		rf.rows = make([]int, len(ds.levels))
 		rf.treated = make([]int, len(ds.levels))
@@ -217,9 +232,11 @@ func (rh *rowHash) sum() string {
 	return hex.EncodeToString(rh.h.Sum(nil))
 }
 
-// groupEffects fills the effects and differences of a binary or
-// categorical moderator: θ(level) = b1 + b3[level] (METHODS §4).
-func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFacts) {
+// groupEffectsOf fills the effects and differences of a binary or
+// categorical moderator: θ(level) = b1 + b3[level] (METHODS §4), b1 the
+// coefficient of column tCol and b3 those of iCols (one arm's, with
+// several arms).
+func (ds *design) groupEffectsOf(s Spec, in *inferencer, res *Result, facts *rowFacts, tCol int, iCols []int) {
 	res.Moderator = ModeratorInfo{Column: s.Moderator.Column, Kind: s.Moderator.Kind, Levels: ds.levels, Reference: ds.levels[ds.ref]}
 	binaryT := s.Treatment.Kind != TreatmentContinuous
 	// icol[level] is the interaction column of the level, −1 for the reference.
@@ -230,7 +247,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 			icol[j] = -1
 			continue
 		}
-		icol[j] = ds.iCols[next]
+		icol[j] = iCols[next]
 		next++
 	}
 	rows, treated := facts.rows, facts.treated
@@ -243,7 +260,7 @@ func (ds *design) groupEffects(s Spec, in *inferencer, res *Result, facts *rowFa
 	}
 	for _, j := range order {
 		a := make([]float64, ds.k)
-		a[ds.tCol] = 1
+		a[tCol] = 1
 		if icol[j] >= 0 {
 			a[icol[j]] = 1
 		}

@@ -608,6 +608,32 @@ func (ds *design) bootstrap(ctx context.Context, f *lsFit, s Spec, res *Result, 
 			h.PBoot = &p
 		}
 	}
+	for a := range res.Arms {
+		// Each arm's test, the same restricted bootstrap of its Wald
+		// statistic; then Holm over the arms again, on these p-values.
+		if h := res.Arms[a].Heterogeneity; h != nil {
+			if p, ok := w.wald(ds.arms[a].iCols, f.coef, h.F); ok {
+				h.PBoot = &p
+			}
+		}
+	}
+	if res.Arms != nil {
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+		adjustArms(res)
+	}
+	if lc := res.Leads; lc != nil && lc.Test != nil {
+		// The leads' test, the same restricted bootstrap of its Wald
+		// statistic, which then decides Contradicts.
+		if p, ok := w.wald(ds.leadCols, f.coef, lc.Test.F); ok {
+			lc.Test.PBoot = &p
+			lc.Contradicts = p < s.Alpha
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+	}
 	step()
 	if lin != nil {
 		// The check of the line: the same restricted bootstrap of the

@@ -3,6 +3,7 @@ package estimate
 import (
 	"fmt"
 	"math"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -30,6 +31,15 @@ const (
 	roleModerator   = "moderator"
 	roleInteraction = "interaction"
 	roleControl     = "control"
+	// A before-and-after design (METHODS §10) adds the treated group's and
+	// the period's own terms and their products with the moderator; its
+	// roleTreatment term is the group × period product, whose coefficient
+	// is the difference in differences, and its roleInteraction terms are
+	// the triple products.
+	roleGroup           = "group"
+	rolePeriod          = "period"
+	roleGroupModerator  = "group × moderator"
+	rolePeriodModerator = "period × moderator"
 )
 
 // design is the model matrix and everything needed to read the fit back.
@@ -39,7 +49,10 @@ type design struct {
 	roles []string
 	x     []float64 // unweighted, n×k row-major
 	y     []float64
-	w     []float64 // nil without weights
+	// yRaw is the outcome before the within transformation (unit
+	// effects), for R² and the check of a 0/1 outcome; nil without.
+	yRaw []float64
+	w    []float64 // nil without weights
 
 	rowsRead int
 	used     []int // data row index of each used row
@@ -47,6 +60,26 @@ type design struct {
 	counts   []DropCount
 
 	treat []float64 // T of each used row
+	// A treatment of several arms (METHODS §11): each used row's arm, 0
+	// for the comparison arm, j for armLabels[j−1]; and each arm's
+	// columns.
+	arm       []int
+	armLabels []string
+	arms      []armTerms
+	// period is P of each used row (1 after the start), nil unless the
+	// design is a difference in differences; gCol and pCol are then the
+	// columns of T and P, and tCol that of T·P.
+	period     []float64
+	gCol, pCol int
+	// With more than two periods (leads.go): each used row's period,
+	// the periods in level order, the last one before the start (the
+	// reference), and the leads' columns and periods.
+	periodLevel  []int
+	periodLevels []string
+	refPeriod    int
+	leadCols     []int
+	leadLevels   []int
+	leadArms     []int // with several arms: the arm of each lead
 
 	// Binary or categorical moderator.
 	levels   []string
@@ -62,6 +95,14 @@ type design struct {
 
 	cluster       []int
 	clusterLabels []string
+
+	// unit numbers each used row's unit when the spec names one; with
+	// unit effects, within holds the unit means the columns were demeaned
+	// by (within.go) and absorbed the names of the terms that dropped out.
+	unit       []int
+	unitLabels []string
+	within     *within
+	absorbed   []string
 
 	// effectA and diffA are the combinations a of the coefficients that
 	// give each effect and difference of the result, in its order.
@@ -181,15 +222,23 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	if err != nil {
 		return nil, err
 	}
-	treat, err := get(s.Treatment.Column, "treatment", s.Treatment.Kind != TreatmentLabels)
+	treat, err := get(s.Treatment.Column, "treatment", !s.Treatment.labelled())
 	if err != nil {
 		return nil, err
+	}
+	checks := []roleColumn{outcome, treat}
+	var period roleColumn
+	if s.DiD() {
+		if period, err = get(s.Period, "period", s.After == ""); err != nil {
+			return nil, err
+		}
+		checks = append(checks, period)
 	}
 	mod, err := get(s.Moderator.Column, "moderator", s.Moderator.Kind == ModeratorContinuous)
 	if err != nil {
 		return nil, err
 	}
-	checks := []roleColumn{outcome, treat, mod}
+	checks = append(checks, mod)
 	var controls []roleColumn
 	for _, name := range s.Controls {
 		rc, err := get(name, "control", false)
@@ -205,6 +254,15 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 			return nil, err
 		}
 		checks = append(checks, cluster)
+	}
+	var unit roleColumn
+	if s.Unit != "" {
+		if unit, err = get(s.Unit, "unit", false); err != nil {
+			return nil, err
+		}
+		if s.Unit != s.Cluster {
+			checks = append(checks, unit)
+		}
 	}
 	var weight roleColumn
 	if s.Weights != "" {
@@ -268,6 +326,11 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 	if err := ds.readTreatment(d, s, treat.col); err != nil {
 		return nil, err
 	}
+	if s.DiD() {
+		if err := ds.readPeriod(d, s, period.col); err != nil {
+			return nil, err
+		}
+	}
 	if err := ds.readModerator(d, s, mod.col); err != nil {
 		return nil, err
 	}
@@ -282,7 +345,10 @@ func buildDesign(d *Data, s Spec) (*design, error) {
 		}
 	}
 	if s.Cluster != "" {
-		ds.readCluster(cluster.col)
+		ds.cluster, ds.clusterLabels = ds.numberKeys(cluster.col)
+	}
+	if s.Unit != "" {
+		ds.unit, ds.unitLabels = ds.numberKeys(unit.col)
 	}
 	ds.assemble(s, controls)
 	return ds, nil
@@ -336,26 +402,46 @@ func (ds *design) readTreatment(d *Data, s Spec, c *Column) error {
 		if bad != nil {
 			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q should hold only 0 (untreated) and 1 (treated), but row %d holds %s (%d rows in all). If it is a dose or amount, choose the kind \"continuous\"; otherwise correct those cells.", c.Name, bad[0], formatNumber(first), len(bad)), bad...)
 		}
+	case TreatmentArms:
+		return ds.readArms(d, s, c)
 	case TreatmentLabels:
-		seen := map[string]int{}
-		for _, i := range ds.used {
-			seen[c.key(i)]++
-		}
-		labels := sortedLevels(seen)
 		treated := s.Treatment.Treated
-		if seen[treated] == 0 {
-			return fail(ErrValues, c.Name, fmt.Sprintf("The label %q, chosen as treated, does not appear in column %q among the rows used; its labels are %s.", treated, c.Name, quoteList(labels)))
-		}
-		if len(labels) != 2 {
-			return fail(ErrValues, c.Name, fmt.Sprintf("The treatment column %q has %d different labels (%s); it needs exactly two, one meaning treated. Correct the cells or recode the column.", c.Name, len(labels), quoteList(labels)))
-		}
-		for r, i := range ds.used {
-			if c.key(i) == treated {
-				ds.treat[r] = 1
-			}
-		}
+		var err error
+		ds.treat, err = ds.twoLabels(c, func(labels []string) (string, bool) {
+			return treated, slices.Contains(labels, treated)
+		}, func(labels []string) string {
+			return fmt.Sprintf("The label %q, chosen as treated, does not appear in column %q among the rows used; its labels are %s.", treated, c.Name, quoteList(labels))
+		}, func(labels []string) string {
+			return fmt.Sprintf("The treatment column %q has %d different labels (%s); it needs exactly two, one meaning treated. Correct the cells or recode the column.", c.Name, len(labels), quoteList(labels))
+		})
+		return err
 	}
 	return nil
+}
+
+// twoLabels reads a column of two labels as 0/1: 1 where a row holds the
+// label find picks among the column's labels. absent words the refusal
+// when find picks none, notTwo when there are not two labels.
+func (ds *design) twoLabels(c *Column, find func(labels []string) (string, bool), absent, notTwo func(labels []string) string) ([]float64, error) {
+	seen := map[string]int{}
+	for _, i := range ds.used {
+		seen[c.key(i)]++
+	}
+	labels := sortedLevels(seen)
+	one, ok := find(labels)
+	if !ok {
+		return nil, fail(ErrValues, c.Name, absent(labels))
+	}
+	if len(labels) != 2 {
+		return nil, fail(ErrValues, c.Name, notTwo(labels))
+	}
+	v := make([]float64, ds.n)
+	for r, i := range ds.used {
+		if c.key(i) == one {
+			v[r] = 1
+		}
+	}
+	return v, nil
 }
 
 // readModerator fills the moderator's levels or values.
@@ -429,11 +515,13 @@ func (ds *design) readModerator(d *Data, s Spec, c *Column) error {
 	return nil
 }
 
-// readCluster numbers the clusters in order of first appearance. Numeric
-// cluster columns are keyed by value, so that a million rows cost no
-// formatting.
-func (ds *design) readCluster(c *Column) {
-	ds.cluster = make([]int, ds.n)
+// numberKeys numbers the values of a cluster or unit column in order of
+// first appearance among the used rows, and returns each row's number and
+// the labels. Numeric columns are keyed by value, so that a million rows
+// cost no formatting.
+func (ds *design) numberKeys(c *Column) ([]int, []string) {
+	ids := make([]int, ds.n)
+	var labels []string
 	byText := map[string]int{}
 	byValue := map[float64]int{}
 	for r, i := range ds.used {
@@ -445,17 +533,76 @@ func (ds *design) readCluster(c *Column) {
 			j, ok = byText[c.Text[i]]
 		}
 		if !ok {
-			j = len(ds.clusterLabels)
-			ds.clusterLabels = append(ds.clusterLabels, c.key(i))
+			j = len(labels)
+			labels = append(labels, c.key(i))
 			if c.IsNumeric() {
 				byValue[c.Num[i]] = j
 			} else {
 				byText[c.Text[i]] = j
 			}
 		}
-		ds.cluster[r] = j
+		ids[r] = j
 	}
+	return ids, labels
 }
+
+// readPeriod fills ds.period: a 0/1 column as it is, or 1 where the
+// column holds the value named as after, which must be one of exactly two.
+func (ds *design) readPeriod(d *Data, s Spec, c *Column) error {
+	if s.After == "" {
+		ds.period = make([]float64, ds.n)
+		for r, i := range ds.used {
+			v := c.Num[i]
+			if v != 0 && v != 1 {
+				return fail(ErrValues, c.Name, fmt.Sprintf("The period column %q should hold only 0 (before the programme started) and 1 (after), but row %d holds %s. If it holds two other values, say which one means after.", c.Name, d.label(i), formatNumber(v)), d.label(i))
+			}
+			ds.period[r] = v
+		}
+		return nil
+	}
+	if many, err := ds.readPeriods(c, s); many || err != nil {
+		return err
+	}
+	var err error
+	ds.period, err = ds.twoLabels(c, func(labels []string) (string, bool) {
+		return findLevel(labels, s.After)
+	}, func(labels []string) string {
+		return fmt.Sprintf("The value %q, chosen as after, does not appear in the period column %q among the rows used; its values are %s.", ShortLabel(s.After), c.Name, quoteList(labels))
+	}, func(labels []string) string {
+		return fmt.Sprintf("The period column %q has %d different values (%s); a before-and-after comparison needs exactly two, one of them after the start. Recode the column, or keep the rows of one period before and one after.", c.Name, len(labels), quoteList(labels))
+	})
+	return err
+}
+
+// findLevel finds a level named in the spec (the value after the start,
+// the comparison arm); a number matches the same number written otherwise
+// ("2020.0" is "2020").
+func findLevel(levels []string, after string) (string, bool) {
+	for _, l := range levels {
+		if l == after {
+			return l, true
+		}
+	}
+	if v, err := strconv.ParseFloat(strings.TrimSpace(after), 64); err == nil {
+		for _, l := range levels {
+			if w, err := strconv.ParseFloat(l, 64); err == nil && w == v {
+				return l, true
+			}
+		}
+	}
+	return "", false
+}
+
+// treatGroup is a group whose effect the model estimates: the treated
+// rows, or one arm; is(r) is 1 for its rows.
+type treatGroup struct {
+	name string
+	is   func(r int) float64
+}
+
+// fill writes a term's column j of the row-major n×k matrix x for rows
+// from to to (assemble).
+type fill func(x []float64, j, k, from, to int)
 
 // assemble writes the model matrix: intercept, treatment, moderator,
 // treatment × moderator, controls (METHODS §1). Each term is a function
@@ -463,7 +610,6 @@ func (ds *design) readCluster(c *Column) {
 // matrix is filled a block of rows at a time, so that the block stays in
 // cache while each term writes its column of it, the blocks in parallel.
 func (ds *design) assemble(s Spec, controls []roleColumn) {
-	type fill func(x []float64, j, k, from, to int)
 	var fills []fill
 	add := func(name, role string, f fill) int {
 		ds.names = append(ds.names, name)
@@ -476,15 +622,62 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			x[r*k+j] = 1
 		}
 	})
-	tName := s.Treatment.Column
-	if s.Treatment.Kind == TreatmentLabels {
-		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
-	}
-	ds.tCol = add(tName, roleTreatment, func(x []float64, j, k, from, to int) {
-		for r := from; r < to; r++ {
-			x[r*k+j] = ds.treat[r]
+	// The groups whose effect is estimated: the treated rows, or each arm
+	// of several (arms.go), each with its indicator.
+	groups := []treatGroup{{treatmentName(s), func(r int) float64 { return ds.treat[r] }}}
+	if ds.arm != nil {
+		groups = groups[:0]
+		for a, label := range ds.armLabels {
+			groups = append(groups, treatGroup{armName(s, label), func(r int) float64 {
+				if ds.arm[r] == a+1 {
+					return 1
+				}
+				return 0
+			}})
 		}
-	})
+	}
+	product := func(f, g func(r int) float64) fill {
+		return func(x []float64, j, k, from, to int) {
+			for r := from; r < to; r++ {
+				x[r*k+j] = f(r) * g(r)
+			}
+		}
+	}
+	one := func(int) float64 { return 1 }
+	// after is row r's value of the period's after indicator: 1 outside a
+	// before-and-after design, where the effect term is the group itself.
+	after, pName := one, ""
+	if ds.period != nil {
+		after = func(r int) float64 { return ds.period[r] }
+		for a, g := range groups {
+			if j := add(g.name, roleGroup, product(g.is, one)); a == 0 {
+				ds.gCol = j
+			}
+		}
+		pName = periodName(s)
+		if ds.periodLevels != nil {
+			ds.pCol = -1
+			pName = ds.addPeriods(s, add)
+		} else {
+			ds.pCol = add(pName, rolePeriod, product(after, one))
+		}
+	}
+	// effName is a group's effect term: the group, or the group × period.
+	effName := func(g treatGroup) string {
+		if pName == "" {
+			return g.name
+		}
+		return g.name + " × " + pName
+	}
+	tCols := make([]int, len(groups))
+	for a, g := range groups {
+		tCols[a] = add(effName(g), roleTreatment, product(g.is, after))
+	}
+	if ds.periodLevels != nil {
+		for a, g := range groups {
+			ds.addLeads(s, g, a, add)
+		}
+	}
 
 	// mod(r, j) is row r's value of the moderator's column j.
 	var modNames []string
@@ -518,12 +711,27 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			}
 		}))
 	}
-	for m, name := range modNames {
-		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction, func(x []float64, j, k, from, to int) {
-			for r := from; r < to; r++ {
-				x[r*k+j] = ds.treat[r] * mod(r, m)
+	if ds.period != nil {
+		for _, g := range groups {
+			for m, name := range modNames {
+				add(g.name+" × "+name, roleGroupModerator, product(g.is, func(r int) float64 { return mod(r, m) }))
 			}
-		}))
+		}
+		for m, name := range modNames {
+			add(pName+" × "+name, rolePeriodModerator, product(after, func(r int) float64 { return mod(r, m) }))
+		}
+	}
+	iCols := make([][]int, len(groups))
+	for a, g := range groups {
+		eff := func(r int) float64 { return g.is(r) * after(r) }
+		for m, name := range modNames {
+			iCols[a] = append(iCols[a], add(effName(g)+" × "+name, roleInteraction, product(eff, func(r int) float64 { return mod(r, m) })))
+		}
+		ds.iCols = append(ds.iCols, iCols[a]...)
+	}
+	ds.tCol = tCols[0]
+	for a, label := range ds.armLabels {
+		ds.arms = append(ds.arms, armTerms{label: label, tCol: tCols[a], iCols: iCols[a]})
 	}
 	for _, rc := range controls {
 		c := rc.col
@@ -562,6 +770,24 @@ func (ds *design) assemble(s Spec, controls []roleColumn) {
 			f(ds.x, j, ds.k, from, to)
 		}
 	})
+}
+
+// treatmentName is the treatment's term name: the column, or for labels
+// "column = treated label".
+func treatmentName(s Spec) string {
+	if s.Treatment.Kind == TreatmentLabels {
+		return fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
+	}
+	return s.Treatment.Column
+}
+
+// periodName is the period's term name: the column, or for labels
+// "column = after label".
+func periodName(s Spec) string {
+	if s.After != "" {
+		return fmt.Sprintf("%s = %s", s.Period, s.After)
+	}
+	return s.Period
 }
 
 // sortedLevels returns the keys in level order: numerically when every key

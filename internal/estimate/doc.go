@@ -22,7 +22,9 @@
 // variance estimators are in variance.go, linear combinations and tests in
 // effects.go, the Johnson–Neyman interval in jn.go, multiplicity
 // adjustments in adjust.go and screen.go, the wild cluster bootstrap in
-// bootstrap.go, the check of a continuous moderator's line in linearity.go.
+// bootstrap.go, the check of a continuous moderator's line in linearity.go,
+// unit effects (the within transformation of a before-and-after design)
+// in within.go.
 //
 // Three files pass 500 lines because each holds one concept whose parts
 // are read together: design.go (the model matrix's columns, names and

@@ -30,6 +30,14 @@ func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total 
 	if err := ds.check(d, s); err != nil {
 		return nil, err
 	}
+	if s.UnitEffects {
+		if err := ds.absorbUnits(s); err != nil {
+			return nil, err
+		}
+		if ds.n <= ds.k+ds.absorbedDF() {
+			return nil, fail(ErrTooFewRows, s.Unit, fmt.Sprintf("With unit effects the model has %d terms and %d unit levels but only %d rows are used; it needs more rows than that. Use fewer controls, or more rows per unit.", ds.k, ds.absorbedDF(), ds.n))
+		}
+	}
 	ds.startHash()
 	defer ds.hash.stopHash()
 	x, y := ds.x, ds.y
@@ -48,7 +56,9 @@ func FitContext(ctx context.Context, d *Data, s Spec, progress func(done, total 
 		return nil, err
 	}
 	res := ds.result(s, f, v, used, df, notes)
-	if ds.modValue != nil {
+	if ds.modValue != nil && (ds.period != nil || ds.within != nil) {
+		res.Notes = append(res.Notes, fmt.Sprintf("The check that the effect follows a straight line in %s is not made for a before-and-after design or with unit effects.", s.Moderator.Column))
+	} else if ds.modValue != nil {
 		lin, note := ds.linearity(d, s, f, v, df)
 		res.Linearity = lin
 		if note != "" {
@@ -89,6 +99,22 @@ func (ds *design) check(d *Data, s Spec) error {
 	if constant(ds.treat) {
 		return fail(ErrConstant, s.Treatment.Column, fmt.Sprintf("The treatment %q has the same value in every row used, so its effect cannot be estimated. Both treated and untreated rows are needed.", s.Treatment.Column))
 	}
+	if ds.period != nil && constant(ds.period) {
+		words := "before"
+		if ds.period[0] == 1 {
+			words = "after"
+		}
+		return fail(ErrConstant, s.Period, fmt.Sprintf("Every row used is from %s the start (column %q), so there is nothing to compare before and after. A before-and-after design needs rows from both periods.", words, s.Period))
+	}
+	if ds.period != nil {
+		var all groupStats
+		for r, t := range ds.treat {
+			all.cell(t, ds.period[r])
+		}
+		if missing := all.missingCells(); missing != nil {
+			return fail(ErrNoContrast, s.Period, fmt.Sprintf("The programme's effect cannot be estimated: there are no rows of %s. A difference in differences needs rows of both groups of units before and after the start.", strings.Join(missing, ", nor of ")))
+		}
+	}
 	binaryT := s.Treatment.Kind != TreatmentContinuous
 	mcol := s.Moderator.Column
 	if ds.modValue != nil {
@@ -123,6 +149,9 @@ func (ds *design) check(d *Data, s Spec) error {
 		groups := make([]groupStats, len(ds.levels))
 		for r, lev := range ds.modLevel {
 			groups[lev].add(ds.treat[r])
+			if ds.period != nil {
+				groups[lev].cell(ds.treat[r], ds.period[r])
+			}
 		}
 		members := func(j int) []int {
 			var m []int
@@ -141,6 +170,8 @@ func (ds *design) check(d *Data, s Spec) error {
 			switch {
 			case n == 1:
 				problems = append(problems, fmt.Sprintf("group %q has only 1 row (row %d)", ShortLabel(l), members(j)[0]))
+			case ds.period != nil && g.missingCells() != nil:
+				problems = append(problems, fmt.Sprintf("in group %q there are no rows of %s", ShortLabel(l), strings.Join(g.missingCells(), ", nor of ")))
 			case binaryT && treated == n:
 				problems = append(problems, fmt.Sprintf("in group %q all %d rows are treated", ShortLabel(l), n))
 			case binaryT && treated == 0:
@@ -152,9 +183,15 @@ func (ds *design) check(d *Data, s Spec) error {
 			}
 			rows = append(rows, members(j)...)
 		}
+		if problems != nil && ds.period != nil {
+			return fail(ErrNoContrast, mcol, fmt.Sprintf("The programme's effect cannot be estimated in every group of %q: %s. Each group needs rows of both groups of units, before and after the start; merge small groups with a neighbour or leave them out.", mcol, strings.Join(problems, "; ")), rows...)
+		}
 		if problems != nil {
 			return fail(ErrNoContrast, mcol, fmt.Sprintf("The treatment's effect cannot be estimated in every group of %q: %s. Each group needs both treated and untreated rows; merge small groups with a neighbour or leave them out.", mcol, strings.Join(problems, "; ")), rows...)
 		}
+	}
+	if err := ds.checkArms(d, s); err != nil {
+		return err
 	}
 	if ds.n <= ds.k {
 		return fail(ErrTooFewRows, "", fmt.Sprintf("The model has %d terms but only %d rows are used; it needs more rows than terms. Use fewer controls or groups, or more data.", ds.k, ds.n))
@@ -245,10 +282,20 @@ func (ds *design) checkExact(f *lsFit) error {
 // notes.
 func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, VarianceType, int, []string, error) {
 	n, k := ds.n, ds.k
+	dfRes := n - k - ds.absorbedDF()
 	vt := s.Variance
 	var notes []string
 	if vt == HC2 || vt == HC3 {
 		h := f.leverage()
+		if ds.within != nil {
+			for r := range h {
+				wt := 1.0
+				if ds.w != nil {
+					wt = ds.w[r]
+				}
+				h[r] += ds.within.leverage(ds.unit[r], wt)
+			}
+		}
 		var rows []int
 		for r, hr := range h {
 			if 1-hr <= 1e-10 {
@@ -256,38 +303,46 @@ func (ds *design) variance(d *Data, f *lsFit, s Spec) ([]float64, VarianceType, 
 			}
 		}
 		if rows != nil {
+			if s.LeverageFallback == "" && ds.within != nil {
+				which := "row " + joinInts(rows) + " has"
+				if len(rows) > 1 {
+					which = "rows " + joinInts(rows) + " have"
+				}
+				return nil, "", 0, nil, fail(ErrLeverage, s.Unit, fmt.Sprintf("%s cannot be computed: %s leverage 1 (with unit effects, the only row of a unit is fitted perfectly whatever its outcome, and tells nothing about the effect). Leave out the units seen only once, choose CR1, or agree to fall back to HC1.", vt, which), rows...)
+			}
 			if s.LeverageFallback == "" {
 				return nil, "", 0, nil, fail(ErrLeverage, "", fmt.Sprintf("%s cannot be computed: row %s has leverage 1 (the model fits it perfectly whatever its outcome, usually because it is the only row in some group or control category). Merge or remove that category, or agree to fall back to HC1.", vt, joinInts(rows)), rows...)
 			}
 			notes = append(notes, fmt.Sprintf("%s was replaced by %s because row %s has leverage 1.", vt, s.LeverageFallback, joinInts(rows)))
 			vt = s.LeverageFallback
 		} else {
-			return hcVariance(f, vt, h), vt, n - k, notes, nil
+			return hcVariance(f, vt, h, dfRes), vt, dfRes, notes, nil
 		}
 	}
 	switch vt {
 	case Classical:
-		s2 := f.rss / float64(n-k)
+		s2 := f.rss / float64(dfRes)
 		v := make([]float64, k*k)
 		for i, b := range f.bread {
 			v[i] = s2 * b
 		}
-		return v, vt, n - k, notes, nil
+		return v, vt, dfRes, notes, nil
 	case CR1:
 		g := len(ds.clusterLabels)
-		c := float64(g) / float64(g-1) * float64(n-1) / float64(n-k)
+		c := float64(g) / float64(g-1) * float64(n-1) / float64(n-k-ds.cr1AbsorbedDF())
 		v := f.clusterSandwich(ds.cluster, g)
 		for i := range v {
 			v[i] *= c
 		}
 		return v, vt, g - 1, notes, nil
 	}
-	return hcVariance(f, vt, nil), vt, n - k, notes, nil
+	return hcVariance(f, vt, nil, dfRes), vt, dfRes, notes, nil
 }
 
 // hcVariance is the heteroskedasticity-consistent estimator of the given
-// type (White 1980; MacKinnon & White 1985). h is needed for HC2 and HC3.
-func hcVariance(f *lsFit, vt VarianceType, h []float64) []float64 {
+// type (White 1980; MacKinnon & White 1985). h is needed for HC2 and HC3;
+// dfRes is N − K (less the unit effects, within.go), for HC1.
+func hcVariance(f *lsFit, vt VarianceType, h []float64, dfRes int) []float64 {
 	omega := make([]float64, f.n)
 	forRows(f.n, blockRows, func(_, from, to int) {
 		for i := from; i < to; i++ {
@@ -303,7 +358,7 @@ func hcVariance(f *lsFit, vt VarianceType, h []float64) []float64 {
 	})
 	v := f.sandwich(omega)
 	if vt == HC1 {
-		c := float64(f.n) / float64(f.n-f.k)
+		c := float64(f.n) / float64(dfRes)
 		for i := range v {
 			v[i] *= c
 		}

@@ -165,8 +165,23 @@ func runRScript(t *testing.T, script string) string {
 
 func compareWithR(t *testing.T, dir string) {
 	ref := readReference(t, filepath.Join(dir, "reference.txt"))
+	checked := compareCases(t, ref, dir, rCases(), func(s *Spec, vt string) {
+		if vt == "CR1" {
+			s.Cluster = "Plant"
+		}
+	})
+	if checked < 1000 {
+		t.Errorf("only %d reference values compared", checked)
+	}
+	t.Logf("%d reference values compared with R", checked)
+}
+
+// compareCases fits every case for each variance type the reference
+// values hold, the spec's variance set and then adjusted for the type,
+// and compares; it returns how many values were compared.
+func compareCases(t *testing.T, ref refValues, dir string, cases []rCase, adjust func(s *Spec, vt string)) int {
 	checked := 0
-	for _, c := range rCases() {
+	for _, c := range cases {
 		cr := ref[c.name]
 		if cr == nil {
 			t.Fatalf("no reference values for case %s", c.name)
@@ -182,9 +197,7 @@ func compareWithR(t *testing.T, dir string) {
 		for _, vt := range vtypes {
 			spec := c.spec
 			spec.Variance = VarianceType(vt)
-			if vt == "CR1" {
-				spec.Cluster = "Plant"
-			}
+			adjust(&spec, vt)
 			res, err := Fit(data, spec)
 			if rows, ok := cr[vt]["leverage1_rows"]; ok {
 				// R's sandwich only warns here; the engine must refuse and name the row.
@@ -202,10 +215,7 @@ func compareWithR(t *testing.T, dir string) {
 			checked += compareCase(t, c.name+" "+vt, res, cr["-"], cr[vt])
 		}
 	}
-	if checked < 1000 {
-		t.Errorf("only %d reference values compared", checked)
-	}
-	t.Logf("%d reference values compared with R", checked)
+	return checked
 }
 
 // compareCase checks one fit against the values of one case and variance
@@ -280,8 +290,15 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		check(prefix+".lo", inf.CILow, own)
 		check(prefix+".hi", inf.CIHigh, own)
 	}
+	// With several arms a key names the arm first: effect[arm|group].
+	armed := func(arm string) string {
+		if arm == "" {
+			return ""
+		}
+		return arm + "|"
+	}
 	for _, e := range res.Effects {
-		inference("effect["+e.Group+"]", e.Inference)
+		inference("effect["+armed(e.Arm)+e.Group+"]", e.Inference)
 		if res.Moderator.Kind == ModeratorContinuous {
 			check("probe["+e.Group+"].value", e.Value, common)
 		}
@@ -296,7 +313,7 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		t.Errorf("%s: %d effects, R has %d", label, len(res.Effects), wantEffects)
 	}
 	for _, d := range res.Differences {
-		key := "diff[" + d.From + "|" + d.To + "]"
+		key := "diff[" + armed(d.Arm) + d.From + "|" + d.To + "]"
 		if d.PerUnit {
 			key = "diff[unit]"
 		}
@@ -310,6 +327,26 @@ func compareCase(t *testing.T, label string, res *Result, common, own map[string
 		check("het.df1", float64(res.Heterogeneity.DF1), own)
 		check("het.df2", float64(res.Heterogeneity.DF2), own)
 		check("het.p", res.Heterogeneity.P, own)
+	}
+	if lc := res.Leads; lc != nil {
+		for _, l := range lc.Leads {
+			inference("lead["+l.Period+"]", l.Inference)
+		}
+		if lc.Test == nil {
+			t.Errorf("%s: no test of the leads", label)
+		} else {
+			check("leads.F", lc.Test.F, own)
+			check("leads.p", lc.Test.P, own)
+		}
+	}
+	for _, a := range res.Arms {
+		if a.Heterogeneity == nil {
+			t.Errorf("%s: no heterogeneity test for arm %s", label, a.Arm)
+			continue
+		}
+		check("armhet["+a.Arm+"].F", a.Heterogeneity.F, own)
+		check("armhet["+a.Arm+"].p", a.Heterogeneity.P, own)
+		check("armhet["+a.Arm+"].holm", a.HolmP, own)
 	}
 	if jn := res.JohnsonNeyman; jn != nil {
 		check("mod.min", jn.Min, common)

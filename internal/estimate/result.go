@@ -9,6 +9,9 @@ type Result struct {
 
 	Rows  RowSummary `json:"rows"`
 	Model ModelInfo  `json:"model"`
+	// Design describes a design other than a single comparison of two
+	// arms (METHODS §10); nil for that one, so that its JSON is as before.
+	Design *DesignInfo `json:"design,omitempty"`
 
 	Coefficients []Coefficient `json:"coefficients"`
 	// Covariance is the estimated covariance of the coefficients, in the
@@ -21,8 +24,15 @@ type Result struct {
 	Heterogeneity *WaldTest     `json:"heterogeneity,omitempty"`
 	// HeterogeneityNotJudged is set instead of Heterogeneity when its
 	// interaction terms outnumber what the clusters can judge (joint.go).
-	HeterogeneityNotJudged *NotJudged     `json:"heterogeneity_not_judged,omitempty"`
-	JohnsonNeyman          *JohnsonNeyman `json:"johnson_neyman,omitempty"`
+	HeterogeneityNotJudged *NotJudged `json:"heterogeneity_not_judged,omitempty"`
+	// Arms, with a treatment of several arms (arms.go), says for each
+	// arm whether its effect is the same in every group; Heterogeneity is
+	// then the joint test over every arm.
+	Arms []ArmResult `json:"arms,omitempty"`
+	// Leads, in a before-and-after design with more than one period
+	// before the start, checks common trends (leads.go).
+	Leads         *LeadsCheck    `json:"leads,omitempty"`
+	JohnsonNeyman *JohnsonNeyman `json:"johnson_neyman,omitempty"`
 	// Linearity checks a continuous moderator's straight line against the
 	// effect within each third of it; nil for groups, or when the check
 	// could not be made (Notes says why).
@@ -118,9 +128,13 @@ type Bin struct {
 type GroupEffect struct {
 	// Group is the level, or for a continuous moderator a probe label
 	// ("p10" for the 10th percentile, or the value typed).
-	Group     string  `json:"group"`
-	Value     float64 `json:"value,omitempty"`
-	Reference bool    `json:"reference,omitempty"`
+	Group string  `json:"group"`
+	Value float64 `json:"value,omitempty"`
+	// Arm names the arm, with a treatment of several arms; Treated and
+	// Untreated then count the group's rows of the arm and of the
+	// comparison arm.
+	Arm       string `json:"arm,omitempty"`
+	Reference bool   `json:"reference,omitempty"`
 	// Rows used in the group; for a probe, rows whose moderator lies within
 	// 10% of the observed range of the probe value.
 	Rows int `json:"rows"`
@@ -144,8 +158,10 @@ type GroupEffect struct {
 // or for a continuous moderator (PerUnit) the change in the effect per unit
 // of the moderator.
 type Difference struct {
-	From    string `json:"from,omitempty"`
-	To      string `json:"to,omitempty"`
+	From string `json:"from,omitempty"`
+	To   string `json:"to,omitempty"`
+	// Arm names the arm whose effects differ, with several arms.
+	Arm     string `json:"arm,omitempty"`
 	PerUnit bool   `json:"per_unit,omitempty"`
 	// VsReference marks a comparison with the reference group.
 	VsReference bool `json:"vs_reference,omitempty"`
@@ -230,4 +246,40 @@ func (r *Result) EffectAt(m float64) (inf Inference, ok bool) {
 	a[t] = 1
 	a[b3] = m - r.Moderator.Centre
 	return in.combo(a), true
+}
+
+// DesignKind names a study design.
+type DesignKind string
+
+const (
+	// BeforeAfter is a difference in differences by group (METHODS §10).
+	BeforeAfter DesignKind = "before_after"
+	// RepeatedUnits is a trial whose units have several rows each (a
+	// unit column without a period column).
+	RepeatedUnits DesignKind = "repeated_units"
+)
+
+// DesignInfo says how a design other than a single trial was fitted.
+type DesignInfo struct {
+	Kind DesignKind `json:"kind"`
+	// Period and After name the period column and the value after the
+	// start ("1" for a 0/1 column).
+	Period string `json:"period,omitempty"`
+	After  string `json:"after,omitempty"`
+	// Unit is the unit column and Units the number of units among the
+	// rows used.
+	Unit  string `json:"unit,omitempty"`
+	Units int    `json:"units,omitempty"`
+	// UnitEffects says each unit's own level was absorbed (within.go);
+	// Absorbed names the terms that do not change within any unit and so
+	// dropped out with it.
+	UnitEffects bool     `json:"unit_effects,omitempty"`
+	Absorbed    []string `json:"absorbed,omitempty"`
+	// UnitsNested says every unit lies in one cluster, so CR1's
+	// small-sample factor does not count the unit effects.
+	UnitsNested bool `json:"units_nested,omitempty"`
+	// Cells counts the rows used by group of units and period: the
+	// comparison units before and after, the programme's units before
+	// and after.
+	Cells [4]int `json:"cells"`
 }

@@ -16,6 +16,9 @@ const (
 	// TreatmentContinuous is a dose or amount; its coefficient is the
 	// change in the outcome per unit.
 	TreatmentContinuous TreatmentKind = "continuous"
+	// TreatmentArms is a column of two or more arms, one of them (Control)
+	// the comparison; each other arm gets its own effect (METHODS §11).
+	TreatmentArms TreatmentKind = "arms"
 )
 
 // ModeratorKind says how the moderator column enters the model.
@@ -52,7 +55,12 @@ type Treatment struct {
 	Kind   TreatmentKind `json:"kind"`
 	// Treated is the label that means "treated" when Kind is TreatmentLabels.
 	Treated string `json:"treated,omitempty"`
+	// Control is the comparison arm when Kind is TreatmentArms.
+	Control string `json:"control,omitempty"`
 }
+
+// labelled reports whether the treatment column is read as labels.
+func (t Treatment) labelled() bool { return t.Kind == TreatmentLabels || t.Kind == TreatmentArms }
 
 // Moderator is the column across whose values the effect may differ.
 type Moderator struct {
@@ -99,7 +107,30 @@ type Spec struct {
 	// proportions); when set, every difference between groups is tested
 	// for equivalence within it (Schuirmann 1987). 0 means none.
 	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
+
+	// Period, when set, makes the fit a difference in differences by
+	// group (METHODS §10): the column that says whether a row was measured
+	// before (0) or after (1) the programme started; with After set, a
+	// column of two labels (or two numbers) of which After is the one
+	// after the start. The treatment then marks the units that get the
+	// programme, and its effect in each group is the difference in
+	// differences there.
+	Period string `json:"period,omitempty"`
+	After  string `json:"after,omitempty"`
+	// Unit names the column that identifies the unit (person, site) whose
+	// rows are repeated; when no cluster column is chosen and the variance
+	// type is CR1 or left empty, the errors are clustered by it
+	// (Bertrand, Duflo & Mullainathan 2004).
+	Unit string `json:"unit,omitempty"`
+	// UnitEffects absorbs each unit's own level by demeaning every column
+	// within unit (the within transformation, Frisch–Waugh–Lovell); terms
+	// that do not change within any unit drop out and are named in
+	// Result.Absorbed.
+	UnitEffects bool `json:"unit_effects,omitempty"`
 }
+
+// DiD reports whether the spec is a before-and-after design.
+func (s Spec) DiD() bool { return s.Period != "" }
 
 // withDefaults returns the spec with every default filled in, or an error
 // if a setting is invalid.
@@ -109,6 +140,9 @@ func (s Spec) withDefaults() (Spec, error) {
 	}
 	if s.Power == 0 {
 		s.Power = 0.8
+	}
+	if s.Unit != "" && s.Cluster == "" && (s.Variance == "" || s.Variance == CR1) {
+		s.Cluster = s.Unit
 	}
 	if s.Variance == "" {
 		s.Variance = HC3
@@ -123,6 +157,9 @@ func (s Spec) withDefaults() (Spec, error) {
 		s.Treatment.Kind = TreatmentBinary
 		if s.Treatment.Treated != "" {
 			s.Treatment.Kind = TreatmentLabels
+		}
+		if s.Treatment.Control != "" {
+			s.Treatment.Kind = TreatmentArms
 		}
 	}
 	switch {
@@ -146,6 +183,16 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", fmt.Sprintf("The number of bootstrap draws %d is outside 1 to %d. The usual choice is %d.", s.Bootstrap.Draws, MaxDraws, DefaultDraws))
 	case s.Bootstrap.Weights != "" && s.Bootstrap.Weights != Rademacher && s.Bootstrap.Weights != Webb:
 		return s, fail(ErrSpec, "", fmt.Sprintf("Unknown bootstrap weights %q; choose rademacher or webb, or leave it empty.", s.Bootstrap.Weights))
+	case s.UnitEffects && s.Unit == "":
+		return s, fail(ErrSpec, "", "Unit effects need a unit column. Pick the column that names each person or site whose rows are repeated.")
+	case s.After != "" && s.Period == "":
+		return s, fail(ErrSpec, "", fmt.Sprintf("The value %q is named as \"after\" but no period column is chosen. Pick the column that says before or after.", s.After))
+	case s.DiD() && s.Treatment.Kind == TreatmentContinuous:
+		return s, fail(ErrSpec, s.Treatment.Column, "A before-and-after design needs a treatment that marks the units that get the programme (0/1 or two labels), not an amount.")
+	case s.Treatment.Kind == TreatmentArms && s.Treatment.Control == "":
+		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which arm of %q is the comparison (the control group).", s.Treatment.Column))
+	case s.Treatment.Kind == TreatmentArms && s.Moderator.Kind == ModeratorContinuous:
+		return s, fail(ErrSpec, s.Moderator.Column, "A treatment with several arms is compared across the groups of a moderator; a number moderator is not supported with several arms yet. Choose a moderator of groups, or cut the number into groups.")
 	case s.Treatment.Kind == TreatmentLabels && s.Treatment.Treated == "":
 		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Say which label in %q means treated.", s.Treatment.Column))
 	}
@@ -156,9 +203,9 @@ func (s Spec) withDefaults() (Spec, error) {
 		return s, fail(ErrSpec, "", fmt.Sprintf("The fallback variance type %q must be classical, HC0 or HC1.", s.LeverageFallback))
 	}
 	switch s.Treatment.Kind {
-	case TreatmentBinary, TreatmentLabels, TreatmentContinuous:
+	case TreatmentBinary, TreatmentLabels, TreatmentContinuous, TreatmentArms:
 	default:
-		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Unknown treatment kind %q; choose binary, labels or continuous.", s.Treatment.Kind))
+		return s, fail(ErrSpec, s.Treatment.Column, fmt.Sprintf("Unknown treatment kind %q; choose binary, labels, continuous or arms.", s.Treatment.Kind))
 	}
 	switch s.Moderator.Kind {
 	case ModeratorBinary, ModeratorCategorical, ModeratorContinuous:
@@ -168,9 +215,9 @@ func (s Spec) withDefaults() (Spec, error) {
 	roles := map[string]string{s.Outcome: "outcome"}
 	for _, r := range []struct{ col, role string }{
 		{s.Treatment.Column, "treatment"}, {s.Moderator.Column, "moderator"},
-		{s.Cluster, "cluster"}, {s.Weights, "weights"},
+		{s.Period, "period"}, {s.Cluster, "cluster"}, {s.Weights, "weights"}, {s.Unit, "unit"},
 	} {
-		if r.col == "" {
+		if r.col == "" || (r.role == "unit" && r.col == s.Cluster) {
 			continue
 		}
 		if prev, ok := roles[r.col]; ok {

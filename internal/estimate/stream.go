@@ -44,6 +44,10 @@ const correctionTol = 1e-12
 //
 //  1. Survey: the rows left out and why, the groups of the moderator and of
 //     text controls, the clusters, and the facts the checks need.
+//     With unit effects (within.go), a pass of their own follows: each
+//     unit's sums of its model rows and outcome, in row order as Fit sums
+//     them, and whether each column varies within some unit; the absorbed
+//     columns leave the design, and the later passes demean every row.
 //  2. Factorization: the model matrix with the outcome as a last column,
 //     [X y], goes through the first stage of the QR factorization a block
 //     of rows at a time (qr.go; the same blocks as Fit's), which leaves
@@ -75,6 +79,9 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if s.Moderator.Kind == ModeratorContinuous {
 		return nil, needsMemory("a continuous moderator's percentiles need all its values")
 	}
+	if s.Treatment.Kind == TreatmentArms {
+		return nil, needsMemory("a treatment of several arms is fitted in memory")
+	}
 	st := &stream{s: s, parts: make(chan *chunkPart, spareParts)}
 	if err := src.Pass(ctx, func(d *Data, release func()) error {
 		defer release()
@@ -86,6 +93,12 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	if err != nil {
 		return nil, err
 	}
+	if s.UnitEffects {
+		if err := st.absorbUnits(ctx, src); err != nil {
+			return nil, err
+		}
+	}
+	st.ready()
 	if err := pass(ctx, src, st.parts, passWork{st.factorRows, st.factor, st.hashRows}); err != nil {
 		return nil, err
 	}
@@ -128,9 +141,36 @@ func FitStream(ctx context.Context, src Chunks, s Spec) (*Result, error) {
 	}
 	v, df := st.variance(f)
 	facts := &rowFacts{outcomeBinary: st.outcomeBinary, hash: st.hash.sum(), rows: st.levelRows, treated: st.levelTreated}
-	facts.r2, facts.adjR2 = rSquared(f.rss, st.tss, ds.n, ds.k)
+	facts.cells = st.allCells.cells
+	facts.r2, facts.adjR2 = rSquared(f.rss, st.tss, ds.n, ds.k+ds.absorbedDF())
 	ds.facts = facts
 	return ds.result(s, f, v, s.Variance, df, nil), nil
+}
+
+// absorbUnits is the pass of the unit effects (within.go): every row's
+// model row into its unit's sums, in row order as Fit sums them; then the
+// columns the unit effects absorb leave the design. A model they cannot
+// fit is handed back, so that Fit words why.
+func (st *stream) absorbUnits(ctx context.Context, src Chunks) error {
+	ds := st.ds
+	st.within = newWithin(len(ds.unitLabels), ds.k)
+	if err := pass(ctx, src, st.parts, passWork{prepare: func(w *chunkWorker, p *chunkPart) error {
+		return st.designRows(w, p, st.iWeight >= 0)
+	}, combine: st.absorb}); err != nil {
+		return err
+	}
+	if st.changed {
+		return ErrChangedBetweenPasses
+	}
+	st.within.finish()
+	if err := ds.keepColumns(st.s, st.within); err != nil {
+		return needsMemory("the unit effects absorb the programme's effect")
+	}
+	if ds.n <= ds.k+len(ds.unitLabels) {
+		return needsMemory("there are fewer rows than terms and units")
+	}
+	ds.within = st.within
+	return nil
 }
 
 // stream is the state of a streamed fit between passes.
@@ -148,17 +188,28 @@ type stream struct {
 	checks                    []roleColumn
 
 	// Survey.
-	countAt                 map[[2]string]int
-	firstY, firstT          float64
-	yVaries, tVaries        bool
-	badTreatment            bool
-	labelCount              map[string]int
-	modCount                map[string]int
-	modStats                map[string]*groupStats
-	controlCount            []map[string]int
-	clusterByText           map[string]int
-	clusterByValue          map[float64]int
-	modKeys, clusterKeys    keyCache
+	countAt             map[[2]string]int
+	firstY, firstT      float64
+	yVaries, tVaries    bool
+	badTreatment        bool
+	labelCount          map[string]int
+	modCount            map[string]int
+	modStats            map[string]*groupStats
+	controlCount        []map[string]int
+	clusters, units     *numbering
+	modKeys, periodKeys keyCache
+	// A before-and-after design: the period column, the labels of a
+	// labelled one, and the rows by group of units and period.
+	iPeriod     int
+	badPeriod   bool
+	periodCount map[string]int
+	afterKey    string
+	allCells    groupStats
+	iUnit       int
+	// within gathers the unit effects' means in a pass of their own,
+	// before the factorization.
+	within                  *within
+	layout                  layout // the model row's terms, for fill
 	levelIndex              map[string]int
 	controlLevels           [][]string // per control: the levels with a column, nil if numeric
 	controlCol              []int      // per control: its first model column

@@ -5,14 +5,27 @@ package estimate
 
 import "math"
 
+// layout is where fill writes the terms of a model row: the design's
+// columns before unit effects absorb any (their indices then change).
+type layout struct {
+	tCol, gCol, pCol int
+	mCols, iCols     []int
+}
+
 // fill writes row i's model row into x, unweighted, as assemble does,
 // and reports whether the survey saw its group and levels.
 func (st *stream) fill(d *Data, i int, x []float64) bool {
-	ds := st.ds
+	ds, at := st.ds, &st.layout
 	clear(x)
 	x[0] = 1
 	t := st.treatment(d, i)
-	x[ds.tCol] = t
+	g, p, q := t, 0.0, len(at.mCols)
+	if st.iPeriod >= 0 {
+		p = st.period(d, i)
+		x[at.gCol], x[at.pCol] = g, p
+		t = g * p
+	}
+	x[at.tCol] = t
 	key, _ := st.modKeys.lookup(&d.Columns[st.iMod], i)
 	level, known := st.levelIndex[key]
 	m := 0
@@ -24,8 +37,12 @@ func (st *stream) fill(d *Data, i int, x []float64) bool {
 		if j == level {
 			ind = 1
 		}
-		x[ds.mCols[m]] = ind
-		x[ds.iCols[m]] = t * ind
+		x[at.mCols[m]] = ind
+		if st.iPeriod >= 0 {
+			// Fit's order: M, T×M, P×M, T·P×M.
+			x[at.mCols[m]+q], x[at.mCols[m]+2*q] = g*ind, p*ind
+		}
+		x[at.iCols[m]] = t * ind
 		m++
 	}
 	for j, ci := range st.iControls {
@@ -66,6 +83,14 @@ func (st *stream) designRows(w *chunkWorker, p *chunkPart, raw bool) error {
 	if st.iClus >= 0 {
 		p.cluster = grow(p.cluster, n)
 	}
+	wi := st.ds.within
+	if wi != nil {
+		p.yRaw = grow(p.yRaw, n)
+		w.wide = grow(w.wide, wi.k)
+	}
+	if st.iUnit >= 0 {
+		p.unit = grow(p.unit, n)
+	}
 	w.checks = st.roleChecks(d, w.checks)
 	out := d.Columns[st.iOut].Num
 	r := 0
@@ -74,8 +99,24 @@ func (st *stream) designRows(w *chunkWorker, p *chunkPart, raw bool) error {
 			continue
 		}
 		x := p.x[r*k : (r+1)*k]
-		p.changed = !st.fill(d, i, x) || p.changed
 		y := out[i]
+		u := -1
+		if st.iUnit >= 0 {
+			var ok bool
+			if u, ok = st.units.lookup(&d.Columns[st.iUnit], i); !ok {
+				u, p.changed = -1, true
+			}
+			p.unit[r] = u
+		}
+		if wi != nil && u >= 0 {
+			// The row before absorption, then its deviations from its
+			// unit's means (within.go), as Fit's absorbUnits.
+			p.changed = !st.fill(d, i, w.wide) || p.changed
+			p.yRaw[r] = y
+			y = wi.apply(u, w.wide, y, x)
+		} else {
+			p.changed = !st.fill(d, i, x) || p.changed
+		}
 		p.y[r], p.yw[r] = y, y
 		if raw {
 			copy(p.raw[r*k:(r+1)*k], x)
@@ -90,7 +131,7 @@ func (st *stream) designRows(w *chunkWorker, p *chunkPart, raw bool) error {
 			}
 		}
 		if st.iClus >= 0 {
-			c, ok := st.lookupCluster(&d.Columns[st.iClus], i)
+			c, ok := st.clusters.lookup(&d.Columns[st.iClus], i)
 			if !ok {
 				c = -1
 				p.changed = true
@@ -117,6 +158,15 @@ func (st *stream) weight(p *chunkPart, r int) float64 {
 		return 1
 	}
 	return p.w[r]
+}
+
+// outcome returns the outcome of the part's row r before the within
+// transformation, for R² and the check of a 0/1 outcome.
+func (st *stream) outcome(p *chunkPart, r int) float64 {
+	if st.ds.within != nil {
+		return p.yRaw[r]
+	}
+	return p.y[r]
 }
 
 // factorRows is the chunk's own work in the second pass.
@@ -147,7 +197,7 @@ func (st *stream) factor(p *chunkPart) {
 	k := st.ds.k
 	st.changed = st.changed || p.changed
 	for r := 0; r < p.n; r++ {
-		y, wi := p.y[r], st.weight(p, r)
+		y, wi := st.outcome(p, r), st.weight(p, r)
 		st.sw += wi
 		st.swy += wi * y
 		if y != 0 && y != 1 {
@@ -206,4 +256,26 @@ func (st *stream) finishFactor() {
 	st.flushBlock()
 	st.endBlock()
 	st.qr, st.qty = st.qr.splitAugmented()
+}
+
+// absorb is the unit effects' pass, in chunk order: each row, before
+// absorption and without weights, into its unit's sums, as Fit's
+// absorbUnits adds them.
+func (st *stream) absorb(p *chunkPart) {
+	k := st.ds.k
+	st.changed = st.changed || p.changed
+	raw := p.x
+	if st.iWeight >= 0 {
+		raw = p.raw
+	}
+	for r := 0; r < p.n; r++ {
+		c := -1
+		if st.iClus >= 0 {
+			c = p.cluster[r]
+		}
+		if p.unit[r] < 0 || (st.iClus >= 0 && c < 0) {
+			continue
+		}
+		st.within.add(p.unit[r], raw[r*k:(r+1)*k], p.y[r], st.weight(p, r), c)
+	}
 }

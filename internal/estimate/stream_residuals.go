@@ -67,6 +67,9 @@ func (st *stream) residualRows(w *chunkWorker, p *chunkPart) error {
 		e2 := e * e
 		if lev {
 			h := w.h[r]
+			if wi := st.ds.within; wi != nil {
+				h += wi.leverage(p.unit[r], st.weight(p, r))
+			}
 			if 1-h <= 1e-10 {
 				p.levOne = true
 			}
@@ -90,7 +93,7 @@ func (st *stream) residuals(p *chunkPart) {
 	st.changed = st.changed || p.changed
 	st.leverageOne = st.leverageOne || p.levOne
 	for r := 0; r < p.n; r++ {
-		y, wi := p.y[r], st.weight(p, r)
+		y, wi := st.outcome(p, r), st.weight(p, r)
 		st.tss += wi * (y - st.meanY) * (y - st.meanY)
 		y = p.yw[r]
 		st.tssW += (y - st.meanYW) * (y - st.meanYW)
@@ -195,21 +198,22 @@ func (st *stream) correct(f *lsFit) bool {
 // with its degrees of freedom, as Fit's variance does.
 func (st *stream) variance(f *lsFit) ([]float64, int) {
 	n, k := f.n, f.k
+	dfRes := n - k - st.ds.absorbedDF()
 	switch st.s.Variance {
 	case Classical:
-		s2 := f.rss / float64(n-k)
+		s2 := f.rss / float64(dfRes)
 		v := make([]float64, k*k)
 		for i, b := range f.bread {
 			v[i] = s2 * b
 		}
-		return v, n - k
+		return v, dfRes
 	case CR1:
 		g := len(st.ds.clusterLabels)
 		sg := blas64.General{Rows: g, Cols: k, Stride: k, Data: st.scores}
 		meat := blas64.General{Rows: k, Cols: k, Stride: k, Data: make([]float64, k*k)}
 		blas64.Gemm(blas.Trans, blas.NoTrans, 1, sg, sg, 0, meat)
 		v := f.wrap(meat.Data)
-		c := float64(g) / float64(g-1) * float64(n-1) / float64(n-k)
+		c := float64(g) / float64(g-1) * float64(n-1) / float64(n-k-st.ds.cr1AbsorbedDF())
 		for i := range v {
 			v[i] *= c
 		}
@@ -223,10 +227,10 @@ func (st *stream) variance(f *lsFit) ([]float64, int) {
 	}
 	v := f.wrap(m)
 	if st.s.Variance == HC1 {
-		c := float64(n) / float64(n-k)
+		c := float64(n) / float64(dfRes)
 		for i := range v {
 			v[i] *= c
 		}
 	}
-	return v, n - k
+	return v, dfRes
 }

@@ -14,6 +14,25 @@ type groupStats struct {
 	n, treated int
 	firstT     float64
 	tVaries    bool
+	// cells counts the rows of a before-and-after design by group of
+	// units and period: 2·T + P.
+	cells [4]int
+}
+
+// cell counts a row of a before-and-after design.
+func (g *groupStats) cell(t, p float64) { g.cells[2*int(t)+int(p)]++ }
+
+// missingCells names the combinations of group of units and period
+// without rows, nil when all four have some.
+func (g *groupStats) missingCells() []string {
+	var missing []string
+	for c, words := range []string{"the comparison units before the start", "the comparison units after the start",
+		"the programme's units before the start", "the programme's units after the start"} {
+		if g.cells[c] == 0 {
+			missing = append(missing, words)
+		}
+	}
+	return missing
 }
 
 // add counts a row of the group with treatment t.
@@ -79,7 +98,17 @@ func (st *stream) resolve(d *Data) error {
 		}
 		st.iControls = append(st.iControls, i)
 	}
-	st.iClus, st.iWeight = -1, -1
+	st.iClus, st.iWeight, st.iPeriod, st.iUnit = -1, -1, -1, -1
+	if s.DiD() {
+		if st.iPeriod, err = find(s.Period); err != nil {
+			return err
+		}
+	}
+	if s.Unit != "" {
+		if st.iUnit, err = find(s.Unit); err != nil {
+			return err
+		}
+	}
 	if s.Cluster != "" {
 		if st.iClus, err = find(s.Cluster); err != nil {
 			return err
@@ -91,7 +120,8 @@ func (st *stream) resolve(d *Data) error {
 		}
 	}
 	numeric := func(i int) bool { return d.Columns[i].IsNumeric() }
-	if !numeric(st.iOut) || (s.Treatment.Kind != TreatmentLabels && !numeric(st.iTreat)) || (st.iWeight >= 0 && !numeric(st.iWeight)) {
+	if !numeric(st.iOut) || (s.Treatment.Kind != TreatmentLabels && !numeric(st.iTreat)) || (st.iWeight >= 0 && !numeric(st.iWeight)) ||
+		(st.iPeriod >= 0 && s.After == "" && !numeric(st.iPeriod)) {
 		return needsMemory("a column that must hold numbers holds text")
 	}
 	st.resolved = true
@@ -99,9 +129,9 @@ func (st *stream) resolve(d *Data) error {
 	st.labelCount = map[string]int{}
 	st.modCount = map[string]int{}
 	st.modStats = map[string]*groupStats{}
-	st.clusterByText = map[string]int{}
-	st.clusterByValue = map[float64]int{}
-	st.modKeys, st.clusterKeys = keyCache{}, keyCache{}
+	st.clusters, st.units = newNumbering(), newNumbering()
+	st.modKeys, st.periodKeys = keyCache{}, keyCache{}
+	st.periodCount = map[string]int{}
 	st.controlCount = make([]map[string]int, len(s.Controls))
 	for j, i := range st.iControls {
 		if !numeric(i) {
@@ -120,13 +150,19 @@ func (st *stream) roleChecks(d *Data, checks []roleColumn) []roleColumn {
 		return roleColumn{col: &d.Columns[i], role: role, numeric: numeric}
 	}
 	checks = append(checks[:0], rc(st.iOut, "outcome", true),
-		rc(st.iTreat, "treatment", s.Treatment.Kind != TreatmentLabels),
-		rc(st.iMod, "moderator", false))
+		rc(st.iTreat, "treatment", s.Treatment.Kind != TreatmentLabels))
+	if st.iPeriod >= 0 {
+		checks = append(checks, rc(st.iPeriod, "period", s.After == ""))
+	}
+	checks = append(checks, rc(st.iMod, "moderator", false))
 	for _, i := range st.iControls {
 		checks = append(checks, rc(i, "control", false))
 	}
 	if st.iClus >= 0 {
 		checks = append(checks, rc(st.iClus, "cluster", false))
+	}
+	if st.iUnit >= 0 && s.Unit != s.Cluster {
+		checks = append(checks, rc(st.iUnit, "unit", false))
 	}
 	if st.iWeight >= 0 {
 		checks = append(checks, rc(st.iWeight, "weight", true))
@@ -178,6 +214,18 @@ func (st *stream) treatment(d *Data, i int) float64 {
 	return c.Num[i]
 }
 
+// period returns row i's period as the model uses it: 1 after the start.
+func (st *stream) period(d *Data, i int) float64 {
+	c := &d.Columns[st.iPeriod]
+	if st.s.After == "" {
+		return c.Num[i]
+	}
+	if key, _ := st.periodKeys.lookup(c, i); key == st.afterKey {
+		return 1
+	}
+	return 0
+}
+
 // survey is the first pass.
 func (st *stream) survey(d *Data) error {
 	if !st.resolved {
@@ -224,41 +272,76 @@ func (st *stream) survey(d *Data) error {
 			st.modStats[key] = g
 		}
 		g.add(t)
+		if st.iPeriod >= 0 {
+			c := &d.Columns[st.iPeriod]
+			p := 0.0
+			if s.After != "" {
+				key := st.periodKeys.key(c, i)
+				st.periodCount[key]++
+				if key == s.After {
+					p = 1
+				}
+			} else {
+				p = c.Num[i]
+			}
+			if p != 0 && p != 1 {
+				st.badPeriod = true
+			} else if t == 0 || t == 1 {
+				g.cell(t, p)
+				st.allCells.cell(t, p)
+			}
+		}
 		for j, ci := range st.iControls {
 			if cc := st.controlCount[j]; cc != nil {
 				cc[d.Columns[ci].Text[i]]++
 			}
 		}
 		if st.iClus >= 0 {
-			st.clusterNumber(&d.Columns[st.iClus], i)
+			st.clusters.number(&d.Columns[st.iClus], i)
+		}
+		if st.iUnit >= 0 {
+			st.units.number(&d.Columns[st.iUnit], i)
 		}
 	}
 	return nil
 }
 
-// clusterNumber numbers the clusters in order of first appearance, as Fit
-// does (readCluster).
-func (st *stream) clusterNumber(c *Column, i int) int {
-	if j, ok := st.lookupCluster(c, i); ok {
+// numbering numbers the values of a cluster or unit column in order of
+// first appearance, as Fit does (numberKeys).
+type numbering struct {
+	byText  map[string]int
+	byValue map[float64]int
+	keys    keyCache
+	labels  []string
+}
+
+func newNumbering() *numbering {
+	return &numbering{byText: map[string]int{}, byValue: map[float64]int{}, keys: keyCache{}}
+}
+
+// number returns row i's number, giving the next one to a new value.
+func (nb *numbering) number(c *Column, i int) int {
+	if j, ok := nb.lookup(c, i); ok {
 		return j
 	}
-	ds := st.ds
-	j := len(ds.clusterLabels)
-	ds.clusterLabels = append(ds.clusterLabels, st.clusterKeys.key(c, i))
+	j := len(nb.labels)
+	nb.labels = append(nb.labels, nb.keys.key(c, i))
 	if c.IsNumeric() {
-		st.clusterByValue[c.Num[i]] = j
+		nb.byValue[c.Num[i]] = j
 	} else {
-		st.clusterByText[c.Text[i]] = j
+		nb.byText[c.Text[i]] = j
 	}
 	return j
 }
 
-func (st *stream) lookupCluster(c *Column, i int) (int, bool) {
+// lookup returns row i's number, if its value has one; it changes
+// nothing, so that goroutines may share the numbering after the survey.
+func (nb *numbering) lookup(c *Column, i int) (int, bool) {
 	if c.IsNumeric() {
-		j, ok := st.clusterByValue[c.Num[i]]
+		j, ok := nb.byValue[c.Num[i]]
 		return j, ok
 	}
-	j, ok := st.clusterByText[c.Text[i]]
+	j, ok := nb.byText[c.Text[i]]
 	return j, ok
 }
 
@@ -283,6 +366,10 @@ func (st *stream) plan() (*design, error) {
 		if st.labelCount[s.Treatment.Treated] == 0 || len(labels) != 2 {
 			return nil, needsMemory("the treatment's labels do not match the spec")
 		}
+	}
+	ds.clusterLabels, ds.unitLabels = st.clusters.labels, st.units.labels
+	if err := st.planPeriod(); err != nil {
+		return nil, err
 	}
 	ds.levels = sortedLevels(st.modCount)
 	if s.Moderator.Kind == ModeratorBinary && len(ds.levels) > 2 {
@@ -312,7 +399,7 @@ func (st *stream) plan() (*design, error) {
 	st.levelTreated = make([]int, len(ds.levels))
 	for j, l := range ds.levels {
 		g := st.modStats[l]
-		if g.n == 1 || binaryT && (g.treated == g.n || g.treated == 0) || !binaryT && !g.tVaries {
+		if g.n == 1 || binaryT && (g.treated == g.n || g.treated == 0) || !binaryT && !g.tVaries || s.DiD() && g.missingCells() != nil {
 			return nil, needsMemory(fmt.Sprintf("the treatment's effect cannot be estimated in group %q", ShortLabel(l)))
 		}
 		st.levelRows[j] = g.n
@@ -321,6 +408,7 @@ func (st *stream) plan() (*design, error) {
 		}
 	}
 	st.terms()
+	st.layout = layout{tCol: ds.tCol, gCol: ds.gCol, pCol: ds.pCol, mCols: ds.mCols, iCols: ds.iCols}
 	if ds.n <= ds.k {
 		return nil, needsMemory("there are fewer rows than terms")
 	}
@@ -330,13 +418,48 @@ func (st *stream) plan() (*design, error) {
 	if s.Variance == CR1 && !s.Bootstrap.Off && len(ds.clusterLabels) < BootstrapClusters {
 		return nil, needsMemory("the wild cluster bootstrap needs every row")
 	}
-	k := ds.k
-	st.qr = &qrFactor{n: ds.n, k: k + 1}
+	return ds, nil
+}
+
+// planPeriod checks the survey of a before-and-after design's period
+// column, handing the fit back for Fit to word any problem.
+func (st *stream) planPeriod() error {
+	s := st.s
+	if !s.DiD() {
+		return nil
+	}
+	if s.After != "" {
+		labels := sortedLevels(st.periodCount)
+		after, ok := findLevel(labels, s.After)
+		if len(labels) > 2 {
+			return needsMemory("more than one period before or after the start: the periods' terms and the leads are fitted in memory")
+		}
+		if !ok || len(labels) != 2 {
+			return needsMemory("the period column's values do not match the spec")
+		}
+		if after != s.After {
+			// The survey counted the cells by the label as typed.
+			return needsMemory("the value after the start is written otherwise in the data")
+		}
+		st.afterKey = after
+	}
+	if st.badPeriod {
+		return needsMemory("the period holds values other than 0 and 1")
+	}
+	if st.allCells.missingCells() != nil {
+		return needsMemory("a group of units has no rows before or after the start")
+	}
+	return nil
+}
+
+// ready allocates the factorization of the k columns the fit keeps.
+func (st *stream) ready() {
+	k := st.ds.k
+	st.qr = &qrFactor{n: st.ds.n, k: k + 1}
 	st.tri = make([]float64, (k+1)*(k+1))
 	st.block = make([]float64, chunkRows*(k+1))
 	st.hash = newRowHash()
 	st.outcomeBinary = true
-	return ds, nil
 }
 
 // terms names the model's columns in Fit's order (assemble): intercept,
@@ -349,9 +472,11 @@ func (st *stream) terms() {
 		return len(ds.names) - 1
 	}
 	add("(intercept)", roleIntercept)
-	tName := s.Treatment.Column
-	if s.Treatment.Kind == TreatmentLabels {
-		tName = fmt.Sprintf("%s = %s", s.Treatment.Column, s.Treatment.Treated)
+	tName := treatmentName(s)
+	if s.DiD() {
+		ds.gCol = add(tName, roleGroup)
+		ds.pCol = add(periodName(s), rolePeriod)
+		tName += " × " + periodName(s)
 	}
 	ds.tCol = add(tName, roleTreatment)
 	var modNames []string
@@ -362,6 +487,14 @@ func (st *stream) terms() {
 	}
 	for _, name := range modNames {
 		ds.mCols = append(ds.mCols, add(name, roleModerator))
+	}
+	if s.DiD() {
+		for _, name := range modNames {
+			add(treatmentName(s)+" × "+name, roleGroupModerator)
+		}
+		for _, name := range modNames {
+			add(periodName(s)+" × "+name, rolePeriodModerator)
+		}
 	}
 	for _, name := range modNames {
 		ds.iCols = append(ds.iCols, add(tName+" × "+name, roleInteraction))

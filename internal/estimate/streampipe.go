@@ -34,6 +34,8 @@ type chunkPart struct {
 	yw       []float64 // √w·y (y without weights)
 	w        []float64 // the weights (with weights only)
 	cluster  []int     // the cluster numbers, −1 for one the survey did not see (with clusters only)
+	unit     []int     // the unit numbers, −1 for one the survey did not see (with a unit column only)
+	yRaw     []float64 // the outcome before the within transformation (unit effects only)
 	e        []float64 // the residuals (residual pass)
 	o        []float64 // √ωᵢ: row i of the sandwich's middle is √ωᵢ·xᵢ (residual pass, HC0–HC3)
 	changed  bool      // a group, level or cluster the survey did not see
@@ -56,6 +58,7 @@ func grow[T any](s []T, n int) []T {
 type chunkWorker struct {
 	checks []roleColumn
 	u, h   []float64 // the leverage's scratch space, and the chunk's leverages
+	wide   []float64 // a model row before the unit effects absorb columns
 }
 
 // passWork is a pass's work on its chunks.

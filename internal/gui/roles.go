@@ -40,8 +40,22 @@ type rolesScreen struct {
 	extra     *widget.CheckGroup // more moderators to try, each in a model of its own
 	cluster   *widget.Select
 	weights   *widget.Select
-	checks    *fyne.Container
-	form      *fyne.Container // holds the current form; rebuilt as choices change
+	// A treatment of several arms: the comparison arm.
+	control *widget.Select
+	// Before and after: the period column, its value after the start,
+	// the unit column and whether each unit is compared with itself.
+	beforeAfter *widget.Check
+	period      *widget.Select
+	after       *widget.Select
+	unit        *widget.Select
+	unitEffects *widget.Check
+	// extraBox holds the other moderators to try; hidden for a design
+	// other than a single two-arm trial, which is one moderator's.
+	extraBox *fyne.Container
+	// formBox holds the form and what follows it on the left.
+	formBox *fyne.Container
+	checks  *fyne.Container
+	form    *fyne.Container // holds the current form; rebuilt as choices change
 	// useCluster chooses the column a check suggests as the cluster; nil
 	// when no check suggests one. It acts only when tapped.
 	useCluster *button
@@ -73,6 +87,12 @@ func newRolesScreen(u *UI) *rolesScreen {
 	s.extra = widget.NewCheckGroup(nil, func([]string) { s.changed() })
 	s.cluster = widget.NewSelect(nil, changed)
 	s.weights = widget.NewSelect(nil, changed)
+	s.control = widget.NewSelect(nil, changed)
+	s.beforeAfter = widget.NewCheck("Measured before and after the start", func(bool) { s.layoutForm(); s.changed() })
+	s.period = widget.NewSelect(nil, func(string) { s.periodChanged(); s.changed() })
+	s.after = widget.NewSelect(nil, changed)
+	s.unit = widget.NewSelect(nil, changed)
+	s.unitEffects = widget.NewCheck("Compare each unit with itself (unit effects)", func(bool) { s.changed() })
 	s.checks = container.NewVBox()
 	s.form = container.NewStack()
 	s.layoutForm()
@@ -88,7 +108,11 @@ func (s *rolesScreen) layoutForm() {
 		widget.NewFormItem("Treatment — who received the programme", s.treatment),
 	}
 	if tc := s.column(s.treatment.Selected); tc != nil && pipeline.TreatmentKind(tc, "") == estimate.TreatmentLabels {
-		items = append(items, widget.NewFormItem("Which value means treated?", s.treated))
+		if severalArms(tc) {
+			items = append(items, widget.NewFormItem("Which value is the comparison group?", s.control))
+		} else {
+			items = append(items, widget.NewFormItem("Which value means treated?", s.treated))
+		}
 	}
 	items = append(items,
 		widget.NewFormItem("Moderator — compare the effect across", s.moderator),
@@ -103,14 +127,36 @@ func (s *rolesScreen) layoutForm() {
 			items = append(items, widget.NewFormItem("Compare each group with", s.reference))
 		}
 	}
+	items = append(items, widget.NewFormItem("Measured before and after?", s.beforeAfter))
+	if s.beforeAfter.Checked {
+		items = append(items, widget.NewFormItem("Period — before or after the start", s.period))
+		if pc := s.column(s.period.Selected); pc != nil && !pipeline.ZeroOne(pc) {
+			items = append(items, widget.NewFormItem("Which value is after the start? (the first, with more)", s.after))
+		}
+		items = append(items,
+			widget.NewFormItem("Unit — the person or site measured each time", s.unit),
+			widget.NewFormItem("", s.unitEffects))
+	}
 	items = append(items,
 		widget.NewFormItem("Sites or groups whose rows are alike", s.cluster),
 		widget.NewFormItem("Weight of each row", s.weights),
 	)
+	if s.extraBox != nil {
+		if s.singleTrial() {
+			s.extraBox.Show()
+		} else {
+			s.extraBox.Hide()
+		}
+	}
 	// A new form each time: a form reuses its rows by position, so
 	// changing its items in place would show widgets under wrong labels.
 	s.form.Objects = []fyne.CanvasObject{widget.NewForm(items...)}
 	s.form.Refresh()
+	if s.formBox != nil {
+		// The form's height changes with its rows: lay out what holds it
+		// again, or the rows below would be drawn over it.
+		s.formBox.Refresh()
+	}
 }
 
 // reset offers the new table's columns and picks sensible defaults.
@@ -142,6 +188,13 @@ func (s *rolesScreen) reset() {
 	s.extra.Selected = nil
 	s.probes.SetText("")
 	s.centre.SetText("")
+	s.beforeAfter.SetChecked(false)
+	s.period.Options = all
+	s.period.ClearSelected()
+	s.after.ClearSelected()
+	s.unit.Options = append([]string{none}, all...)
+	s.unit.SetSelected(none)
+	s.unitEffects.SetChecked(false)
 	// Defaults by name and content (defaults.go), said in "Before
 	// running"; a column of groups as the moderator.
 	s.defTreatment, s.whyTreatment = defaultTreatment(t)
@@ -173,11 +226,14 @@ func (s *rolesScreen) column(name string) *workbook.Column {
 	return s.u.table.Column(name)
 }
 
-// treatmentChanged offers the treated label when the treatment holds labels.
+// treatmentChanged offers the treated label when the treatment holds two
+// labels, the comparison arm when it holds more.
 func (s *rolesScreen) treatmentChanged() {
 	c := s.column(s.treatment.Selected)
+	s.control.ClearSelected()
 	if c != nil && pipeline.TreatmentKind(c, "") == estimate.TreatmentLabels {
 		s.treated.Options = c.Levels
+		s.control.Options = c.Levels
 		if len(c.Levels) == 2 {
 			s.treated.SetSelected(c.Levels[1])
 		}
@@ -186,6 +242,26 @@ func (s *rolesScreen) treatmentChanged() {
 	}
 	s.layoutForm()
 	s.refreshControls()
+}
+
+// severalArms is true for a treatment column of more than two labels.
+func severalArms(c *workbook.Column) bool {
+	return c != nil && c.Levels != nil && len(c.Levels) > 2 && pipeline.TreatmentKind(c, "") == estimate.TreatmentLabels
+}
+
+// singleTrial is true when the choices are a single two-arm comparison,
+// the only design several moderators are tried on.
+func (s *rolesScreen) singleTrial() bool {
+	return !s.beforeAfter.Checked && !severalArms(s.column(s.treatment.Selected))
+}
+
+// periodChanged offers the period's values for the one after the start.
+func (s *rolesScreen) periodChanged() {
+	s.after.ClearSelected()
+	if c := s.column(s.period.Selected); c != nil {
+		s.after.Options = groupsOf(c)
+	}
+	s.layoutForm()
 }
 
 // moderatorChanged guesses the moderator's kind and offers its groups.
@@ -243,6 +319,9 @@ func (s *rolesScreen) refreshControls() {
 		return
 	}
 	taken := map[string]bool{s.outcome.Selected: true, s.treatment.Selected: true, s.moderator.Selected: true, s.weights.Selected: true}
+	if s.beforeAfter.Checked {
+		taken[s.period.Selected], taken[s.unit.Selected] = true, true
+	}
 	keep := offer(s.controls, columnsWhere(t, func(c *workbook.Column) bool {
 		return !taken[c.Name] && c.Kind != workbook.Text && c.Kind != workbook.Empty
 	}), taken)
@@ -287,6 +366,9 @@ func offer(g *widget.CheckGroup, options []string, taken map[string]bool) []stri
 func (s *rolesScreen) moderators() []string {
 	if s.moderator.Selected == "" {
 		return nil
+	}
+	if !s.singleTrial() {
+		return []string{s.moderator.Selected}
 	}
 	return append([]string{s.moderator.Selected}, s.extra.Selected...)
 }
@@ -344,16 +426,16 @@ func (s *rolesScreen) roleNotes() []pipeline.Check {
 			out = append(out, pipeline.Check{Severity: pipeline.Warning, Message: fmt.Sprintf(
 				"%q holds amounts, not two groups, so the effect will be read per unit of %q (a dose). If %q is a score or a measure rather than how much of the programme each row received, choose the column that says who received it.",
 				tc.Name, tc.Name, tc.Name)})
-		case kind == estimate.TreatmentLabels && len(tc.Levels) > 2 && s.treated.Selected != "":
+		case severalArms(tc) && s.control.Selected != "":
 			var rest []string
 			for _, l := range tc.Levels {
-				if l != s.treated.Selected {
+				if l != s.control.Selected {
 					rest = append(rest, fmt.Sprintf("%q", l))
 				}
 			}
-			out = append(out, pipeline.Check{Severity: pipeline.Warning, Message: fmt.Sprintf(
-				"%q has %d values: the rows of %q are compared with all the others together, so %s count as untreated. If these are several versions of the programme, add a column to the workbook that marks only the two groups you mean to compare, and choose it here.",
-				tc.Name, len(tc.Levels), s.treated.Selected, strings.Join(rest, " and "))})
+			out = append(out, pipeline.Check{Severity: pipeline.Note, Message: fmt.Sprintf(
+				"%q has %d values: %s are each compared with %q as arms of their own, in every group, and the tests are adjusted for the number of arms.",
+				tc.Name, len(tc.Levels), joinAnd(rest), s.control.Selected)})
 		}
 	}
 	if mc := s.column(s.moderator.Selected); mc != nil && s.modKind.Selected == kindGroups {
@@ -396,6 +478,14 @@ func groupCount(c *workbook.Column) int {
 		return len(seenText)
 	}
 	return len(seen)
+}
+
+// joinAnd joins "a", "b" and "c" as a list in words.
+func joinAnd(xs []string) string {
+	if len(xs) <= 1 {
+		return strings.Join(xs, "")
+	}
+	return strings.Join(xs[:len(xs)-1], ", ") + " and " + xs[len(xs)-1]
 }
 
 func quoteAll(names []string) []string {
@@ -449,8 +539,31 @@ func (s *rolesScreen) spec() (estimate.Spec, error) {
 	tc := s.column(s.treatment.Selected)
 	sp.Treatment = estimate.Treatment{Column: s.treatment.Selected, Treated: s.treated.Selected}
 	sp.Treatment.Kind = pipeline.TreatmentKind(tc, s.treated.Selected)
+	if severalArms(tc) {
+		sp.Treatment = estimate.Treatment{Column: s.treatment.Selected, Kind: estimate.TreatmentArms, Control: s.control.Selected}
+		if sp.Treatment.Control == "" {
+			return sp, fmt.Errorf("Say which value of %q is the comparison group.", sp.Treatment.Column)
+		}
+	}
 	if sp.Treatment.Kind == estimate.TreatmentLabels && sp.Treatment.Treated == "" {
 		return sp, fmt.Errorf("Say which value of %q means treated.", sp.Treatment.Column)
+	}
+	if s.beforeAfter.Checked {
+		sp.Period = s.period.Selected
+		if sp.Period == "" {
+			return sp, fmt.Errorf("Choose the column that says whether a row is from before or after the start.")
+		}
+		if pc := s.column(sp.Period); pc != nil && !pipeline.ZeroOne(pc) {
+			if sp.After = s.after.Selected; sp.After == "" {
+				return sp, fmt.Errorf("Say which value of %q is after the start.", sp.Period)
+			}
+		}
+		if v := s.unit.Selected; v != none && v != "" {
+			sp.Unit = v
+			sp.UnitEffects = s.unitEffects.Checked
+		} else if s.unitEffects.Checked {
+			return sp, fmt.Errorf("Unit effects need a unit: choose the column that names each person or site.")
+		}
 	}
 	m := estimate.Moderator{Column: s.moderator.Selected}
 	switch s.modKind.Selected {
@@ -488,6 +601,11 @@ func (s *rolesScreen) spec() (estimate.Spec, error) {
 	if v := s.weights.Selected; v != none && v != "" {
 		sp.Weights = v
 	}
+	if sp.Unit != "" && sp.Cluster == "" {
+		// Rows of one unit are alike: clustered by it unless another
+		// cluster is chosen (Bertrand, Duflo & Mullainathan 2004).
+		sp.Cluster = sp.Unit
+	}
 	return sp, nil
 }
 
@@ -497,14 +615,17 @@ func (s *rolesScreen) content() fyne.CanvasObject {
 	more := widget.NewLabel("Each is fitted in a model of its own, and the tests are adjusted for how many were tried.")
 	more.Wrapping = fyne.TextWrapWord
 	more.Importance = widget.LowImportance
+	s.extraBox = container.NewVBox(subheading("Also try these moderators (optional)"), more, s.extra)
+	if !s.singleTrial() {
+		s.extraBox.Hide()
+	}
 	form := container.NewVBox(
 		s.form,
 		subheading("Adjust for (optional)"),
 		s.controls,
-		subheading("Also try these moderators (optional)"),
-		more,
-		s.extra,
+		s.extraBox,
 	)
+	s.formBox = form
 	checks := container.NewBorder(subheading("Before running"), nil, nil, nil, container.NewVScroll(s.checks))
 	split := container.NewHSplit(container.NewVScroll(form), checks)
 	split.Offset = 0.6

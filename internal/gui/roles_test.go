@@ -134,8 +134,9 @@ func TestRoleConflictsBlocked(t *testing.T) {
 	}
 }
 
-// TestTreatmentExplained: a treatment of several labels says which
-// values count as untreated; one of amounts says it is read as a dose;
+// TestTreatmentExplained: a treatment of several labels says that each
+// is compared with the comparison group as an arm; one of amounts says it
+// is read as a dose;
 // text holding numbers is said to be why it is not offered as the outcome.
 func TestTreatmentExplained(t *testing.T) {
 	arms := []string{"control", "coaching", "coaching and stipend"}
@@ -144,9 +145,9 @@ func TestTreatmentExplained(t *testing.T) {
 	}))
 	r := h.u.rolesScreen
 	r.treatment.SetSelected("arm")
-	r.treated.SetSelected("coaching")
+	r.control.SetSelected("control")
 	said := checksText(r)
-	if !strings.Contains(said, `"arm" has 3 values`) || !strings.Contains(said, `"coaching and stipend" and "control" count as untreated`) {
+	if !strings.Contains(said, `"arm" has 3 values: "coaching" and "coaching and stipend" are each compared with "control" as arms of their own`) {
 		t.Errorf("three arms not explained:\n%s", said)
 	}
 	if !strings.Contains(said, `Not offered as the outcome: "weight"`) {

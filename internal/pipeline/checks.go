@@ -53,7 +53,7 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		out = append(out, Check{Severity: sev, Message: fmt.Sprintf(format, args...)})
 	}
 	cols := map[string]*workbook.Column{}
-	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Period, s.Moderator.Column, s.Cluster, s.Unit, s.Weights}, s.Controls...) {
 		if name == "" {
 			continue
 		}
@@ -127,6 +127,17 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		add(Blocking, "Say which value of %q means treated.", s.Treatment.Column)
 	}
 
+	if s.Treatment.Kind == estimate.TreatmentArms && s.Treatment.Control == "" {
+		add(Blocking, "Say which value of %q is the comparison arm.", s.Treatment.Column)
+	}
+	var period []float64
+	if s.Period != "" {
+		period = checkPeriod(col(s.Period), s, usable, arm, add)
+	}
+	if s.Unit != "" {
+		checkUnits(col(s.Unit), arm, usable, s, add)
+	}
+
 	mod := col(s.Moderator.Column)
 	mc := cols[s.Moderator.Column]
 	switch s.Moderator.Kind {
@@ -150,6 +161,9 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 			add(Blocking, "The moderator %q has only one group among the usable rows.", s.Moderator.Column)
 		}
 		checkGroups(groups, arm, s, add)
+		if period != nil {
+			checkPeriodCells(groups, arm, period, s, add)
+		}
 	}
 
 	if s.Cluster != "" {
@@ -237,13 +251,13 @@ func treatmentArms(c *estimate.Column, t estimate.Treatment, usable []bool) []fl
 		case !usable[i]:
 			arm[i] = -1
 		case t.Kind == estimate.TreatmentLabels:
-			v := ""
-			if c.Text != nil {
-				v = c.Text[i]
-			} else {
-				v = fmt.Sprint(c.Num[i])
+			if cellKey(c, i) == t.Treated {
+				arm[i] = 1
 			}
-			if v == t.Treated {
+		case t.Kind == estimate.TreatmentArms:
+			// 0 for the comparison arm, 1 for any other: what the checks
+			// of variation need.
+			if cellKey(c, i) != t.Control {
 				arm[i] = 1
 			}
 		case c.Num != nil:
@@ -287,8 +301,110 @@ func armWords(v float64, t estimate.Treatment) string {
 	switch {
 	case t.Kind == estimate.TreatmentContinuous:
 		return fmt.Sprintf("at %g", v)
+	case t.Kind == estimate.TreatmentArms && v == 1:
+		return "in a programme arm"
+	case t.Kind == estimate.TreatmentArms:
+		return fmt.Sprintf("in the comparison arm %q", t.Control)
 	case v == 1:
 		return "treated"
 	}
 	return "untreated"
+}
+
+// cellKey is row i of c as text: the text, or the number written as Go
+// writes it.
+func cellKey(c *estimate.Column, i int) string {
+	if c.Text != nil {
+		return c.Text[i]
+	}
+	return fmt.Sprint(c.Num[i])
+}
+
+// checkPeriod reads a before-and-after design's period column (1 after the
+// start) and says, before running, what would stop it: a column that is not
+// 0/1 without a value named as after, the value named absent, only one
+// period among the usable rows. It returns nil when the period cannot be
+// read.
+func checkPeriod(c *estimate.Column, s estimate.Spec, usable []bool, arm []float64, add func(Severity, string, ...any)) []float64 {
+	p := make([]float64, len(usable))
+	seen := map[string]bool{}
+	var values []string
+	for i, u := range usable {
+		if !u {
+			continue
+		}
+		k := cellKey(c, i)
+		if !seen[k] {
+			seen[k] = true
+			values = append(values, k)
+		}
+		switch {
+		case s.After != "" && k == s.After:
+			p[i] = 1
+		case s.After == "" && c.Num != nil && (c.Num[i] == 0 || c.Num[i] == 1):
+			p[i] = c.Num[i]
+		case s.After == "":
+			add(Blocking, "The period %q holds values other than 0 and 1 (%s); say which value means after the programme started.", s.Period, estimate.ShortLabel(k))
+			return nil
+		}
+	}
+	sort.Strings(values)
+	if s.After != "" && !seen[s.After] {
+		add(Blocking, "The value %q, chosen as after, does not appear in the period %q among the usable rows.", estimate.ShortLabel(s.After), s.Period)
+		return nil
+	}
+	if len(values) < 2 {
+		add(Blocking, "Every usable row is from one period of %q, so there is nothing to compare before and after.", s.Period)
+		return nil
+	}
+	return p
+}
+
+// checkPeriodCells says which groups of the moderator lack rows of one
+// set of units before or after the start.
+func checkPeriodCells(groups map[string][]int, arm, period []float64, s estimate.Spec, add func(Severity, string, ...any)) {
+	names := make([]string, 0, len(groups))
+	for g := range groups {
+		names = append(names, g)
+	}
+	sort.Strings(names)
+	for _, g := range names {
+		var cells [4]int
+		for _, r := range groups[g] {
+			if arm[r] == 0 || arm[r] == 1 {
+				cells[2*int(arm[r])+int(period[r])]++
+			}
+		}
+		for c, words := range []string{"the comparison units before the start", "the comparison units after the start",
+			"the programme's units before the start", "the programme's units after the start"} {
+			if cells[c] == 0 {
+				add(Blocking, "The group %q of %q has no rows of %s, so its difference in differences cannot be estimated. Merge the group with another or leave it out.", estimate.ShortLabel(g), s.Moderator.Column, words)
+			}
+		}
+	}
+}
+
+// checkUnits warns of units found in both the programme's group and the
+// comparison group: a before-and-after comparison, and unit effects,
+// take each unit to stay in one.
+func checkUnits(c *estimate.Column, arm []float64, usable []bool, s estimate.Spec, add func(Severity, string, ...any)) {
+	first := map[string]float64{}
+	var both []string
+	for i, u := range usable {
+		if !u || arm[i] < 0 {
+			continue
+		}
+		k := cellKey(c, i)
+		a, ok := first[k]
+		switch {
+		case !ok:
+			first[k] = arm[i]
+		case a != arm[i] && a != -2:
+			both = append(both, k)
+			first[k] = -2
+		}
+	}
+	if both != nil {
+		add(Warning, "%d unit(s) of %q are in both the programme's group and the comparison group (the first: %q); a before-and-after comparison takes each unit to stay in one. Check the treatment column, or the unit column.", len(both), s.Unit, estimate.ShortLabel(both[0]))
+	}
 }

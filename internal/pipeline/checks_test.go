@@ -112,3 +112,69 @@ func TestPrecheck(t *testing.T) {
 		}
 	}
 }
+
+// TestBeforeAfterChecks: before running, a before-and-after design is
+// checked in plain words: a period that is not 0/1, only one period, a
+// group without one set of units before or after, a unit in both groups.
+func TestBeforeAfterChecks(t *testing.T) {
+	var rows []string
+	for u := 0; u < 40; u++ {
+		tr, g := u%2, []string{"a", "b"}[u/2%2]
+		for p := 0; p < 2; p++ {
+			rows = append(rows, fmt.Sprintf("%d,%d,%d,%s,u%02d,%d", 10+u%5+3*tr*p, tr, p, g, u, 2023+p))
+		}
+	}
+	good := table(t, "y,t,post,g,unit,year", rows)
+	s := spec(estimate.ModeratorCategorical, "g")
+	s.Period, s.Unit = "post", "unit"
+	for _, c := range Precheck(good, s) {
+		if c.Severity != Note {
+			t.Errorf("a sound design: %+v", c)
+		}
+	}
+	for _, c := range []struct {
+		name  string
+		tweak func(r []string) []string
+		spec  func(s *estimate.Spec)
+		sev   Severity
+		words string
+	}{
+		{"years without after", nil, func(s *estimate.Spec) { s.Period = "year" }, Blocking, `The period "year" holds values other than 0 and 1`},
+		{"after absent", nil, func(s *estimate.Spec) { s.Period, s.After = "year", "2025" }, Blocking, `The value "2025", chosen as after, does not appear`},
+		{"one period", func(r []string) []string {
+			var out []string
+			for _, row := range r {
+				if strings.Split(row, ",")[2] == "0" {
+					out = append(out, row)
+				}
+			}
+			return out
+		}, nil, Blocking, "Every usable row is from one period"},
+		{"no programme rows after in b", func(r []string) []string {
+			var out []string
+			for _, row := range r {
+				if !strings.Contains(row, ",1,1,b,") {
+					out = append(out, row)
+				}
+			}
+			return out
+		}, nil, Blocking, `The group "b" of "g" has no rows of the programme's units after the start`},
+		{"a unit in both groups", func(r []string) []string {
+			out := append([]string(nil), r...)
+			out[1] = strings.Replace(out[1], ",0,1,a,", ",1,1,a,", 1)
+			return out
+		}, nil, Warning, `1 unit(s) of "unit" are in both the programme's group and the comparison group (the first: "u00")`},
+	} {
+		tb := good
+		if c.tweak != nil {
+			tb = table(t, "y,t,post,g,unit,year", c.tweak(rows))
+		}
+		sp := s
+		if c.spec != nil {
+			c.spec(&sp)
+		}
+		if checks := Precheck(tb, sp); !find(checks, c.sev, c.words) {
+			t.Errorf("%s: %+v", c.name, checks)
+		}
+	}
+}

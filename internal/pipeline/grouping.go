@@ -161,7 +161,7 @@ func (s *Source) keepGroupings(spec estimate.Spec, gs []report.Grouping) {
 // by name, the treatment's reading, and the controls.
 func groupingKey(s estimate.Spec) string {
 	parts := append([]string{s.Outcome, s.Treatment.Column, string(s.Treatment.Kind), s.Treatment.Treated,
-		s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...)
+		s.Moderator.Column, s.Cluster, s.Weights, s.Period, s.After, s.Unit}, s.Controls...)
 	return strings.Join(parts, "\x00")
 }
 
@@ -253,9 +253,15 @@ func newGroupingScan(t *workbook.Table, s estimate.Spec) *groupingScan {
 	}
 	sc := &groupingScan{spec: s, used: map[string]bool{}, seed: maphash.MakeSeed(), budget: maxTrackedValues,
 		mod: levelCount{n: map[uint64]int{}}, trt: levelCount{n: map[uint64]int{}}}
-	model := map[string]bool{s.Outcome: true, s.Treatment.Column: true, s.Moderator.Column: true, s.Weights: true}
+	model := map[string]bool{s.Outcome: true, s.Treatment.Column: true, s.Moderator.Column: true, s.Weights: true, s.Period: true}
 	for _, c := range s.Controls {
 		model[c] = true
+	}
+	if s.Unit != s.Cluster {
+		// A unit column named beside another cluster is accounted for:
+		// its rows are alike by design, and the cluster was chosen over it
+		// (a coarser group it lies in, or another choice made knowingly).
+		model[s.Unit] = true
 	}
 	for _, name := range usedColumns(t, s) {
 		sc.used[name] = true

@@ -167,7 +167,7 @@ func screenSpec(sr report.ScreenRun) estimate.Spec {
 func specColumns(s estimate.Spec) []string {
 	var out []string
 	seen := map[string]bool{}
-	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Moderator.Column, s.Cluster, s.Weights}, s.Controls...) {
+	for _, name := range append([]string{s.Outcome, s.Treatment.Column, s.Period, s.Moderator.Column, s.Cluster, s.Unit, s.Weights}, s.Controls...) {
 		if name != "" && !seen[name] {
 			seen[name] = true
 			out = append(out, name)
@@ -294,4 +294,37 @@ func TreatmentKind(c *workbook.Column, treated string) estimate.TreatmentKind {
 		}
 	}
 	return estimate.TreatmentLabels
+}
+
+// ZeroOne reports whether a column holds only 0 and 1, as the engine
+// reads it (a period or treatment column that needs no label named).
+func ZeroOne(c *workbook.Column) bool {
+	switch c.Kind {
+	case workbook.Number:
+		for _, v := range c.Distinct {
+			if v != 0 && v != 1 {
+				return false
+			}
+		}
+		return len(c.Distinct) > 0
+	case workbook.YesNo:
+		return numericLevels(c.Levels) && c.Levels[0] == "0" && c.Levels[1] == "1"
+	}
+	return false
+}
+
+// ValuesOf lists, quoted, up to n of a column's values for a message: its
+// levels, or a number column's first distinct values.
+func ValuesOf(c *workbook.Column, n int) []string {
+	var out []string
+	for _, l := range c.Levels {
+		out = append(out, strconv.Quote(estimate.ShortLabel(l)))
+	}
+	for _, v := range c.Distinct {
+		out = append(out, strconv.Quote(strconv.FormatFloat(v, 'f', -1, 64)))
+	}
+	if len(out) > n {
+		out = append(out[:n], "…")
+	}
+	return out
 }

@@ -59,26 +59,7 @@ func TestStreamedAnalysisEqualsTable(t *testing.T) {
 	}
 	for name, s := range specs {
 		t.Run(name, func(t *testing.T) {
-			run := report.Run{File: path, Spec: s}
-			src, err := Open(context.Background(), run)
-			if err != nil {
-				t.Fatal(err)
-			}
-			if src.Stream == nil {
-				t.Fatal("the CSV was not streamed")
-			}
-			got, err := src.Analyze(context.Background(), run)
-			if err != nil {
-				t.Fatal(err)
-			}
-			tab, err := Read(context.Background(), run, nil)
-			if err != nil {
-				t.Fatal(err)
-			}
-			want, err := AnalyzeTable(context.Background(), run, tab)
-			if err != nil {
-				t.Fatal(err)
-			}
+			got, want := streamedAndTable(t, report.Run{File: path, Spec: s})
 			g, w := got.Result, want.Result
 			if g.Rows.Used != w.Rows.Used || g.Rows.Dropped != w.Rows.Dropped || g.Model.DataSHA256 != w.Model.DataSHA256 {
 				t.Fatalf("rows %+v, hash %s; want %+v, %s", g.Rows.Reasons, g.Model.DataSHA256, w.Rows.Reasons, w.Model.DataSHA256)
@@ -95,6 +76,31 @@ func TestStreamedAnalysisEqualsTable(t *testing.T) {
 			}
 		})
 	}
+}
+
+// streamedAndTable analyzes a text file through its stream (got) and read
+// whole (want).
+func streamedAndTable(t *testing.T, run report.Run) (got, want *Analysis) {
+	t.Helper()
+	src, err := Open(context.Background(), run)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer src.Close()
+	if src.Stream == nil {
+		t.Fatal("the CSV was not streamed")
+	}
+	if got, err = src.Analyze(context.Background(), run); err != nil {
+		t.Fatal(err)
+	}
+	tab, err := Read(context.Background(), run, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if want, err = AnalyzeTable(context.Background(), run, tab); err != nil {
+		t.Fatal(err)
+	}
+	return got, want
 }
 
 // TestStreamChunksStopEarly checks that a fit that stops at a chunk stops
@@ -203,5 +209,76 @@ func TestCopyChunkIsEngineColumn(t *testing.T) {
 				t.Errorf("column %q: %+v, want %+v", col.Name, got, want)
 			}
 		}
+	}
+}
+
+// writePanel writes a CSV of units people, each measured in 2023 and
+// 2024, half of them coached from 2024 on, with an effect by region (1, 2
+// or 3) and each person's own level; a few outcomes missing.
+func writePanel(t *testing.T, units int) string {
+	rng := rand.New(rand.NewPCG(4, 5))
+	var b strings.Builder
+	b.WriteString("person,year,coached,region,age,earnings\n")
+	for u := 0; u < units; u++ {
+		tr, g, level := rng.IntN(2), rng.IntN(3), 2*rng.NormFloat64()
+		for p := 0; p < 2; p++ {
+			y := fmt.Sprintf("%.4f", 20+level+1.5*float64(p)+float64(tr*p*(1+g))+rng.NormFloat64())
+			if (2*u+p)%997 == 3 {
+				y = ""
+			}
+			fmt.Fprintf(&b, "P%06d,%d,%d,%s,%d,%s\n", u, 2023+p, tr, []string{"coast", "hills", "plain"}[g], 20+rng.IntN(40), y)
+		}
+	}
+	path := filepath.Join(t.TempDir(), "panel.csv")
+	if err := os.WriteFile(path, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path
+}
+
+// TestStreamedUnitEffectsEqualTable: a 200,000-row CSV (100,000 people
+// before and after) with unit effects and CR1 by person, fitted through
+// the stream, gives the table's result: the same rows and hash, every
+// coefficient, covariance, effect, difference and test to 1e-10.
+func TestStreamedUnitEffectsEqualTable(t *testing.T) {
+	if testing.Short() {
+		t.Skip("200,000 rows")
+	}
+	path := writePanel(t, 100000)
+	s := estimate.Spec{Outcome: "earnings", Treatment: estimate.Treatment{Column: "coached"}, Period: "year", After: "2024",
+		Moderator: estimate.Moderator{Column: "region", Kind: estimate.ModeratorCategorical}, Controls: []string{"age"},
+		Unit: "person", UnitEffects: true}
+	got, want := streamedAndTable(t, report.Run{File: path, Spec: s})
+	if got.Table != nil {
+		t.Fatal("the streamed fit handed the file back")
+	}
+	g, w := got.Result, want.Result
+	if g.Rows.Used != w.Rows.Used || g.Rows.Used != 199799 || g.Model.DataSHA256 != w.Model.DataSHA256 || g.Design.Units != 100000 {
+		t.Fatalf("rows %d, hash %s, units %d; want %d, %s", g.Rows.Used, g.Model.DataSHA256, g.Design.Units, w.Rows.Used, w.Model.DataSHA256)
+	}
+	var pairs [][2]float64
+	add := func(a, b estimate.Inference) {
+		pairs = append(pairs, [2]float64{a.Estimate, b.Estimate}, [2]float64{a.SE, b.SE}, [2]float64{a.P, b.P}, [2]float64{a.CILow, b.CILow})
+	}
+	for i := range w.Coefficients {
+		add(g.Coefficients[i].Inference, w.Coefficients[i].Inference)
+		for j := range w.Covariance[i] {
+			pairs = append(pairs, [2]float64{g.Covariance[i][j], w.Covariance[i][j]})
+		}
+	}
+	for i := range w.Effects {
+		add(g.Effects[i].Inference, w.Effects[i].Inference)
+	}
+	for i := range w.Differences {
+		add(g.Differences[i].Inference, w.Differences[i].Inference)
+	}
+	pairs = append(pairs, [2]float64{g.Heterogeneity.F, w.Heterogeneity.F}, [2]float64{g.Model.R2, w.Model.R2}, [2]float64{g.Model.Sigma, w.Model.Sigma})
+	for i, p := range pairs {
+		if math.Abs(p[0]-p[1]) > 1e-10*math.Abs(p[1]) {
+			t.Errorf("value %d: %.17g, want %.17g", i, p[0], p[1])
+		}
+	}
+	if len(g.Coefficients) != len(w.Coefficients) || len(pairs) < 60 {
+		t.Errorf("%d coefficients, want %d; %d values compared", len(g.Coefficients), len(w.Coefficients), len(pairs))
 	}
 }

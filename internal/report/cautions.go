@@ -62,13 +62,20 @@ func Cautions(run Run, res *estimate.Result) []string {
 			if thin.Untreated < thin.Treated {
 				which = "untreated"
 			}
+			if thin.Arm != "" {
+				which = "of the arm " + quoted(thin.Arm)
+				if thin.Untreated < thin.Treated {
+					which = "of the comparison arm"
+				}
+			}
 			add("In the group %s only %s rows are %s, so its effect is imprecise.", quoted(thin.Group), count(arm), which)
 		}
+		groups := len(res.Moderator.Levels)
 		switch {
-		case len(res.Effects) > 2 && res.HeterogeneityNotJudged != nil:
-			add("With %d groups there are %d pairwise comparisons; some will look clear by chance, and with %d clusters there is no overall test to look at first.", len(res.Effects), len(res.Differences), res.Model.Clusters)
-		case len(res.Effects) > 2:
-			add("With %d groups there are %d pairwise comparisons; some will look clear by chance. Look at the overall test first.", len(res.Effects), len(res.Differences))
+		case groups > 2 && res.HeterogeneityNotJudged != nil:
+			add("With %d groups there are %d pairwise comparisons; some will look clear by chance, and with %d clusters there is no overall test to look at first.", groups, len(res.Differences), res.Model.Clusters)
+		case groups > 2:
+			add("With %d groups there are %d pairwise comparisons; some will look clear by chance. Look at the overall test first.", groups, len(res.Differences))
 		}
 	} else {
 		var outside []string

@@ -98,6 +98,7 @@ func groupLabel(res *estimate.Result, e estimate.GroupEffect) string {
 	if _, err := strconv.ParseFloat(e.Group, 64); err == nil {
 		name = shorten(res.Moderator.Column, 24) + " = " + name
 	}
+	name = armPrefix(e.Arm) + name
 	label := fmt.Sprintf("%s (n=%s)", name, count(e.Rows))
 	if e.Reference {
 		label += ", reference"

@@ -58,14 +58,20 @@ func writeNote(run Run, res *estimate.Result) *noteWriter {
 	w.part = partSure
 	w.rows()
 	w.part = partFound
-	if res.Moderator.Kind == estimate.ModeratorContinuous {
+	w.designSentences()
+	switch {
+	case res.Arms != nil:
+		w.armSentences()
+	case res.Moderator.Kind == estimate.ModeratorContinuous:
 		w.continuous()
-	} else {
+	default:
 		w.groups()
 	}
 	w.equivalence()
 	w.part = partSure
-	w.precision()
+	if res.Arms == nil {
+		w.precision()
+	}
 	w.clusterBasis()
 	w.bootstrapSentences()
 	w.part = partKeep

@@ -32,6 +32,14 @@ type Output struct {
 	// EquivalenceMargin is the smallest difference that matters, when
 	// given; each difference between groups then carries its test.
 	EquivalenceMargin float64 `json:"equivalence_margin,omitempty"`
+	// Design describes a design other than a single trial (a
+	// before-and-after comparison, units with several rows); left out for
+	// a single trial.
+	Design *OutDesign `json:"design,omitempty"`
+	// Arms, with a treatment of several arms: each arm's test that its
+	// effect is the same in every group, with Holm's adjustment over the
+	// arms; heterogeneity is then the joint test of every arm.
+	Arms []OutArm `json:"arms,omitempty"`
 }
 
 // OutBootstrap describes the wild cluster bootstrap of a run.
@@ -64,7 +72,9 @@ func outBoot(b *estimate.BootInference) OutBoot {
 // OutGroup is the effect in one group, or at one value of a continuous
 // moderator (then N counts the rows nearby and may be omitted).
 type OutGroup struct {
-	Label    string  `json:"label"`
+	Label string `json:"label"`
+	// Arm names the arm, with a treatment of several arms.
+	Arm      string  `json:"arm,omitempty"`
 	N        *int    `json:"n,omitempty"`
 	Estimate float64 `json:"estimate"`
 	SE       float64 `json:"se"`
@@ -76,7 +86,9 @@ type OutGroup struct {
 
 // OutDiff is one difference between groups.
 type OutDiff struct {
-	Label    string  `json:"label"`
+	Label string `json:"label"`
+	// Arm names the arm whose effects differ, with several arms.
+	Arm      string  `json:"arm,omitempty"`
 	Estimate float64 `json:"estimate"`
 	SE       float64 `json:"se"`
 	CILow    float64 `json:"ci_low"`
@@ -224,7 +236,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 	}
 	continuous := res.Moderator.Kind == estimate.ModeratorContinuous
 	for _, e := range res.Effects {
-		g := OutGroup{Label: e.Group, Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P, OutBoot: outBoot(e.Boot)}
+		g := OutGroup{Label: e.Group, Arm: e.Arm, Estimate: e.Estimate, SE: e.SE, CILow: e.CILow, CIHigh: e.CIHigh, P: e.P, OutBoot: outBoot(e.Boot)}
 		if continuous {
 			g.Label = formatValue(e.Value)
 		}
@@ -233,7 +245,7 @@ func Summarize(run Run, res *estimate.Result) Output {
 		o.Groups = append(o.Groups, g)
 	}
 	for _, d := range res.Differences {
-		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d, formatValue), Estimate: d.Estimate, SE: d.SE,
+		o.Differences = append(o.Differences, OutDiff{Label: comparisonLabel(res, d, formatValue), Arm: d.Arm, Estimate: d.Estimate, SE: d.SE,
 			CILow: d.CILow, CIHigh: d.CIHigh, P: d.P, MDD: d.MDD, OutBoot: outBoot(d.Boot), Equivalence: outEquivalence(d.Equivalence)})
 	}
 	if h := res.Heterogeneity; h != nil {
@@ -249,6 +261,8 @@ func Summarize(run Run, res *estimate.Result) Output {
 		}
 		o.JN = &OutJN{Bounds: bounds, SignificantWhere: significantWhere(jn, res.Moderator.Column)}
 	}
+	o.Design = outDesign(res)
+	o.Arms = outArms(res)
 	o.HeterogeneityNotJudged = outNotJudged(res.HeterogeneityNotJudged, res.Spec.Cluster)
 	o.Linearity = outLinearity(res.Linearity, res.Spec.Cluster)
 	for _, c := range res.Coefficients {

@@ -113,6 +113,7 @@ func (b *sheetBuilder) details() {
 	b.differences()
 	b.equivalence()
 	b.linearity()
+	b.leads()
 }
 
 // terms adds every term of the model and the covariance of the terms the
@@ -154,6 +155,7 @@ func (b *sheetBuilder) asked() {
 	if s.EquivalenceMargin > 0 {
 		rows = append(rows, pair("Smallest difference that matters", marginWords(b.res)))
 	}
+	rows = append(rows, designPairs(b.res)...)
 	b.add("asked", "What was asked", rows)
 }
 
@@ -163,6 +165,8 @@ func treatmentWords(t estimate.Treatment) string {
 		return fmt.Sprintf("%s (treated: %q)", t.Column, t.Treated)
 	case estimate.TreatmentContinuous:
 		return fmt.Sprintf("%s (an amount; effects are per unit)", t.Column)
+	case estimate.TreatmentArms:
+		return fmt.Sprintf("%s (several arms; compared with %q)", t.Column, t.Control)
 	}
 	return fmt.Sprintf("%s (1 = treated, 0 = not)", t.Column)
 }
@@ -181,6 +185,9 @@ func moderatorWords(res *estimate.Result) string {
 
 // modelWords writes the model as an equation in words (METHODS §1).
 func modelWords(res *estimate.Result) string {
+	if w := designModelWords(res); w != "" {
+		return w
+	}
 	s := res.Spec
 	t := treatmentName(s.Treatment)
 	terms := []string{"a baseline level", t, s.Moderator.Column, t + " × " + s.Moderator.Column}
@@ -257,7 +264,7 @@ func (b *sheetBuilder) effects() {
 	rows := [][]Cell{head}
 	var bootRows [][]Cell
 	for _, e := range res.Effects {
-		label := e.Group
+		label := armPrefix(e.Arm) + e.Group
 		if continuous {
 			label = probeLabel(e)
 		} else if e.Reference {
@@ -318,10 +325,10 @@ func (b *sheetBuilder) differences() {
 	var bootRows [][]Cell
 	for _, d := range res.Differences {
 		est, se := b.contrastCells(d.Contrast, d.Estimate, d.SE, f)
-		row := []Cell{TextCell(comparisonLabel(res, d, shortValue)), est, se,
+		row := []Cell{TextCell(armPrefix(d.Arm) + comparisonLabel(res, d, shortValue)), est, se,
 			NumberCell(d.CILow, f), NumberCell(d.CIHigh, f), PValueCell(d.P), NumberCell(d.MDD, f)}
 		rows = append(rows, row)
-		bootRows = append(bootRows, append([]Cell{TextCell(comparisonLabel(res, d, shortValue))}, bootCells(d.Boot, f)...))
+		bootRows = append(bootRows, append([]Cell{TextCell(armPrefix(d.Arm) + comparisonLabel(res, d, shortValue))}, bootCells(d.Boot, f)...))
 	}
 	if boot {
 		rows = append(rows, bootTable(res, head[0], bootRows)...)
@@ -379,7 +386,7 @@ func (b *sheetBuilder) equivalence() {
 		if !e.Bounded {
 			lo, hi = TextCell("unbounded"), TextCell("unbounded")
 		}
-		rows = append(rows, []Cell{TextCell(comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), lo, hi,
+		rows = append(rows, []Cell{TextCell(armPrefix(d.Arm) + comparisonLabel(res, d, shortValue)), NumberCell(d.Estimate, f), lo, hi,
 			NumberCell(margin, f), PValueCell(e.P), TextCell(yesNo(e.Equivalent))})
 	}
 	how := ""

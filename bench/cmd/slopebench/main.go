@@ -6,6 +6,7 @@
 //
 //	slopebench gen -rows N -out FILE.csv|FILE.xlsx
 //	slopebench run [-rows 10000,100000,1000000] [-stream-rows 10000000] -slopewise BIN [-dir DIR]
+//	slopebench panel -units N -years Y -out FILE.csv   (bench/did.sh, issue 14)
 package main
 
 import (
@@ -27,6 +28,8 @@ func main() {
 		err = gen(os.Args[2:])
 	case "run":
 		err = run(os.Args[2:])
+	case "panel":
+		err = panel(os.Args[2:])
 	default:
 		usage()
 	}
@@ -37,7 +40,7 @@ func main() {
 }
 
 func usage() {
-	fmt.Fprintln(os.Stderr, "usage: slopebench gen -rows N -out FILE.csv|FILE.xlsx\n       slopebench run -slopewise BIN [-rows N,N,…] [-stream-rows N,…] [-dir DIR]")
+	fmt.Fprintln(os.Stderr, "usage: slopebench gen -rows N -out FILE.csv|FILE.xlsx\n       slopebench run -slopewise BIN [-rows N,N,…] [-stream-rows N,…] [-dir DIR]\n       slopebench panel -units N -years Y -out FILE.csv")
 	os.Exit(2)
 }
 
