@@ -191,3 +191,37 @@ func TestHelpMenu(t *testing.T) {
 		t.Errorf("the Help menu holds %d items", n)
 	}
 }
+
+// TestWheelScrollsThePage: the wheel turned over a wide table scrolls the
+// page, not the table; scrolled sideways, the table slides.
+func TestWheelScrollsThePage(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.demoRoles()
+	u.rolesScreen.cluster.SetSelected("site")
+	test.Tap(u.next)
+	test.Tap(u.next) // run
+	h.wait()
+	h.w.Resize(fyne.NewSize(1024, 640))
+	var side *sideScroll
+	for _, o := range test.LaidOutObjects(h.w.Canvas().Content()) {
+		if s, ok := o.(*sideScroll); ok && side == nil && s.Content.MinSize().Width > s.Size().Width {
+			side = s
+		}
+	}
+	if side == nil {
+		t.Fatal("no table wider than the page at 1024×640")
+	}
+	if side.page == nil {
+		t.Fatal("the table does not know its page")
+	}
+	before := side.page.Offset.Y
+	side.Scrolled(&fyne.ScrollEvent{Scrolled: fyne.Delta{DY: -60}})
+	if side.Offset.X != 0 || side.page.Offset.Y <= before {
+		t.Errorf("the wheel over the table: table at %v, page from %v to %v", side.Offset.X, before, side.page.Offset.Y)
+	}
+	side.Scrolled(&fyne.ScrollEvent{Scrolled: fyne.Delta{DX: -80}})
+	if side.Offset.X <= 0 {
+		t.Errorf("scrolled sideways, the table stays at %v", side.Offset.X)
+	}
+}

@@ -56,7 +56,48 @@ func sheetView(s *report.Sheet, keys ...string) fyne.CanvasObject {
 		}
 		box.Add(blockGrid(rows))
 	}
-	return container.NewVScroll(box)
+	page := container.NewVScroll(box)
+	givePage(box, page)
+	return page
+}
+
+// sideScroll slides a table wider than the page sideways, and gives the
+// page the wheel's turns up and down: over a table the page scrolls on,
+// and the table slides only when scrolled sideways (a trackpad, a tilting
+// wheel, or Shift with the wheel where the system sends that sideways).
+// Fyne's own sideways scroller turns the wheel's vertical turns into
+// sideways ones, so the page stuck over every wide table.
+type sideScroll struct {
+	container.Scroll
+	page *container.Scroll
+}
+
+func newSideScroll(content fyne.CanvasObject) *sideScroll {
+	s := &sideScroll{}
+	s.Direction = container.ScrollHorizontalOnly
+	s.Content = content
+	s.ExtendBaseWidget(s)
+	return s
+}
+
+func (s *sideScroll) Scrolled(ev *fyne.ScrollEvent) {
+	if ev.Scrolled.DX == 0 && s.page != nil {
+		s.page.Scrolled(ev)
+		return
+	}
+	s.Scroll.Scrolled(&fyne.ScrollEvent{PointEvent: ev.PointEvent, Scrolled: fyne.Delta{DX: ev.Scrolled.DX}})
+}
+
+// givePage tells every sideways scroller under o which page it is on.
+func givePage(o fyne.CanvasObject, page *container.Scroll) {
+	switch v := o.(type) {
+	case *sideScroll:
+		v.page = page
+	case *fyne.Container:
+		for _, c := range v.Objects {
+			givePage(c, page)
+		}
+	}
 }
 
 // blockGrid lays out a block's rows: paragraphs across the width, label
@@ -97,7 +138,7 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 	}
 	// A table wider than the window scrolls sideways on its own, so the
 	// paragraphs around it still wrap at the window's width.
-	return container.NewHScroll(out)
+	return newSideScroll(out)
 }
 
 // minColumn is the narrowest a table column gets, in pixels: room for a
