@@ -10,6 +10,7 @@ import (
 	"os"
 	"path/filepath"
 	"regexp"
+	"runtime"
 	"strconv"
 	"strings"
 	"time"
@@ -721,11 +722,52 @@ func backup(path string, now time.Time) (string, error) {
 	return backupBytes(path, orig, mode, now)
 }
 
+// sameBackup is an existing backup of the workbook stem+ext in dir whose
+// bytes are orig, or "". Only files named as Slopewise names its backups
+// are looked at, and only those of orig's size are read.
+func sameBackup(dir, stem, ext string, orig []byte) string {
+	pattern := filepath.Join(dir, globEscape(stem)+" (before Slopewise *)"+globEscape(ext))
+	names, _ := filepath.Glob(pattern)
+	for _, n := range names {
+		info, err := os.Lstat(n)
+		if err != nil || !info.Mode().IsRegular() || info.Size() != int64(len(orig)) {
+			continue
+		}
+		if b, err := os.ReadFile(n); err == nil && bytes.Equal(b, orig) {
+			return n
+		}
+	}
+	return ""
+}
+
+// globEscape quotes the characters filepath.Match gives a meaning to.
+func globEscape(s string) string {
+	var b strings.Builder
+	for _, r := range s {
+		if strings.ContainsRune(`*?[\`, r) {
+			if runtime.GOOS == "windows" {
+				// No escape character there: a class of one.
+				b.WriteString("[" + string(r) + "]")
+				continue
+			}
+			b.WriteByte('\\')
+		}
+		b.WriteRune(r)
+	}
+	return b.String()
+}
+
 // backupBytes writes orig, the bytes of the file at path, as its backup.
+// A backup already beside the workbook that holds these very bytes (the
+// results were added, the original put back, and added again) is the
+// backup: no second copy of the same bytes is made.
 func backupBytes(path string, orig []byte, mode fs.FileMode, now time.Time) (string, error) {
 	dir, base := filepath.Split(path)
 	ext := filepath.Ext(base)
 	stem := strings.TrimSuffix(base, ext)
+	if same := sameBackup(dir, stem, ext, orig); same != "" {
+		return same, nil
+	}
 	stamp := now.Format("2006-01-02 15.04.05")
 	var dst string
 	for k := 1; ; k++ {

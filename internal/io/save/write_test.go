@@ -483,3 +483,50 @@ func TestWriteBesideCSVPointInCommaFile(t *testing.T) {
 		}
 	}
 }
+
+// TestSameBackupNotCopiedTwice: results added, the original put back (its
+// bytes return), results added again: the second save's backup is the
+// first one, not a second copy of the same bytes; a workbook with other
+// bytes gets a backup of its own. Names with the characters a file
+// pattern gives a meaning to ("[", "*") are matched as they are.
+func TestSameBackupNotCopiedTwice(t *testing.T) {
+	for _, name := range []string{"visits.xlsx", "visits [2026]*.xlsx"} {
+		if runtime.GOOS == "windows" && strings.Contains(name, "*") {
+			continue
+		}
+		dir := t.TempDir()
+		path := filepath.Join(dir, name)
+		iotest.RichWorkbook(t, path)
+		orig, err := os.ReadFile(path)
+		if err != nil {
+			t.Fatal(err)
+		}
+		clock := time.Date(2026, 3, 4, 5, 6, 7, 0, time.UTC)
+		opts := WriteOptions{Now: func() time.Time { clock = clock.Add(time.Minute); return clock }}
+		first, err := WriteResults(path, iotest.ResultsGrid(t), opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if err := os.WriteFile(path, orig, 0o644); err != nil { // put back
+			t.Fatal(err)
+		}
+		second, err := WriteResults(path, iotest.ResultsGrid(t), opts)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if second.Backup != first.Backup {
+			t.Errorf("%s: a second backup %q of the same bytes as %q", name, second.Backup, first.Backup)
+		}
+		third, err := WriteResults(path, iotest.ResultsGrid(t), WriteOptions{Now: opts.Now, Replace: true})
+		if err != nil {
+			t.Fatal(err)
+		}
+		if third.Backup == first.Backup || iotest.FileHash(t, third.Backup) == iotest.FileHash(t, first.Backup) {
+			t.Errorf("%s: the workbook with results has no backup of its own: %q", name, third.Backup)
+		}
+		backups, _ := filepath.Glob(filepath.Join(dir, "*before Slopewise*"))
+		if len(backups) != 2 {
+			t.Errorf("%s: backups %v", name, backups)
+		}
+	}
+}
