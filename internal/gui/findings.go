@@ -67,6 +67,7 @@ func (u *UI) startRun() {
 		return
 	}
 	spec.EquivalenceMargin = margin
+	u.rolesScreen.keepRoles()
 	run := u.run
 	run.Spec = spec
 	run.Randomized = o.randomized.Checked

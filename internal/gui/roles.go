@@ -65,6 +65,8 @@ type rolesScreen struct {
 	// The defaults chosen for the open table, and why (defaults.go).
 	defTreatment, whyTreatment string
 	defOutcome, whyOutcome     string
+	// rolesBack: the roles of the last run on this sheet were put back.
+	rolesBack bool
 }
 
 func newRolesScreen(u *UI) *rolesScreen {
@@ -165,6 +167,7 @@ func (s *rolesScreen) reset() {
 	s.filling = true
 	defer func() { s.filling = false; s.changed() }()
 	s.u.optionsScreen.bootstrapShown = false
+	s.rolesBack = false
 	var all, numeric []string
 	for _, c := range t.Columns {
 		all = append(all, c.Name)
@@ -213,6 +216,12 @@ func (s *rolesScreen) reset() {
 	}
 	s.treatmentChanged()
 	s.moderatorChanged()
+	if s.restoreRoles() {
+		// The person's own choices of the last run: nothing was chosen
+		// for them.
+		s.defTreatment, s.defOutcome = "", ""
+		s.rolesBack = true
+	}
 }
 
 func isNumeric(c *workbook.Column) bool {
@@ -417,6 +426,9 @@ func (s *rolesScreen) changed() {
 // will be read, and why a column of text is not offered as the outcome.
 func (s *rolesScreen) roleNotes() []pipeline.Check {
 	var out []pipeline.Check
+	if s.rolesBack {
+		out = append(out, pipeline.Check{Severity: pipeline.Note, Message: "The roles of the last run on this sheet are back; change any of them above."})
+	}
 	if words := s.chosenFor(); words != "" {
 		out = append(out, pipeline.Check{Severity: pipeline.Note, Message: words})
 	}

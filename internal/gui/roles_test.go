@@ -266,3 +266,30 @@ func TestCoverSheetPassedOver(t *testing.T) {
 		t.Errorf("the Rows step says %q, want %q", said, want)
 	}
 }
+
+// TestRolesRemembered: the roles of a run come back when the same sheet
+// is opened again, and "Before running" says so.
+func TestRolesRemembered(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.demoRoles()
+	r := u.rolesScreen
+	r.moderator.SetSelected("first_time")
+	r.cluster.SetSelected("site")
+	r.controls.SetSelected([]string{"age"})
+	test.Tap(u.next)
+	test.Tap(u.next) // run
+	h.wait()
+	if u.analysis == nil {
+		t.Fatalf("no analysis: %s", h.overlayText())
+	}
+	u.open(u.path)
+	h.wait()
+	test.Tap(u.next)
+	if r.moderator.Selected != "first_time" || r.cluster.Selected != "site" || strings.Join(r.controls.Selected, ",") != "age" {
+		t.Errorf("roles after reopening: moderator %q, cluster %q, controls %v", r.moderator.Selected, r.cluster.Selected, r.controls.Selected)
+	}
+	if said := checksText(r); !strings.Contains(said, "The roles of the last run on this sheet are back") || strings.Contains(said, "Chosen for you") {
+		t.Errorf("Before running after reopening:\n%s", said)
+	}
+}
