@@ -16,6 +16,7 @@ import (
 	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
+	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
 	"slopewise/internal/report"
@@ -59,6 +60,7 @@ func (u *UI) startRun() {
 		return
 	}
 	spec.Variance = o.variance()
+	spec.LeverageFallback = o.leverageFallback()
 	spec.Alpha = o.alpha()
 	spec.Bootstrap.Off = !o.bootstrap.Checked
 	margin, err := o.marginValue()
@@ -121,7 +123,7 @@ func (u *UI) startRun() {
 		case err != nil:
 			u.setStatus("")
 			u.updateBar()
-			u.showError("The model could not be fitted.", err)
+			u.fitFailed(err)
 			return
 		}
 		u.analysis, u.screen, u.written = a, sa, nil
@@ -134,6 +136,27 @@ func (u *UI) startRun() {
 		u.reach(stepFindings)
 		u.show(stepFindings)
 	})
+}
+
+// fitFailed explains a fit that stopped, with what can be done in the
+// window: for a row fitted perfectly, running again with HC1 for such
+// rows (the Judging step's box, ticked by the button); for terms that
+// cannot be told apart, which choice on the Roles step to undo.
+func (u *UI) fitFailed(err error) {
+	advice := u.rolesScreen.undoAdvice(err)
+	if errors.Is(err, estimate.ErrLeverage) && u.optionsScreen.leverageFallback() == "" && u.optionsScreen.offersFallback() {
+		l := widget.NewLabel("The model could not be fitted.\n\n" + plain(err) + advice + "\n\nThe box \"If a row is fitted perfectly…\" under Standard errors allows that; the button below ticks it and runs again.")
+		l.Wrapping = fyne.TextWrapWord
+		u.keysClose(dialog.NewCustomConfirm("Something needs your attention", "Use HC1 for such rows and run again", "Close",
+			container.NewGridWrap(fyne.NewSize(520, 220), container.NewVScroll(l)), func(ok bool) {
+				if ok {
+					u.optionsScreen.hc1Fallback.SetChecked(true)
+					u.startRun()
+				}
+			}, u.win)).Show()
+		return
+	}
+	u.showError("The model could not be fitted."+advice, err)
 }
 
 // rebuild renders the results sheet: the findings in short, the chart,

@@ -79,9 +79,12 @@ type optionsScreen struct {
 	randomized *widget.Check
 	planned    *widget.CheckGroup // the moderators named before looking
 	bootstrap  *widget.Check
-	level      *widget.Select
-	margin     *widget.Entry // the smallest difference between groups that matters
-	progress   *widget.ProgressBarInfinite
+	// hc1Fallback lets HC2 and HC3 fall back to HC1 when a row is fitted
+	// perfectly (leverage 1) instead of stopping.
+	hc1Fallback *widget.Check
+	level       *widget.Select
+	margin      *widget.Entry // the smallest difference between groups that matters
+	progress    *widget.ProgressBarInfinite
 
 	bootstrapShown bool // the bootstrap's default has been set for the roles
 	cancelBtn      *button
@@ -98,6 +101,7 @@ func newOptionsScreen(u *UI) *optionsScreen {
 	s.se = widget.NewRadioGroup(labels, func(string) { s.explain() })
 	s.randomized = widget.NewCheck("The treatment was randomly assigned (a lottery, not a choice)", func(bool) { u.forget(stepOptions) })
 	s.planned = widget.NewCheckGroup(nil, func([]string) { u.forget(stepOptions) })
+	s.hc1Fallback = widget.NewCheck("If a row is fitted perfectly (leverage 1), use HC1 for the errors instead of stopping", func(bool) { u.forget(stepOptions) })
 	s.bootstrap = widget.NewCheck("Check the tests by re-drawing whole clusters (wild cluster bootstrap)", func(bool) { u.forget(stepOptions) })
 	var levels []string
 	for _, a := range alphaChoices {
@@ -146,6 +150,21 @@ func (s *optionsScreen) explain() {
 	}
 	s.u.forget(stepOptions)
 	s.u.updateBar()
+}
+
+// offersFallback: the chosen type (HC2, HC3) needs every row's leverage
+// below 1, so the fallback to HC1 is offered.
+func (s *optionsScreen) offersFallback() bool {
+	v := s.variance()
+	return v == estimate.HC2 || v == estimate.HC3
+}
+
+// leverageFallback is the type HC2 and HC3 fall back to, if allowed.
+func (s *optionsScreen) leverageFallback() estimate.VarianceType {
+	if s.hc1Fallback.Checked && s.offersFallback() {
+		return estimate.HC1
+	}
+	return ""
 }
 
 // variance is the chosen type, or the default for the roles.
@@ -218,6 +237,9 @@ func (s *optionsScreen) content() fyne.CanvasObject {
 		s.se,
 		s.seWhy,
 	)
+	if s.offersFallback() {
+		box.Add(s.hc1Fallback)
+	}
 	if g := s.u.clusterCount(spec.Cluster); g > 0 && g < estimate.BootstrapClusters {
 		if !s.bootstrapShown {
 			s.bootstrap.SetChecked(true)

@@ -1,7 +1,9 @@
 package gui
 
 import (
+	"errors"
 	"fmt"
+	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -490,6 +492,45 @@ func groupCount(c *workbook.Column) int {
 		return len(seenText)
 	}
 	return len(seen)
+}
+
+// undoAdvice says, for a fit that stopped on terms that cannot be told
+// apart or on a row fitted perfectly, which choice on the Roles step to
+// undo: the controls the terms come from (a control's own term, or one of
+// its categories, "col = level"). Empty when none is a control.
+func (s *rolesScreen) undoAdvice(err error) string {
+	var ee *estimate.Error
+	if !errors.As(err, &ee) {
+		return ""
+	}
+	var terms []string
+	for _, a := range ee.Aliased {
+		terms = append(terms, a.Term)
+		terms = append(terms, a.With...)
+	}
+	var controls []string
+	for _, c := range s.controls.Selected {
+		for _, t := range terms {
+			if (t == c || strings.HasPrefix(t, c+" = ")) && !slices.Contains(controls, c) {
+				controls = append(controls, c)
+			}
+		}
+	}
+	switch {
+	case len(controls) > 0:
+		return fmt.Sprintf(" On the Roles step, untick %s under \"Adjust for\".", joinOr(quoteAll(controls)))
+	case errors.Is(err, estimate.ErrLeverage) && len(s.controls.Selected) > 0:
+		return " The category is often one of a control's: on the Roles step, untick that control under \"Adjust for\"."
+	}
+	return ""
+}
+
+// joinOr joins "a", "b" and "c" as a choice in words.
+func joinOr(xs []string) string {
+	if len(xs) <= 1 {
+		return strings.Join(xs, "")
+	}
+	return strings.Join(xs[:len(xs)-1], ", ") + " or " + xs[len(xs)-1]
 }
 
 // joinAnd joins "a", "b" and "c" as a list in words.

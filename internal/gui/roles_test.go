@@ -293,3 +293,47 @@ func TestRolesRemembered(t *testing.T) {
 		t.Errorf("Before running after reopening:\n%s", said)
 	}
 }
+
+// TestAdviceTheWindowCanFollow: a row fitted perfectly offers a button
+// that allows HC1 for such rows and runs again, and says which control to
+// untick; terms that cannot be told apart name the control to untick.
+func TestAdviceTheWindowCanFollow(t *testing.T) {
+	h := openCSV(t, "pupils.csv", rowsOf("score,tutored,area,school,hours,minutes", 80, func(i int) string {
+		school := "s" + strconv.Itoa(i/2%4)
+		if i == 79 {
+			school = "lone" // one row: its indicator fits it perfectly
+		}
+		hours := (i*7)%13 + 1
+		return strconv.Itoa((i*7919)%101) + "," + strconv.Itoa(i%2) + ",a" + strconv.Itoa(i%3) + "," + school + "," + strconv.Itoa(hours) + "," + strconv.Itoa(60*hours)
+	}))
+	u := h.u
+	r := u.rolesScreen
+	r.outcome.SetSelected("score")
+	r.treatment.SetSelected("tutored")
+	r.moderator.SetSelected("area")
+	r.controls.SetSelected([]string{"school"})
+	test.Tap(u.next)
+	if u.optionsScreen.variance() != "HC3" {
+		t.Fatalf("standard errors %q", u.optionsScreen.variance())
+	}
+	test.Tap(u.next) // run
+	h.wait()
+	said := h.overlayText()
+	if u.analysis != nil || !strings.Contains(said, `untick that control`) || !strings.Contains(said, "[Use HC1 for such rows and run again]") {
+		t.Fatalf("a row of leverage 1:\n%s", said)
+	}
+	h.tapButton("Use HC1 for such rows and run again")
+	h.wait()
+	if u.analysis == nil || !u.optionsScreen.hc1Fallback.Checked {
+		t.Fatalf("no analysis after allowing HC1: %s", h.overlayText())
+	}
+
+	test.Tap(u.stepBtns[stepRoles])
+	r.controls.SetSelected([]string{"hours", "minutes"})
+	test.Tap(u.next)
+	test.Tap(u.next)
+	h.wait()
+	if said := h.overlayText(); !strings.Contains(said, `untick "hours" or "minutes" under "Adjust for"`) {
+		t.Errorf("terms that cannot be told apart:\n%s", said)
+	}
+}
