@@ -270,6 +270,14 @@ func wordsFor(res *estimate.Result, opt ChartOptions) chartWords {
 		w.scale = 100
 		w.axis += ", in percentage points"
 	}
+	if res.Spec.Cluster != "" {
+		// Say which intervals are drawn: the note may give the
+		// bootstrap's, the chart draws the cluster-robust ones.
+		w.interval = "cluster-robust " + w.interval
+	}
 	w.axis += ", with " + w.interval
+	if res.Bootstrap != nil {
+		w.axis += " (the bootstrap's are in the tables)"
+	}
 	return w
 }
