@@ -26,9 +26,16 @@ func window(path string) int {
 	}
 	a := app.NewWithID(appID)
 	a.SetIcon(fyne.NewStaticResource("slopewise.png", assets.Icon))
+	a.Settings().SetTheme(gui.Theme())
 	w := a.NewWindow("Slopewise")
 	u := gui.New(a, w, gui.Options{Version: version})
 	w.Resize(gui.Size(a))
+	// SLOPEWISE_TOUR_SIZE=WxH sets the tour's window size (the
+	// screenshots at laptop sizes).
+	var tw, th float32
+	if _, err := fmt.Sscanf(os.Getenv("SLOPEWISE_TOUR_SIZE"), "%fx%f", &tw, &th); err == nil && tw > 0 && th > 0 {
+		w.Resize(fyne.NewSize(tw, th))
+	}
 	if dir := os.Getenv("SLOPEWISE_TOUR"); dir != "" {
 		go u.Tour(dir, func(err error) {
 			if err != nil {

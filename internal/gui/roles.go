@@ -79,7 +79,9 @@ func newRolesScreen(u *UI) *rolesScreen {
 	s.treated = widget.NewSelect(nil, changed)
 	s.moderator = widget.NewSelect(nil, func(string) { s.moderatorChanged(); s.changed() })
 	s.modKind = widget.NewRadioGroup([]string{kindGroups, kindTwo, kindNumber}, func(string) { s.kindChanged(); s.changed() })
-	s.modKind.Horizontal = true
+	// One under the other: side by side, the three made the Roles step
+	// wider than a 1024-pixel screen.
+	s.modKind.Horizontal = false
 	s.reference = widget.NewSelect(nil, changed)
 	s.probes = widget.NewEntry()
 	s.probes.SetPlaceHolder("e.g. 20, 50, 80 — empty: the 10th to 90th percentiles")
@@ -92,11 +94,12 @@ func newRolesScreen(u *UI) *rolesScreen {
 	s.cluster = widget.NewSelect(nil, changed)
 	s.weights = widget.NewSelect(nil, changed)
 	s.control = widget.NewSelect(nil, changed)
-	s.beforeAfter = widget.NewCheck("Measured before and after the start", func(bool) { s.layoutForm(); s.changed() })
+	s.beforeAfter = widget.NewCheck("Yes", func(bool) { s.layoutForm(); s.changed() })
 	s.period = widget.NewSelect(nil, func(string) { s.periodChanged(); s.changed() })
 	s.after = widget.NewSelect(nil, changed)
+	s.after.PlaceHolder = "with several after, the first of them"
 	s.unit = widget.NewSelect(nil, changed)
-	s.unitEffects = widget.NewCheck("Compare each unit with itself (unit effects)", func(bool) { s.changed() })
+	s.unitEffects = widget.NewCheck("Yes (unit effects)", func(bool) { s.changed() })
 	s.checks = container.NewVBox()
 	s.form = container.NewStack()
 	s.layoutForm()
@@ -131,15 +134,15 @@ func (s *rolesScreen) layoutForm() {
 			items = append(items, widget.NewFormItem("Compare each group with", s.reference))
 		}
 	}
-	items = append(items, widget.NewFormItem("Measured before and after?", s.beforeAfter))
+	items = append(items, widget.NewFormItem("Measured before and after the start?", s.beforeAfter))
 	if s.beforeAfter.Checked {
 		items = append(items, widget.NewFormItem("Period — before or after the start", s.period))
 		if pc := s.column(s.period.Selected); pc != nil && !pipeline.ZeroOne(pc) {
-			items = append(items, widget.NewFormItem("Which value is after the start? (the first, with more)", s.after))
+			items = append(items, widget.NewFormItem("Which value is after the start?", s.after))
 		}
 		items = append(items,
 			widget.NewFormItem("Unit — the person or site measured each time", s.unit),
-			widget.NewFormItem("", s.unitEffects))
+			widget.NewFormItem("Compare each unit with itself?", s.unitEffects))
 	}
 	items = append(items,
 		widget.NewFormItem("Sites or groups whose rows are alike", s.cluster),

@@ -10,7 +10,6 @@ import (
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
-	"fyne.io/fyne/v2/layout"
 	"fyne.io/fyne/v2/widget"
 
 	"slopewise/internal/report"
@@ -43,9 +42,11 @@ func sheetView(s *report.Sheet, keys ...string) fyne.CanvasObject {
 		if b.Image != nil && len(b.Image.PNG) > 0 {
 			img := canvas.NewImageFromReader(bytes.NewReader(b.Image.PNG), "chart.png")
 			img.FillMode = canvas.ImageFillContain
+			// As tall as the picture drawn 820 pixels wide; narrower
+			// windows show it smaller (contained), so the page never
+			// needs to be wider than the window.
 			w := float32(min(b.Image.Width, 820))
-			img.SetMinSize(fyne.NewSize(w, w*float32(b.Image.Height)/float32(max(b.Image.Width, 1))))
-			box.Add(container.NewHBox(img, layout.NewSpacer()))
+			box.Add(container.New(fixedHeight(w*float32(b.Image.Height)/float32(max(b.Image.Width, 1))), img))
 		}
 	}
 	if len(s.Settings) > 0 && len(keys) == 0 {
