@@ -1,6 +1,7 @@
 package gui
 
 import (
+	"strconv"
 	"strings"
 	"testing"
 
@@ -8,6 +9,7 @@ import (
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/driver/desktop"
 	"fyne.io/fyne/v2/test"
+	"fyne.io/fyne/v2/widget"
 )
 
 // pressShortcut delivers Ctrl (the platform's shortcut modifier) with key
@@ -192,9 +194,10 @@ func TestHelpMenu(t *testing.T) {
 	}
 }
 
-// TestWheelScrollsThePage: the wheel turned over a wide table scrolls the
-// page, not the table; scrolled sideways, the table slides.
-func TestWheelScrollsThePage(t *testing.T) {
+// wideTable runs the demo with site as the cluster and returns the window,
+// at 1024×640, with the first table on the findings wider than the page.
+func wideTable(t *testing.T) (*harness, *sideScroll) {
+	t.Helper()
 	h := newHarness(t, Options{})
 	u := h.u
 	h.demoRoles()
@@ -212,6 +215,13 @@ func TestWheelScrollsThePage(t *testing.T) {
 	if side == nil {
 		t.Fatal("no table wider than the page at 1024×640")
 	}
+	return h, side
+}
+
+// TestWheelScrollsThePage: the wheel turned over a wide table scrolls the
+// page, not the table; scrolled sideways, the table slides.
+func TestWheelScrollsThePage(t *testing.T) {
+	_, side := wideTable(t)
 	if side.page == nil {
 		t.Fatal("the table does not know its page")
 	}
@@ -223,5 +233,41 @@ func TestWheelScrollsThePage(t *testing.T) {
 	side.Scrolled(&fyne.ScrollEvent{Scrolled: fyne.Delta{DX: -80}})
 	if side.Offset.X <= 0 {
 		t.Errorf("scrolled sideways, the table stays at %v", side.Offset.X)
+	}
+}
+
+// TestLabelsStayWhenATableSlides: slid sideways, a table's values move and
+// its labels (the first column) stay where they were, in sight.
+func TestLabelsStayWhenATableSlides(t *testing.T) {
+	h, side := wideTable(t)
+	d := fyne.CurrentApp().Driver()
+	var label, value *widget.Label
+	for _, o := range test.LaidOutObjects(h.w.Canvas().Content()) {
+		if l, ok := o.(*widget.Label); ok && l.Text == "Plains" && label == nil {
+			label = l
+		}
+	}
+	if label == nil {
+		t.Fatal("the effects table's row of Plains is not on the page")
+	}
+	// A number in the same row.
+	for _, o := range test.LaidOutObjects(side.Content) {
+		if l, ok := o.(*widget.Label); ok && value == nil && d.AbsolutePositionForObject(l).Y == d.AbsolutePositionForObject(label).Y {
+			if _, err := strconv.ParseFloat(strings.ReplaceAll(l.Text, ",", ""), 64); err == nil {
+				value = l
+			}
+		}
+	}
+	if value == nil {
+		t.Fatal("no number beside the label Plains")
+	}
+	l0, v0 := d.AbsolutePositionForObject(label), d.AbsolutePositionForObject(value)
+	side.Scrolled(&fyne.ScrollEvent{Scrolled: fyne.Delta{DX: -120}})
+	l1, v1 := d.AbsolutePositionForObject(label), d.AbsolutePositionForObject(value)
+	if side.Offset.X <= 0 || v1.X >= v0.X {
+		t.Errorf("the values did not slide: offset %v, from %v to %v", side.Offset.X, v0, v1)
+	}
+	if l1 != l0 || l1.X < 0 {
+		t.Errorf("the label moved from %v to %v", l0, l1)
 	}
 }

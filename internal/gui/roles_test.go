@@ -225,7 +225,7 @@ func TestClusteredNamesItsColumn(t *testing.T) {
 }
 
 func TestCountWords(t *testing.T) {
-	for n, want := range map[int]string{0: "0 rows", 1: "1 row", 2: "2 rows", 500000: "500,000 rows"} {
+	for n, want := range map[int]string{0: "0 rows", 1: "1 row", 2: "2 rows", 1200: "1200 rows", 19900: "19,900 rows", 500000: "500,000 rows"} {
 		if got := count(n, "row"); got != want {
 			t.Errorf("count(%d) = %q, want %q", n, got, want)
 		}

@@ -10,6 +10,7 @@ import (
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/canvas"
 	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
 	"slopewise/internal/report"
@@ -120,26 +121,101 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 	if len(rows) > lazyRows {
 		return lazyGrid(rows, width)
 	}
+	// Runs of table rows between paragraphs: each run's first column (the
+	// labels) stays in place while the other columns slide sideways, so a
+	// row's label is in sight however far a wide table is slid.
 	out := container.NewVBox()
-	cols := &columns{n: width, first: 2}
+	var run [][]report.Cell
+	flush := func() {
+		if len(run) > 0 {
+			out.Add(tableRun(run, width))
+			run = nil
+		}
+	}
 	for _, r := range rows {
 		if len(r) == 1 && r[0].Kind == report.Paragraph {
+			flush()
 			out.Add(paragraph(r[0].Text))
 			continue
 		}
-		row := container.New(cols)
-		for c := 0; c < width; c++ {
+		run = append(run, r)
+	}
+	flush()
+	return out
+}
+
+// tableRun lays out table rows: the labels in a column of their own, the
+// other columns beside them in a sideways scroller (sideScroll); each row
+// as tall as the taller of its two halves (rowPair).
+func tableRun(rows [][]report.Cell, width int) fyne.CanvasObject {
+	pairs := &rowPairs{}
+	cols := &columns{n: width - 1, first: 1}
+	labelWidth := float32(2 * minColumn)
+	for _, r := range rows {
+		var first report.Cell
+		if len(r) > 0 {
+			first = r[0]
+		}
+		label := cellWidget(first, false)
+		style := fyne.TextStyle{Bold: first.Kind == report.Heading}
+		labelWidth = max(labelWidth, min(fyne.MeasureText(cellString(first), theme.TextSize(), style).Width+2*theme.InnerPadding(), maxLabel))
+		rest := container.New(cols)
+		for c := 1; c < width; c++ {
 			var cell report.Cell
 			if c < len(r) {
 				cell = r[c]
 			}
-			row.Add(cellWidget(cell, false))
+			rest.Add(cellWidget(cell, false))
 		}
-		out.Add(row)
+		pairs.left = append(pairs.left, label)
+		pairs.right = append(pairs.right, rest)
 	}
-	// A table wider than the window scrolls sideways on its own, so the
-	// paragraphs around it still wrap at the window's width.
-	return newSideScroll(out)
+	left := container.New(&rowPair{p: pairs, left: true, width: labelWidth}, pairs.left...)
+	right := container.New(&rowPair{p: pairs}, pairs.right...)
+	return container.NewBorder(nil, nil, left, nil, newSideScroll(right))
+}
+
+// maxLabel is the widest the labels' column gets, in pixels.
+const maxLabel = 320
+
+// rowPairs are a table run's rows, split into their labels and the rest.
+type rowPairs struct{ left, right []fyne.CanvasObject }
+
+// height is row i's height: the taller of its two halves.
+func (p *rowPairs) height(i int) float32 {
+	return max(p.left[i].MinSize().Height, p.right[i].MinSize().Height)
+}
+
+// rowPair lays out one half of a table run, row under row, each row as
+// tall as the pair needs; the labels' half at its fixed width.
+type rowPair struct {
+	p     *rowPairs
+	left  bool
+	width float32
+}
+
+func (l *rowPair) MinSize(objects []fyne.CanvasObject) fyne.Size {
+	w, h := l.width, float32(0)
+	for i, o := range objects {
+		if !l.left {
+			w = max(w, o.MinSize().Width)
+		}
+		h += l.p.height(i)
+		if i > 0 {
+			h += theme.Padding()
+		}
+	}
+	return fyne.NewSize(w, h)
+}
+
+func (l *rowPair) Layout(objects []fyne.CanvasObject, size fyne.Size) {
+	y := float32(0)
+	for i, o := range objects {
+		h := l.p.height(i)
+		o.Move(fyne.NewPos(0, y))
+		o.Resize(fyne.NewSize(size.Width, h))
+		y += h + theme.Padding()
+	}
 }
 
 // minColumn is the narrowest a table column gets, in pixels: room for a
@@ -209,8 +285,14 @@ func (h fixedHeight) Layout(objects []fyne.CanvasObject, size fyne.Size) {
 	}
 }
 
-// thousands writes n with commas between groups of three digits.
-func thousands(n int) string { return formatNumber(float64(n), "#,##0") }
+// thousands writes n with commas between groups of three digits from
+// five digits on ("1200", "19,900"), as the notes write counts.
+func thousands(n int) string {
+	if n > -10000 && n < 10000 {
+		return strconv.Itoa(n)
+	}
+	return formatNumber(float64(n), "#,##0")
+}
 
 // count writes n things: "1 row", "2 rows", "500,000 rows".
 func count(n int, thing string) string {
