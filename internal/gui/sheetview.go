@@ -165,7 +165,11 @@ func tableRun(rows [][]report.Cell, width int) fyne.CanvasObject {
 			if c < len(r) {
 				cell = r[c]
 			}
-			rest.Add(cellWidget(cell, false))
+			w := cellWidget(cell, false)
+			if l, ok := w.(*widget.Label); ok && cell.Kind == report.Heading && numericColumn(rows, c) {
+				l.Alignment = fyne.TextAlignTrailing // over its numbers
+			}
+			rest.Add(w)
 		}
 		pairs.left = append(pairs.left, label)
 		pairs.right = append(pairs.right, rest)
@@ -173,6 +177,23 @@ func tableRun(rows [][]report.Cell, width int) fyne.CanvasObject {
 	left := container.New(&rowPair{p: pairs, left: true, width: labelWidth}, pairs.left...)
 	right := container.New(&rowPair{p: pairs}, pairs.right...)
 	return container.NewBorder(nil, nil, left, nil, newSideScroll(right))
+}
+
+// numericColumn reports a column of mostly numbers (p-values and
+// percentages too), whose heading stands right-aligned over them.
+func numericColumn(rows [][]report.Cell, c int) bool {
+	nums, cells := 0, 0
+	for _, r := range rows {
+		if c >= len(r) || r[c].Kind == report.Heading || (r[c].Kind == report.Text && r[c].Text == "") {
+			continue
+		}
+		cells++
+		switch r[c].Kind {
+		case report.Number, report.Percent, report.PValue:
+			nums++
+		}
+	}
+	return cells > 0 && 2*nums > cells
 }
 
 // maxLabel is the widest the labels' column gets, in pixels.
