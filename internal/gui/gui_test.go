@@ -276,6 +276,7 @@ func TestChecksBeforeRunning(t *testing.T) {
 		// where the treatment cannot vary block the run.
 		{"number read as groups", func() { r.moderator.SetSelected("baseline_score"); r.modKind.SetSelected(kindGroups) }, "different numbers. Treat it as a number", true},
 		{"treatment constant in a group", func() { r.moderator.SetSelected("baseline_score"); r.modKind.SetSelected(kindGroups) }, "the treatment never varies", true},
+		{"what the window offers instead of merging", func() {}, "Here: choose another moderator, or treat this one as a number", true},
 		{"few clusters", func() { r.moderator.SetSelected("region"); r.cluster.SetSelected("site") }, "only 24 clusters", false},
 		{"small group", func() { r.cluster.SetSelected(none); r.moderator.SetSelected("age"); r.modKind.SetSelected(kindGroups) }, "The smallest group", false},
 		{"two groups that are more", func() { r.moderator.SetSelected("region"); r.modKind.SetSelected(kindTwo) }, "chosen as two groups but has 4", true},

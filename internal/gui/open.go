@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strings"
 	"time"
 
 	"fyne.io/fyne/v2"
@@ -155,11 +156,12 @@ func firstTable(path string, sheets []workbook.SheetInfo, progress func(int)) (*
 			first = t
 		}
 		if ownResults(t) {
-			sizes[sh.Name] = "results of Slopewise"
+			sizes[sh.Name] = ownResultsSize
 			continue
 		}
 		sizes[sh.Name] = count(t.Len(), "row") + ", " + count(len(t.Columns), "column")
 		if t.Len() >= tableRows && len(t.Columns) >= tableColumns {
+			markOwnResults(path, sheets, sizes)
 			return t, sizes, nil
 		}
 	}
@@ -173,6 +175,24 @@ func firstTable(path string, sheets []workbook.SheetInfo, progress func(int)) (*
 	}
 	return first, sizes, nil
 }
+
+// markOwnResults reads the sheets named as Slopewise names its results
+// ("Results", "Moderators", with a number after a second run) and marks
+// those that hold its run-spec row, so that the Rows step does not offer
+// them as data. They are small; other sheets are not read.
+func markOwnResults(path string, sheets []workbook.SheetInfo, sizes map[string]string) {
+	for _, sh := range sheets {
+		if _, seen := sizes[sh.Name]; seen || !sh.Worksheet || !(strings.HasPrefix(sh.Name, "Results") || strings.HasPrefix(sh.Name, "Moderators")) {
+			continue
+		}
+		if t, err := pipeline.Read(context.Background(), report.Run{File: path, Sheet: sh.Name}, nil); err == nil && ownResults(t) {
+			sizes[sh.Name] = ownResultsSize
+		}
+	}
+}
+
+// ownResultsSize marks a results sheet of Slopewise's in the sheet sizes.
+const ownResultsSize = "results of Slopewise"
 
 // ownResults reports a results sheet that Slopewise wrote: a cell holds
 // the marker of its run-spec row.

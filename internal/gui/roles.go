@@ -407,6 +407,13 @@ func (s *rolesScreen) changed() {
 	} else {
 		s.lastChecks = pipeline.Precheck(s.u.table, spec)
 	}
+	for i, c := range s.lastChecks {
+		// Merging groups is done in the workbook: say what the window
+		// offers instead.
+		if strings.HasSuffix(c.Message, "Merge the group with another or leave it out.") {
+			s.lastChecks[i].Message += " Here: choose another moderator, or treat this one as a number; or merge the groups in the workbook (or clear the group's cells) and open it again."
+		}
+	}
 	s.lastChecks = append(s.roleNotes(), s.lastChecks...)
 	// What stops the run first, then what to weigh, then notes.
 	sort.SliceStable(s.lastChecks, func(i, j int) bool { return s.lastChecks[i].Severity > s.lastChecks[j].Severity })

@@ -7,6 +7,7 @@ import (
 	"strings"
 	"testing"
 
+	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/test"
 	"fyne.io/fyne/v2/widget"
@@ -264,6 +265,24 @@ func TestCoverSheetPassedOver(t *testing.T) {
 	want := `About: 1 row, 1 column · Pupils: 40 rows, 3 columns. "Pupils" is shown: the first sheet that holds a table of data.`
 	if said != want {
 		t.Errorf("the Rows step says %q, want %q", said, want)
+	}
+
+	// With results added, the results sheet is not offered as data.
+	r := h.u.rolesScreen
+	test.Tap(h.u.next)
+	r.outcome.SetSelected("score")
+	r.treatment.SetSelected("tutored")
+	r.moderator.SetSelected("area")
+	test.Tap(h.u.next)
+	test.Tap(h.u.next) // run
+	h.wait()
+	test.Tap(h.u.findingsScreen.saveBtn)
+	h.wait()
+	h.w.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyEscape})
+	h.u.open(src)
+	h.wait()
+	if got := strings.Join(h.u.rowsScreen.sheet.Options, ","); got != "About,Pupils" {
+		t.Errorf("sheets offered after the results were added: %s (the workbook has %v)", got, h.u.sheets)
 	}
 }
 

@@ -9,6 +9,7 @@ import (
 
 	"fyne.io/fyne/v2"
 	"fyne.io/fyne/v2/container"
+	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 
 	"slopewise/internal/io/workbook"
@@ -83,7 +84,9 @@ func (s *rowsScreen) reset() {
 	u := s.u
 	var names []string
 	for _, sh := range u.sheets {
-		if sh.Worksheet {
+		// Slopewise's own results are not data (the current sheet stays,
+		// should someone open one on purpose).
+		if sh.Worksheet && (u.sheetSizes[sh.Name] != ownResultsSize || sh.Name == u.table.Sheet) {
 			names = append(names, sh.Name)
 		}
 	}
@@ -134,8 +137,16 @@ func (s *rowsScreen) refreshTable() {
 		notes = append(notes[:shown], fmt.Sprintf("• and %d more", len(notes)-shown))
 	}
 	s.notes.SetText(strings.Join(notes, "\n"))
+	// Each column as wide as its name (bold) and its summary line need,
+	// within 110 to 300 pixels: the summary ("numbers · 2 missing") is
+	// not cut.
+	pad := 2*theme.InnerPadding() + 4
 	for i, c := range t.Columns {
-		s.preview.SetColumnWidth(i, float32(max(110, min(220, 9*len(c.Name)+30))))
+		w := fyne.MeasureText(c.Name, theme.TextSize(), fyne.TextStyle{Bold: true}).Width
+		if i < len(s.summaries) {
+			w = max(w, fyne.MeasureText(s.summaries[i], theme.TextSize(), fyne.TextStyle{}).Width)
+		}
+		s.preview.SetColumnWidth(i, max(110, min(300, w+pad)))
 	}
 	s.preview.Refresh()
 }
