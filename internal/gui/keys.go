@@ -2,8 +2,10 @@ package gui
 
 import (
 	"fyne.io/fyne/v2"
+	"fyne.io/fyne/v2/container"
 	"fyne.io/fyne/v2/dialog"
 	"fyne.io/fyne/v2/driver/desktop"
+	"fyne.io/fyne/v2/theme"
 	"fyne.io/fyne/v2/widget"
 )
 
@@ -94,4 +96,91 @@ func (u *UI) keysClose(d dialog.Dialog) dialog.Dialog {
 	})
 	d.SetOnClosed(func() { c.SetOnTypedKey(prev) })
 	return d
+}
+
+// watchFocus scrolls the page to the field that Tab has just moved the
+// focus to, when it lies outside the part of the page in sight (Fyne 2.7
+// moves the focus without scrolling).
+func (u *UI) watchFocus() {
+	dc, ok := u.win.Canvas().(desktop.Canvas)
+	if !ok {
+		return
+	}
+	dc.SetOnKeyUp(func(ev *fyne.KeyEvent) {
+		if ev.Name == fyne.KeyTab {
+			u.revealFocused()
+		}
+	})
+}
+
+// revealFocused scrolls each page that holds the focused widget so that
+// the widget is in sight.
+func (u *UI) revealFocused() {
+	o, ok := u.win.Canvas().Focused().(fyne.CanvasObject)
+	if !ok || o == nil {
+		return
+	}
+	path := pathTo(u.win.Canvas().Content(), o)
+	for i := len(path) - 1; i >= 0; i-- {
+		switch s := path[i].(type) {
+		case *container.Scroll:
+			reveal(s, o)
+		case *sideScroll:
+			reveal(&s.Scroll, o)
+		}
+	}
+}
+
+// pathTo is the chain of objects from root down to o, through the
+// containers and widgets the window is built of (containers, scrollers,
+// splits, tabs, forms); nil when o is not found.
+func pathTo(root, o fyne.CanvasObject) []fyne.CanvasObject {
+	if root == nil {
+		return nil
+	}
+	if root == o {
+		return []fyne.CanvasObject{root}
+	}
+	var kids []fyne.CanvasObject
+	switch v := root.(type) {
+	case *fyne.Container:
+		kids = v.Objects
+	case *container.Scroll:
+		kids = []fyne.CanvasObject{v.Content}
+	case *sideScroll:
+		kids = []fyne.CanvasObject{v.Content}
+	case *container.Split:
+		kids = []fyne.CanvasObject{v.Leading, v.Trailing}
+	case *container.AppTabs:
+		if t := v.Selected(); t != nil {
+			kids = []fyne.CanvasObject{t.Content}
+		}
+	case *widget.Form:
+		for _, it := range v.Items {
+			kids = append(kids, it.Widget)
+		}
+	}
+	for _, k := range kids {
+		if p := pathTo(k, o); p != nil {
+			return append([]fyne.CanvasObject{root}, p...)
+		}
+	}
+	return nil
+}
+
+// reveal scrolls s up or down just enough for o to be in sight.
+func reveal(s *container.Scroll, o fyne.CanvasObject) {
+	d := fyne.CurrentApp().Driver()
+	top := d.AbsolutePositionForObject(o).Y - d.AbsolutePositionForObject(s).Y + s.Offset.Y
+	bottom := top + o.Size().Height
+	view := s.Size().Height
+	switch {
+	case top < s.Offset.Y:
+		s.Offset.Y = max(top-theme.Padding(), 0)
+	case bottom > s.Offset.Y+view:
+		s.Offset.Y = min(bottom-view+theme.Padding(), max(s.Content.Size().Height-view, 0))
+	default:
+		return
+	}
+	s.Refresh()
 }

@@ -271,3 +271,27 @@ func TestLabelsStayWhenATableSlides(t *testing.T) {
 		t.Errorf("the label moved from %v to %v", l0, l1)
 	}
 }
+
+// TestFocusScrolledIntoSight: the focus moved to a field below the part of
+// the page in sight (as Tab does) scrolls the page to it.
+func TestFocusScrolledIntoSight(t *testing.T) {
+	h := newHarness(t, Options{})
+	u := h.u
+	h.demoRoles()
+	test.Tap(u.next) // to Judging
+	h.w.Resize(fyne.NewSize(1024, 640))
+	m := u.optionsScreen.margin
+	d := fyne.CurrentApp().Driver()
+	inSight := func() bool {
+		y := d.AbsolutePositionForObject(m).Y
+		return y >= 0 && y+m.Size().Height <= h.w.Canvas().Size().Height
+	}
+	if inSight() {
+		t.Fatal("the margin field is in sight before scrolling: the test shows nothing")
+	}
+	h.w.Canvas().Focus(m)
+	u.revealFocused()
+	if !inSight() {
+		t.Errorf("the focused field is at %v in a %v window", d.AbsolutePositionForObject(m), h.w.Canvas().Size())
+	}
+}

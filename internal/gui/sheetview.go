@@ -149,7 +149,19 @@ func blockGrid(rows [][]report.Cell) fyne.CanvasObject {
 // as tall as the taller of its two halves (rowPair).
 func tableRun(rows [][]report.Cell, width int) fyne.CanvasObject {
 	pairs := &rowPairs{}
-	cols := &columns{n: width - 1, first: 1}
+	// Columns at least as wide as the longest word of a heading, so that
+	// no heading breaks inside a word ("Holm-adju / sted").
+	unit := float32(minColumn)
+	for _, r := range rows {
+		for c := 1; c < len(r); c++ {
+			if r[c].Kind == report.Heading {
+				for _, word := range strings.Fields(r[c].Text) {
+					unit = max(unit, fyne.MeasureText(word, theme.TextSize(), fyne.TextStyle{Bold: true}).Width+2*theme.InnerPadding())
+				}
+			}
+		}
+	}
+	cols := &columns{n: width - 1, first: 1, unit: unit}
 	labelWidth := float32(2 * minColumn)
 	for _, r := range rows {
 		var first report.Cell
@@ -329,6 +341,8 @@ func count(n int, thing string) string {
 type columns struct {
 	n     int
 	first float32
+	// unit is the narrowest a column gets; minColumn when zero.
+	unit float32
 }
 
 func (c *columns) widths(total float32) []float32 {
@@ -356,7 +370,11 @@ func (c *columns) MinSize(objects []fyne.CanvasObject) fyne.Size {
 	for _, o := range objects {
 		h = max(h, o.MinSize().Height)
 	}
-	return fyne.NewSize((c.first+float32(c.n-1))*minColumn, h)
+	unit := c.unit
+	if unit == 0 {
+		unit = minColumn
+	}
+	return fyne.NewSize((c.first+float32(c.n-1))*unit, h)
 }
 
 // pairs shows label and value rows as a form: the labels in a column of

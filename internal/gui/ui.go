@@ -141,6 +141,7 @@ func New(a fyne.App, w fyne.Window, opts Options) *UI {
 	w.SetContent(container.NewBorder(nil, container.NewPadded(bar), container.NewPadded(rail), nil, container.NewPadded(u.body)))
 	w.SetMainMenu(u.menu())
 	u.shortcuts()
+	u.watchFocus()
 	w.SetOnDropped(func(_ fyne.Position, uris []fyne.URI) {
 		for _, uri := range uris {
 			if uri.Scheme() == "file" {
