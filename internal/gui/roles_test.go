@@ -242,6 +242,9 @@ func TestCoverSheetPassedOver(t *testing.T) {
 	f.SetCellValue("About", "A1", "Tutoring pilot, spring term")
 	f.SetCellValue("About", "A2", "Prepared by the evaluation team")
 	f.NewSheet("Pupils")
+	f.NewSheet("Notes")
+	f.SetSheetRow("Notes", "A1", &[]any{"Collected by the schools in May"})
+	f.SetSheetRow("Notes", "A2", &[]any{"Scores out of 100"})
 	f.SetSheetRow("Pupils", "A1", &[]any{"score", "tutored", "area"})
 	for i := range 40 {
 		f.SetSheetRow("Pupils", "A"+strconv.Itoa(i+2), &[]any{(i * 37) % 101, i % 2, string(rune('a' + i%3))})
@@ -262,7 +265,7 @@ func TestCoverSheetPassedOver(t *testing.T) {
 			said = l.Text
 		}
 	}
-	want := `About: 1 row, 1 column · Pupils: 40 rows, 3 columns. "Pupils" is shown: the first sheet that holds a table of data.`
+	want := `About: 1 row, 1 column · Pupils: 40 rows, 3 columns · Notes: 2 rows of cells. "Pupils" is shown: the first sheet that holds a table of data.`
 	if said != want {
 		t.Errorf("the Rows step says %q, want %q", said, want)
 	}
@@ -281,7 +284,7 @@ func TestCoverSheetPassedOver(t *testing.T) {
 	h.w.Canvas().OnTypedKey()(&fyne.KeyEvent{Name: fyne.KeyEscape})
 	h.u.open(src)
 	h.wait()
-	if got := strings.Join(h.u.rowsScreen.sheet.Options, ","); got != "About,Pupils" {
+	if got := strings.Join(h.u.rowsScreen.sheet.Options, ","); got != "About,Pupils,Notes" {
 		t.Errorf("sheets offered after the results were added: %s (the workbook has %v)", got, h.u.sheets)
 	}
 }

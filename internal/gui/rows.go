@@ -318,16 +318,25 @@ func cellText(c *workbook.Column, i int) string {
 	return ""
 }
 
-// sheetsRead says what the sheets read on opening hold, and why the one
-// shown was chosen when it is not the first.
+// sheetsRead says what each sheet holds (the rows of data of those read
+// on opening, the rows of cells of the others), and why the one shown was
+// chosen when it is not the first.
 func (s *rowsScreen) sheetsRead() fyne.CanvasObject {
 	u := s.u
 	var parts []string
 	skipped := false
 	for _, sh := range u.sheets {
 		size, ok := u.sheetSizes[sh.Name]
-		if !ok || sh.Name == "" {
+		switch {
+		case sh.Name == "" || !sh.Worksheet:
 			continue
+		case ok:
+		case sh.Rows == 0:
+			size = "empty"
+		case sh.RowsMore:
+			size = "more than " + count(sh.Rows, "row") + " of cells"
+		default:
+			size = count(sh.Rows, "row") + " of cells"
 		}
 		parts = append(parts, fmt.Sprintf("%s: %s", sh.Name, size))
 		if u.table != nil && sh.Name != u.table.Sheet && len(parts) == 1 {

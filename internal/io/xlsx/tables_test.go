@@ -4,8 +4,11 @@ import (
 	"context"
 	"errors"
 	"fmt"
+	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/xuri/excelize/v2"
 
 	"slopewise/internal/io/iotest"
 	"slopewise/internal/io/table"
@@ -137,5 +140,30 @@ func TestColumnBesideTable(t *testing.T) {
 	}
 	if alone.Column("extra") != nil || len(alone.Columns) != 3 {
 		t.Errorf("the table chosen still has %d columns", len(alone.Columns))
+	}
+}
+
+// TestSheetsCountRows: Sheets counts each worksheet's rows of cells
+// (excelize v2.11.1 writes a stale <dimension ref="A1">, so the count is
+// made, not read from it), including a sheet without rows.
+func TestSheetsCountRows(t *testing.T) {
+	f := excelize.NewFile()
+	f.SetSheetName("Sheet1", "Data")
+	for r := 1; r <= 12; r++ {
+		f.SetSheetRow("Data", fmt.Sprintf("B%d", r+2), &[]any{r, r * 2, "x"})
+	}
+	f.NewSheet("Empty")
+	path := filepath.Join(t.TempDir(), "extent.xlsx")
+	if err := f.SaveAs(path); err != nil {
+		t.Fatal(err)
+	}
+	sheets, err := Sheets(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	got := fmt.Sprintf("%+v", sheets)
+	want := "[{Name:Data Hidden:false Worksheet:true Rows:12 RowsMore:false} {Name:Empty Hidden:false Worksheet:true Rows:0 RowsMore:false}]"
+	if got != want {
+		t.Errorf("got  %s\nwant %s", got, want)
 	}
 }

@@ -2,6 +2,7 @@ package xlsx
 
 import (
 	"archive/zip"
+	"bytes"
 	"encoding/xml"
 	"errors"
 	"fmt"
@@ -25,6 +26,11 @@ type SheetInfo struct {
 	// Worksheet is false for chart, dialog and macro sheets, which have
 	// no cells to read.
 	Worksheet bool
+	// Rows is the number of rows of cells the sheet holds (the header and
+	// any title rows included), counted by Sheets only; RowsMore says the
+	// count stopped after 256 MiB of the sheet's XML.
+	Rows     int
+	RowsMore bool
 }
 
 // Sheets lists a workbook's sheets in tab order. A text file has one
@@ -42,7 +48,50 @@ func Sheets(path string) ([]SheetInfo, error) {
 		return nil, err
 	}
 	defer pkg.Close()
-	return pkg.Sheets, nil
+	out := append([]SheetInfo(nil), pkg.Sheets...)
+	for i := range out {
+		if out[i].Worksheet {
+			out[i].Rows, out[i].RowsMore = pkg.countRows(pkg.Parts[out[i].Name])
+		}
+	}
+	return out, nil
+}
+
+// rowsCounted is how much of a worksheet's XML Sheets reads to count its
+// rows; past it, RowsMore is set.
+const rowsCounted = 256 << 20
+
+// countRows counts the <row> elements of a worksheet part (with or
+// without a namespace prefix), reading at most rowsCounted bytes of it;
+// more reports that it stopped there.
+func (p *Package) countRows(part string) (rows int, more bool) {
+	rc, err := p.OpenPart(part, 1<<62)
+	if err != nil {
+		return 0, false
+	}
+	defer rc.Close()
+	buf := make([]byte, 1<<20)
+	var carry []byte
+	read := 0
+	for {
+		n, err := rc.Read(buf)
+		if n > 0 {
+			chunk := append(carry, buf[:n]...)
+			rows += bytes.Count(chunk, []byte("<row ")) + bytes.Count(chunk, []byte("<row>")) + bytes.Count(chunk, []byte(":row ")) + bytes.Count(chunk, []byte(":row>"))
+			// The last 5 bytes again with the next chunk, minus what they
+			// already counted.
+			tail := chunk[max(len(chunk)-5, 0):]
+			rows -= bytes.Count(tail, []byte("<row ")) + bytes.Count(tail, []byte("<row>")) + bytes.Count(tail, []byte(":row ")) + bytes.Count(tail, []byte(":row>"))
+			carry = append(carry[:0], tail...)
+			read += n
+		}
+		if read > rowsCounted {
+			return rows, true
+		}
+		if err != nil {
+			return rows, false
+		}
+	}
 }
 
 // Package is an opened workbook: excelize has checked it and its size
