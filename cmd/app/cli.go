@@ -732,6 +732,15 @@ func printGrouping(w io.Writer, which string, spec estimate.Spec, gs []report.Gr
 	}
 }
 
+// padRight pads s with spaces to n characters (runes, not bytes: "≥" and
+// accented group names count once).
+func padRight(s string, n int) string {
+	if k := utf8.RuneCountInString(s); k < n {
+		return s + strings.Repeat(" ", n-k)
+	}
+	return s
+}
+
 // printSummary writes the effects and differences for a terminal.
 func printSummary(w io.Writer, a *pipeline.Analysis) {
 	out := report.Summarize(a.Run, a.Result)
@@ -741,12 +750,21 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	if d := res.Design; d != nil && d.UnitEffects {
 		fmt.Fprintf(w, "Unit effects: %d units of %s; not estimated separately: %s\n", d.Units, d.Unit, strings.Join(d.Absorbed, ", "))
 	}
+	// The labels' column as wide as the longest label (24 at least), so
+	// that the numbers line up when arms lengthen the labels.
+	lw := 24
 	for _, g := range out.Groups {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", armed(g.Arm, g.Label), g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
+		lw = max(lw, utf8.RuneCountInString(armed(g.Arm, g.Label)))
+	}
+	for _, d := range out.Differences {
+		lw = max(lw, utf8.RuneCountInString(armed(d.Arm, d.Label)))
+	}
+	for _, g := range out.Groups {
+		fmt.Fprintf(w, "  %s %12.4g   CI %10.4g to %-10.4g p = %.3g%s\n", padRight(armed(g.Arm, g.Label), lw), g.Estimate, g.CILow, g.CIHigh, g.P, bootText(g.OutBoot))
 	}
 	fmt.Fprintln(w, "Differences:")
 	for _, d := range out.Differences {
-		fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", armed(d.Arm, d.Label), d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
+		fmt.Fprintf(w, "  %s %12.4g   CI %10.4g to %-10.4g p = %.3g   detectable ≥ %.3g%s\n", padRight(armed(d.Arm, d.Label), lw), d.Estimate, d.CILow, d.CIHigh, d.P, d.MDD, bootText(d.OutBoot))
 	}
 	for _, a := range out.Arms {
 		if h := a.Heterogeneity; h != nil {
@@ -766,7 +784,7 @@ func printSummary(w io.Writer, a *pipeline.Analysis) {
 	if d := out.Design; d != nil && d.Leads != nil {
 		fmt.Fprintf(w, "Before the start (gaps against %s = %s):\n", d.Period, d.Leads.Reference)
 		for _, l := range d.Leads.Leads {
-			fmt.Fprintf(w, "  %-24s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", armed(l.Arm, l.Label), l.Estimate, l.CILow, l.CIHigh, l.P)
+			fmt.Fprintf(w, "  %s %12.4g   CI %10.4g to %-10.4g p = %.3g\n", padRight(armed(l.Arm, l.Label), lw), l.Estimate, l.CILow, l.CIHigh, l.P)
 		}
 		if t := d.Leads.Test; t != nil {
 			fmt.Fprintf(w, "Parallel before the start? F = %.4g on %d and %g df, p = %.3g%s\n", t.F, t.DF1, t.DF2, t.P, pBootText(t.PBoot))

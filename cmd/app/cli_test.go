@@ -13,6 +13,7 @@ import (
 	"strconv"
 	"strings"
 	"testing"
+	"unicode/utf8"
 
 	"github.com/xuri/excelize/v2"
 
@@ -1141,6 +1142,37 @@ func TestSeveralArmsCommand(t *testing.T) {
 	}
 	if !strings.Contains(errs, "stipend: South vs North") || !strings.Contains(errs, "Same effect of coaching in every group?") {
 		t.Errorf("the summary does not name the arms:\n%s", errs)
+	}
+}
+
+// TestSummaryLinesUp: in the terminal summary of the roll-out demo, whose
+// labels the arms lengthen ("coaching + stipend: North vs Harbour"), the
+// numbers of every effect and difference start at the same column.
+func TestSummaryLinesUp(t *testing.T) {
+	dir := t.TempDir()
+	if code, _, errs := runCLI(t, "demo", dir); code != exitOK {
+		t.Fatalf("demo: exit %d: %s", code, errs)
+	}
+	code, out, errs := runCLI(t, "analyze", filepath.Join(dir, "slopewise-demo-rollout.xlsx"), "--outcome", "earnings", "--treatment", "programme",
+		"--control-arm", "none", "--period", "year", "--after", "2024", "--unit", "person_id", "--moderator", "region", "--dry-run")
+	if code != exitOK {
+		t.Fatalf("exit %d: %s", code, errs)
+	}
+	at, lines := -1, 0
+	for _, line := range strings.Split(out, "\n") {
+		i := strings.Index(line, "   CI ")
+		if !strings.HasPrefix(line, "  ") || i < 0 {
+			continue
+		}
+		lines++
+		if col := utf8.RuneCountInString(line[:i]); at < 0 {
+			at = col
+		} else if col != at {
+			t.Errorf("CI at column %d, not %d: %q", col, at, line)
+		}
+	}
+	if lines < 20 {
+		t.Errorf("%d effect and difference lines in the summary:\n%s", lines, out)
 	}
 }
 
