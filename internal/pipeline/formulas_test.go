@@ -19,6 +19,7 @@ import (
 
 	"slopewise/internal/demo"
 	"slopewise/internal/estimate"
+	"slopewise/internal/io/iotest"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/report"
 )
@@ -227,7 +228,7 @@ var formulaCell = regexp.MustCompile(`<c r="([A-Z]+)([0-9]+)"([^>]*)><f>([^<]*)<
 // workbook's bytes with those results removed.
 func sheetFormulas(t *testing.T, path, sheet string) ([]storedFormula, []byte) {
 	t.Helper()
-	all := parts(t, path)
+	all := iotest.ZipParts(t, path)
 	part := sheetPart(t, all, sheet)
 	body := all[part]
 	var fs []storedFormula

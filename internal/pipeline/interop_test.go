@@ -1,14 +1,12 @@
 package pipeline
 
 import (
-	"archive/zip"
 	"bytes"
 	"context"
 	"encoding/json"
 	"encoding/xml"
 	"errors"
 	"fmt"
-	"io"
 	"math"
 	"os"
 	"os/exec"
@@ -19,6 +17,7 @@ import (
 	"time"
 
 	"slopewise/internal/estimate"
+	"slopewise/internal/io/iotest"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/report"
 )
@@ -260,7 +259,7 @@ func checkWriteBack(t *testing.T, e corpusEntry, src, dir string, a *Analysis) s
 	if err != nil || !bytes.Equal(back, orig) {
 		t.Errorf("the backup is not the original byte for byte (%v)", err)
 	}
-	before, after := parts(t, src), parts(t, path)
+	before, after := iotest.ZipParts(t, src), iotest.ZipParts(t, path)
 	for name, body := range before {
 		got, ok := after[name]
 		switch {
@@ -281,29 +280,6 @@ func checkWriteBack(t *testing.T, e corpusEntry, src, dir string, a *Analysis) s
 		}
 	}
 	return path
-}
-
-func parts(t *testing.T, path string) map[string][]byte {
-	t.Helper()
-	zr, err := zip.OpenReader(path)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer zr.Close()
-	out := map[string][]byte{}
-	for _, f := range zr.File {
-		rc, err := f.Open()
-		if err != nil {
-			t.Fatal(err)
-		}
-		b, err := io.ReadAll(rc)
-		rc.Close()
-		if err != nil {
-			t.Fatal(err)
-		}
-		out[f.Name] = b
-	}
-	return out
 }
 
 // settingAttrs are the attributes of the first element named el.

@@ -19,6 +19,7 @@ import (
 
 	"slopewise/internal/demo"
 	"slopewise/internal/estimate"
+	"slopewise/internal/io/iotest"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/report"
 )
@@ -50,7 +51,7 @@ func TestResultsSheetPageSetup(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	all := parts(t, w.Path)
+	all := iotest.ZipParts(t, w.Path)
 	sheet := string(all[sheetPart(t, all, w.Sheet)])
 	for _, want := range []*regexp.Regexp{
 		regexp.MustCompile(`<pageSetUpPr fitToPage="(true|1)"`),
