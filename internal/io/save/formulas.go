@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"regexp"
 
+	"slopewise/internal/io/table"
 	"slopewise/internal/io/xlsx"
 )
 
@@ -18,10 +19,19 @@ var strFormula = regexp.MustCompile(`(<c r="[A-Z]+[0-9]+"(?: s="[0-9]+")?) t="st
 // cell.go), which a program that does not recalculate would show as text.
 // The results sheet holds no other formulas, and its text is stored as
 // inline strings, so every t="str" before a formula in it is one of ours.
-func numberFormulas(tmp, sheet string, hasFormulas bool) error {
+// A failure is worded for target, the file being written.
+func numberFormulas(tmp, target, sheet string, hasFormulas bool) error {
 	if !hasFormulas {
 		return nil
 	}
+	if err := rewriteFormulas(tmp, sheet); err != nil {
+		return &table.Error{Path: target, Cause: table.ErrVerifyFailed, Detail: "the results sheet's formulas could not be finished", Underlying: err}
+	}
+	return nil
+}
+
+// rewriteFormulas drops t="str" before the formulas of sheet in tmp.
+func rewriteFormulas(tmp, sheet string) error {
 	zr, err := zip.OpenReader(tmp)
 	if err != nil {
 		return err

@@ -95,8 +95,8 @@ func writeBesideText(src string, sheet *report.Sheet, opts WriteOptions) (*Writt
 		return nil, err
 	}
 	defer os.Remove(tmp)
-	if err := numberFormulas(tmp, name, l.HasFormulas()); err != nil {
-		return nil, &table.Error{Path: target, Cause: table.ErrVerifyFailed, Detail: "the results sheet's formulas could not be finished", Underlying: err}
+	if err := numberFormulas(tmp, target, name, l.HasFormulas()); err != nil {
+		return nil, err
 	}
 	cut := 0
 	wide := &wideCopy{keep: opts.KeepColumns}

@@ -311,8 +311,8 @@ func writeWorkbook(src string, sheet *report.Sheet, opts WriteOptions) (*Written
 		return nil, err
 	}
 	defer os.Remove(tmp) // a no-op once renamed
-	if err := numberFormulas(tmp, name, l.HasFormulas()); err != nil {
-		return nil, &table.Error{Path: target, Cause: table.ErrVerifyFailed, Detail: "the results sheet's formulas could not be finished", Underlying: err}
+	if err := numberFormulas(tmp, target, name, l.HasFormulas()); err != nil {
+		return nil, err
 	}
 	origWB, err := readLimited(pkg.File(pkg.WorkbookPart), limitXML)
 	if err != nil {
