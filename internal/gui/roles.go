@@ -16,6 +16,7 @@ import (
 	"slopewise/internal/estimate"
 	"slopewise/internal/io/workbook"
 	"slopewise/internal/pipeline"
+	"slopewise/internal/report"
 )
 
 const none = "(none)"
@@ -410,7 +411,7 @@ func (s *rolesScreen) changed() {
 	for i, c := range s.lastChecks {
 		// Merging groups is done in the workbook: say what the window
 		// offers instead.
-		if strings.HasSuffix(c.Message, "Merge the group with another or leave it out.") {
+		if c.NoContrast {
 			s.lastChecks[i].Message += " Here: choose another moderator, or treat this one as a number; or merge the groups in the workbook (or clear the group's cells) and open it again."
 		}
 	}
@@ -459,7 +460,7 @@ func (s *rolesScreen) roleNotes() []pipeline.Check {
 			}
 			out = append(out, pipeline.Check{Severity: pipeline.Note, Message: fmt.Sprintf(
 				"%q has %d values: %s are each compared with %q as arms of their own, in every group, and the tests are adjusted for the number of arms.",
-				tc.Name, len(tc.Levels), joinAnd(rest), s.control.Selected)})
+				tc.Name, len(tc.Levels), report.JoinAnd(rest), s.control.Selected)})
 		}
 	}
 	if mc := s.column(s.moderator.Selected); mc != nil && s.modKind.Selected == kindGroups {
@@ -472,7 +473,7 @@ func (s *rolesScreen) roleNotes() []pipeline.Check {
 	if text := numbersAsText(s.u.table); len(text) > 0 {
 		out = append(out, pipeline.Check{Severity: pipeline.Note, Message: fmt.Sprintf(
 			"Not offered as the outcome: %s, which hold text with numbers in it (such as units or words). An outcome must hold numbers alone: write them in a column of their own in the workbook, then open it again.",
-			strings.Join(quoteAll(text), ", "))})
+			strings.Join(report.QuotedAll(text), ", "))})
 	}
 	return out
 }
@@ -528,7 +529,7 @@ func (s *rolesScreen) undoAdvice(err error) string {
 	}
 	switch {
 	case len(controls) > 0:
-		return fmt.Sprintf(" On the Roles step, untick %s under \"Adjust for\".", joinOr(quoteAll(controls)))
+		return fmt.Sprintf(" On the Roles step, untick %s under \"Adjust for\".", joinOr(report.QuotedAll(controls)))
 	case errors.Is(err, estimate.ErrLeverage) && len(s.controls.Selected) > 0:
 		return " The category is often one of a control's: on the Roles step, untick that control under \"Adjust for\"."
 	}
@@ -541,22 +542,6 @@ func joinOr(xs []string) string {
 		return strings.Join(xs, "")
 	}
 	return strings.Join(xs[:len(xs)-1], ", ") + " or " + xs[len(xs)-1]
-}
-
-// joinAnd joins "a", "b" and "c" as a list in words.
-func joinAnd(xs []string) string {
-	if len(xs) <= 1 {
-		return strings.Join(xs, "")
-	}
-	return strings.Join(xs[:len(xs)-1], ", ") + " and " + xs[len(xs)-1]
-}
-
-func quoteAll(names []string) []string {
-	out := make([]string, len(names))
-	for i, n := range names {
-		out[i] = fmt.Sprintf("%q", n)
-	}
-	return out
 }
 
 // checkRow shows one check with an icon for its severity.

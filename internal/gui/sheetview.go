@@ -318,14 +318,8 @@ func (h fixedHeight) Layout(objects []fyne.CanvasObject, size fyne.Size) {
 	}
 }
 
-// thousands writes n with commas between groups of three digits from
-// five digits on ("1200", "19,900"), as the notes write counts.
-func thousands(n int) string {
-	if n > -10000 && n < 10000 {
-		return strconv.Itoa(n)
-	}
-	return formatNumber(float64(n), "#,##0")
-}
+// thousands writes n as the notes write counts (report.Count).
+func thousands(n int) string { return report.Count(n) }
 
 // count writes n things: "1 row", "2 rows", "500,000 rows".
 func count(n int, thing string) string {

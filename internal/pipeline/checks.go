@@ -31,6 +31,11 @@ type Check struct {
 	// for the window to offer with a button; empty for most checks. It
 	// is never chosen without the person asking.
 	Cluster string
+	// NoContrast marks a group of the moderator where the treatment never
+	// varies: the fix lies in the data (merge the group with another, or
+	// leave it out) or in another moderator, which the window words as
+	// what it offers.
+	NoContrast bool
 }
 
 // Thresholds of the checks (rules of thumb; common practice unless named).
@@ -160,7 +165,10 @@ func Precheck(t *workbook.Table, s estimate.Spec) []Check {
 		if len(groups) < 2 {
 			add(Blocking, "The moderator %q has only one group among the usable rows.", s.Moderator.Column)
 		}
-		checkGroups(groups, arm, s, add)
+		noContrast := func(format string, args ...any) {
+			out = append(out, Check{Severity: Blocking, Message: fmt.Sprintf(format, args...), NoContrast: true})
+		}
+		checkGroups(groups, arm, s, add, noContrast)
 		if period != nil {
 			checkPeriodCells(groups, arm, period, s, add)
 		}
@@ -271,7 +279,7 @@ func treatmentArms(c *estimate.Column, t estimate.Treatment, usable []bool) []fl
 
 // checkGroups reports small groups and groups where the treatment does not
 // vary.
-func checkGroups(groups map[string][]int, arm []float64, s estimate.Spec, add func(Severity, string, ...any)) {
+func checkGroups(groups map[string][]int, arm []float64, s estimate.Spec, add func(Severity, string, ...any), noContrast func(string, ...any)) {
 	names := make([]string, 0, len(groups))
 	for g := range groups {
 		names = append(names, g)
@@ -288,7 +296,7 @@ func checkGroups(groups map[string][]int, arm []float64, s estimate.Spec, add fu
 			seen[arm[r]] = true
 		}
 		if len(seen) < 2 {
-			add(Blocking, "In the group %q of %q the treatment never varies (%d rows, all %s), so its effect there cannot be estimated. Merge the group with another or leave it out.",
+			noContrast("In the group %q of %q the treatment never varies (%d rows, all %s), so its effect there cannot be estimated. Merge the group with another or leave it out.",
 				estimate.ShortLabel(g), s.Moderator.Column, len(rows), armWords(arm[rows[0]], s.Treatment))
 		}
 	}

@@ -85,7 +85,7 @@ func Cautions(run Run, res *estimate.Result) []string {
 			}
 		}
 		if outside != nil {
-			add("The effect at %s %s is outside the observed range (%s to %s) and rests on the straight-line form of the model alone.", m, joinAnd(outside), readable(res.Moderator.Min), readable(res.Moderator.Max))
+			add("The effect at %s %s is outside the observed range (%s to %s) and rests on the straight-line form of the model alone.", m, JoinAnd(outside), readable(res.Moderator.Min), readable(res.Moderator.Max))
 		}
 		switch l := res.Linearity; {
 		case l != nil && l.NotJudged != nil:

@@ -51,7 +51,7 @@ func DesignWords(res *estimate.Result) []string {
 	if d.UnitEffects {
 		absorbed := "nothing else"
 		if len(d.Absorbed) > 0 {
-			absorbed = joinAnd(quotedAll(d.Absorbed))
+			absorbed = JoinAnd(QuotedAll(d.Absorbed))
 		}
 		say("Each of the %s units of %s was compared with itself (unit effects): its own level was taken out, and with it %s, which do not change within a unit and so are not estimated separately.", count(d.Units), quoted(d.Unit), absorbed)
 	}
@@ -75,7 +75,7 @@ func leadsWords(res *estimate.Result) []string {
 		parts = append(parts, part)
 	}
 	out := []string{fmt.Sprintf("Before the start, the gap between the programme's units and the comparison units, measured against their gap in %s %s (the last period before the start), was %s (the leads).",
-		res.Spec.Period, lc.Reference, joinAnd(parts))}
+		res.Spec.Period, lc.Reference, JoinAnd(parts))}
 	switch t := lc.Test; {
 	case t != nil:
 		p, boot := heterogeneityP(t)
@@ -94,7 +94,8 @@ func leadsWords(res *estimate.Result) []string {
 	return out
 }
 
-func quotedAll(xs []string) []string {
+// QuotedAll quotes each text, as the sentences quote names.
+func QuotedAll(xs []string) []string {
 	out := make([]string, len(xs))
 	for i, x := range xs {
 		out[i] = quoted(x)
@@ -241,7 +242,7 @@ func (w *noteWriter) armSentences() {
 		if w.run.Randomized {
 			subject = fmt.Sprintf("the estimated effect of %q against %q on %s", a.Arm, t.Control, res.Spec.Outcome)
 		}
-		w.say("%s was %s.", capitalise(subject), joinAnd(parts))
+		w.say("%s was %s.", capitalise(subject), JoinAnd(parts))
 		switch h := a.Heterogeneity; {
 		case h != nil:
 			p, boot := heterogeneityP(h)
@@ -278,7 +279,7 @@ func designPairs(res *estimate.Result) [][]Cell {
 		rows = append(rows, pair("Unit measured each time", fmt.Sprintf("%s (%s units)", d.Unit, count(d.Units))))
 	}
 	if d.UnitEffects {
-		rows = append(rows, pair("Unit effects", "each unit compared with itself; not estimated separately: "+joinAnd(d.Absorbed)))
+		rows = append(rows, pair("Unit effects", "each unit compared with itself; not estimated separately: "+JoinAnd(d.Absorbed)))
 	}
 	return rows
 }

@@ -88,7 +88,7 @@ func GroupingWarning(s estimate.Spec, gs []Grouping) (column, words string) {
 		return "", ""
 	}
 	return top.Column, fmt.Sprintf("The cluster column %s does not hold %s constant, but %s does. %s%s",
-		s.Cluster, joinAnd(missed), top.Column, top.finding(s), consequence)
+		s.Cluster, JoinAnd(missed), top.Column, top.finding(s), consequence)
 }
 
 // finding says in words what the column holds constant, or that it

@@ -45,7 +45,7 @@ func (w *noteWriter) effectsLine() string {
 		}
 		parts = append(parts, fmt.Sprintf("%s in %q (%s)", w.u.amount(e.Estimate), e.Group, in))
 	}
-	return fmt.Sprintf("%s was %s.", capitalise(w.subject()), joinAnd(parts))
+	return fmt.Sprintf("%s was %s.", capitalise(w.subject()), JoinAnd(parts))
 }
 
 // differLine says whether the groups differ and how sure that is.
@@ -163,9 +163,9 @@ func ScreenHeadline(sr ScreenRun, sc *estimate.Screen) []string {
 	case clear == nil:
 		first = fmt.Sprintf("Of the %s moderators tried, none shows that the %s differs between its groups once the number tried is allowed for (smallest adjusted %s); that is not evidence that it is the same for everyone.", countWord(n), what, pText(smallestHolm(sc)))
 	case unclear == nil:
-		first = fmt.Sprintf("Of the %s moderators tried, the %s differs between groups of each: %s.", countWord(n), what, joinAnd(clear))
+		first = fmt.Sprintf("Of the %s moderators tried, the %s differs between groups of each: %s.", countWord(n), what, JoinAnd(clear))
 	default:
-		first = fmt.Sprintf("Of the %s moderators tried, the %s differs between the groups of %s; for %s the data cannot tell.", countWord(n), what, joinAnd(clear), joinAnd(unclear))
+		first = fmt.Sprintf("Of the %s moderators tried, the %s differs between the groups of %s; for %s the data cannot tell.", countWord(n), what, JoinAnd(clear), JoinAnd(unclear))
 	}
 	var planned, exploratory []string
 	for i, c := range sr.Candidates {
@@ -182,7 +182,7 @@ func ScreenHeadline(sr ScreenRun, sc *estimate.Screen) []string {
 	case planned == nil:
 		second = "None was named before the data were examined, so each is exploratory."
 	default:
-		second = fmt.Sprintf("Of these, %s %s named before the data were examined; %s %s exploratory.", joinAnd(planned), wasWere(len(planned)), joinAnd(exploratory), isAre(len(exploratory)))
+		second = fmt.Sprintf("Of these, %s %s named before the data were examined; %s %s exploratory.", JoinAnd(planned), wasWere(len(planned)), JoinAnd(exploratory), isAre(len(exploratory)))
 	}
 	third := fmt.Sprintf("No moderator was randomly assigned: a difference across one shows for whom the %s was larger, not why.", what)
 	switch {

@@ -190,7 +190,7 @@ func (w *noteWriter) groups() {
 		}
 		parts = append(parts, fmt.Sprintf("%s in %s %q", w.effectText(e), m, e.Group))
 	}
-	w.say("%s was %s.", capitalise(w.subject()), joinAnd(parts))
+	w.say("%s was %s.", capitalise(w.subject()), JoinAnd(parts))
 
 	if len(res.Differences) == 1 {
 		w.difference(res.Differences[0])
@@ -419,7 +419,7 @@ func (w *noteWriter) equivalence() {
 	}
 	which := fmt.Sprintf("for none of the %d pairs of groups", len(ds))
 	if same != nil {
-		which = "only for " + joinAnd(same)
+		which = "only for " + JoinAnd(same)
 	}
 	w.say("%s conclude that the %s is the same to within that margin %s; for %q and %q, for example, the %s interval of the difference, %s, reaches beyond %s (the less clear of the two tests gives %s).",
 		lead, w.what(), which, worst.To, worst.From, lvl, interval(worst.Equivalence), within, pText(worst.Equivalence.P))
@@ -587,6 +587,10 @@ func (w *noteWriter) moderatorWords() {
 
 func count(n int) string { return groupThousands(fmt.Sprint(n)) }
 
+// Count writes a count as the notes do: commas between groups of three
+// digits from five digits on ("1200", "19,900").
+func Count(n int) string { return count(n) }
+
 func capitalise(s string) string {
 	if s == "" {
 		return s
@@ -594,7 +598,8 @@ func capitalise(s string) string {
 	return strings.ToUpper(s[:1]) + s[1:]
 }
 
-func joinAnd(parts []string) string {
+// JoinAnd joins texts as a list in words: "a, b and c".
+func JoinAnd(parts []string) string {
 	switch len(parts) {
 	case 0:
 		return ""

@@ -104,7 +104,7 @@ func ScreenNote(sr ScreenRun, sc *estimate.Screen) string {
 	case planned == nil:
 		w.say("None was named before the data were examined, so each is exploratory.")
 	default:
-		w.say("Of these, %s %s named before the data were examined and %s %s exploratory.", joinAnd(planned), wasWere(len(planned)), joinAnd(exploratory), isAre(len(exploratory)))
+		w.say("Of these, %s %s named before the data were examined and %s %s exploratory.", JoinAnd(planned), wasWere(len(planned)), JoinAnd(exploratory), isAre(len(exploratory)))
 	}
 	alpha := res.Model.Alpha
 	pName := "p"
@@ -136,12 +136,12 @@ func ScreenNote(sr ScreenRun, sc *estimate.Screen) string {
 		w.say("The test that the %s is the same in all groups of a moderator, adjusted for the %d tried by Holm's method, gives %s.", what, n, strings.Join(parts, "; "))
 	}
 	if untested != nil {
-		w.say("The test could not be computed for %s; %s counted among the moderators tried as if it had found nothing.", joinAnd(untested), itThey(len(untested)))
+		w.say("The test could not be computed for %s; %s counted among the moderators tried as if it had found nothing.", JoinAnd(untested), itThey(len(untested)))
 	}
 	if clear == nil {
 		w.say("Allowing for the moderators tried, the data cannot tell for any of them whether the %s differs between its groups; that is not evidence that it is the same for everyone, as the smallest detectable differences in the table show.", what)
 	} else {
-		w.say("Allowing for the moderators tried, the data show that the %s differs across %s.", what, joinAnd(clear))
+		w.say("Allowing for the moderators tried, the data show that the %s differs across %s.", what, JoinAnd(clear))
 		if exploratoryClear {
 			w.say("A clear difference across an exploratory moderator is a lead to check in new data, not a finding.")
 		}
@@ -153,7 +153,7 @@ func ScreenNote(sr ScreenRun, sc *estimate.Screen) string {
 		}
 	}
 	if bhOnly != nil {
-		w.say("Controlling instead the expected share of false leads among those flagged (Benjamini–Hochberg), %s would be flagged too (q below %s).", joinAnd(bhOnly), readable(alpha))
+		w.say("Controlling instead the expected share of false leads among those flagged (Benjamini–Hochberg), %s would be flagged too (q below %s).", JoinAnd(bhOnly), readable(alpha))
 	}
 	w.say("No moderator was randomly assigned: a difference across one shows for whom the %s was larger, not why. Each moderator's own results follow below.", what)
 	return strings.Join(w.sentences, " ")
