@@ -182,7 +182,7 @@ func firstTable(path string, sheets []workbook.SheetInfo, progress func(int)) (*
 // them as data. They are small; other sheets are not read.
 func markOwnResults(path string, sheets []workbook.SheetInfo, sizes map[string]string) {
 	for _, sh := range sheets {
-		if _, seen := sizes[sh.Name]; seen || !sh.Worksheet || !(strings.HasPrefix(sh.Name, "Results") || strings.HasPrefix(sh.Name, "Moderators")) {
+		if _, seen := sizes[sh.Name]; seen || !sh.Worksheet || !(strings.HasPrefix(sh.Name, report.ResultsSheet) || strings.HasPrefix(sh.Name, report.ModeratorsSheet)) {
 			continue
 		}
 		if t, err := pipeline.Read(context.Background(), report.Run{File: path, Sheet: sh.Name}, nil); err == nil && ownResults(t) {

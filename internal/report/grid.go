@@ -137,3 +137,10 @@ func PValueCell(p float64) Cell { return Cell{Kind: PValue, Value: p} }
 func ParagraphCell(s string, span int) Cell {
 	return Cell{Kind: Paragraph, Text: s, Span: max(span, 1)}
 }
+
+// The names the results sheets are given (a second run's sheet gets a
+// number after the name when it is added beside the first).
+const (
+	ResultsSheet    = "Results"
+	ModeratorsSheet = "Moderators"
+)

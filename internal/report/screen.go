@@ -218,7 +218,7 @@ func BuildScreen(sr ScreenRun, sc *estimate.Screen) (*Sheet, error) {
 	if err != nil {
 		return nil, fmt.Errorf("storing the screen's settings: %w", err)
 	}
-	s := &Sheet{Name: "Moderators", Spec: spec, Footer: runDate(sr.Base),
+	s := &Sheet{Name: ModeratorsSheet, Spec: spec, Footer: runDate(sr.Base),
 		Title: fmt.Sprintf("%s, by each of %d moderators", capitalise(subjectWords(sr.RunFor(sc, 0), sc.Results[0])), len(sc.Results))}
 	first := sheetBuilder{run: sr.RunFor(sc, 0), res: sc.Results[0], sheet: s}
 	first.add("headline", "In short", paragraphs(ScreenHeadline(sr, sc)))

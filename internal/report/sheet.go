@@ -26,7 +26,7 @@ func Build(run Run, res *estimate.Result) (*Sheet, error) {
 	if err != nil {
 		return nil, fmt.Errorf("storing the run's settings: %w", err)
 	}
-	s := &Sheet{Name: "Results", Spec: spec, Footer: runDate(run),
+	s := &Sheet{Name: ResultsSheet, Spec: spec, Footer: runDate(run),
 		Title: fmt.Sprintf("%s, by %s", capitalise(subjectWords(run, res)), res.Moderator.Column)}
 	b := sheetBuilder{run: run, res: res, sheet: s}
 	b.add("headline", "In short", paragraphs(Headline(run, res)))
