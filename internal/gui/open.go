@@ -89,8 +89,14 @@ func (u *UI) open(path string) {
 		if sheets, err = workbook.Sheets(path); err != nil {
 			return err
 		}
-		table, sizes, err = firstTable(path, sheets, u.readProgress(path))
-		return err
+		if table, sizes, err = firstTable(path, sheets, u.readProgress(path)); err != nil {
+			return err
+		}
+		// The rows of the sheets not read, for the Rows step's list.
+		if counted, err := workbook.SheetsCounted(path, func(name string) bool { _, read := sizes[name]; return !read }); err == nil {
+			sheets = counted
+		}
+		return nil
 	}, func(err error) {
 		if err != nil {
 			u.setStatus("")

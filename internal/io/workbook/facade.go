@@ -116,6 +116,12 @@ type SheetInfo = xlsx.SheetInfo
 // sheet with an empty name (xlsx.Sheets).
 func Sheets(path string) ([]SheetInfo, error) { return xlsx.Sheets(path) }
 
+// SheetsCounted is Sheets with the rows of the sheets count names counted
+// (xlsx.SheetsCounted).
+func SheetsCounted(path string, count func(name string) bool) ([]SheetInfo, error) {
+	return xlsx.SheetsCounted(path, count)
+}
+
 // A text file read in passes (package delimited).
 type Stream = delimited.Stream
 

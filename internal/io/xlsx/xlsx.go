@@ -27,8 +27,8 @@ type SheetInfo struct {
 	// no cells to read.
 	Worksheet bool
 	// Rows is the number of rows of cells the sheet holds (the header and
-	// any title rows included), counted by Sheets only; RowsMore says the
-	// count stopped after 256 MiB of the sheet's XML.
+	// any title rows included), counted by SheetsCounted only; RowsMore
+	// says the count stopped after 256 MiB of the sheet's XML.
 	Rows     int
 	RowsMore bool
 }
@@ -36,6 +36,13 @@ type SheetInfo struct {
 // Sheets lists a workbook's sheets in tab order. A text file has one
 // sheet with an empty name.
 func Sheets(path string) ([]SheetInfo, error) {
+	return SheetsCounted(path, func(string) bool { return false })
+}
+
+// SheetsCounted is Sheets with the rows of the worksheets that count says
+// to count counted (countRows reads each one's XML; a caller that reads a
+// sheet anyway leaves it out).
+func SheetsCounted(path string, count func(name string) bool) ([]SheetInfo, error) {
 	f, err := sniff.File(path)
 	if err != nil {
 		return nil, err
@@ -50,14 +57,14 @@ func Sheets(path string) ([]SheetInfo, error) {
 	defer pkg.Close()
 	out := append([]SheetInfo(nil), pkg.Sheets...)
 	for i := range out {
-		if out[i].Worksheet {
+		if out[i].Worksheet && count(out[i].Name) {
 			out[i].Rows, out[i].RowsMore = pkg.countRows(pkg.Parts[out[i].Name])
 		}
 	}
 	return out, nil
 }
 
-// rowsCounted is how much of a worksheet's XML Sheets reads to count its
+// rowsCounted is how much of a worksheet's XML SheetsCounted reads to count its
 // rows; past it, RowsMore is set.
 const rowsCounted = 256 << 20
 
